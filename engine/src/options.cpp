@@ -1,0 +1,81 @@
+#include <cmath>
+#include <sstream>
+
+#include "factorwatch/engine/fit.h"
+
+namespace factorwatch::engine {
+namespace {
+
+template <typename T>
+bool fail(std::string* error, const char* field, T value, const char* rule) {
+  if (error) {
+    std::ostringstream os;
+    os << "option '" << field << "' = " << value << ": " << rule;
+    *error = os.str();
+  }
+  return false;
+}
+
+}  // namespace
+
+bool FitOptions::IsValid(std::string* error) const {
+  if (factors < 1) return fail(error, "factors", factors, "must be at least 1");
+  if (weighting == Weighting::ewma && !(half_life > 0 && std::isfinite(half_life)))
+    return fail(error, "half_life", half_life, "must be a positive number of periods for EWMA weights");
+  if (!(min_coverage > 0 && min_coverage <= 1))
+    return fail(error, "min_coverage", min_coverage, "must be in (0, 1]");
+  if (!(constant_threshold >= 0 && constant_threshold < 1))
+    return fail(error, "constant_threshold", constant_threshold, "must be in [0, 1)");
+  if (!(specific_floor > 0 && specific_floor < 1))
+    return fail(error, "specific_floor", specific_floor, "must be in (0, 1)");
+  if (!(tolerance > 0 && tolerance < 1)) return fail(error, "tolerance", tolerance, "must be in (0, 1)");
+  if (max_iterations < 1) return fail(error, "max_iterations", max_iterations, "must be at least 1");
+  if (eigenvalues_to_report < 0)
+    return fail(error, "eigenvalues_to_report", eigenvalues_to_report, "must be 0 (default) or positive");
+  if (warm_start) {
+    const auto& w = *warm_start;
+    if (w.loadings.rows() != Eigen::Index(w.assets.size()) ||
+        w.specific_variance.size() != Eigen::Index(w.assets.size()))
+      return fail(error, "warm_start", w.assets.size(),
+                  "assets, loadings rows and specific_variance must have the same length");
+    if (w.loadings.cols() != factors)
+      return fail(error, "warm_start.loadings columns", w.loadings.cols(), "must equal factors");
+  }
+  return true;
+}
+
+const char* to_string(Method m) {
+  switch (m) {
+    case Method::pca: return "pca";
+    case Method::principal_axis: return "principal-axis";
+    case Method::max_likelihood: return "ml";
+  }
+  return "?";
+}
+
+const char* to_string(Basis b) { return b == Basis::covariance ? "covariance" : "correlation"; }
+
+const char* to_string(Termination t) {
+  switch (t) {
+    case Termination::not_run: return "not_run";
+    case Termination::converged: return "converged";
+    case Termination::iteration_limit: return "iteration_limit";
+    case Termination::numerical_failure: return "numerical_failure";
+  }
+  return "?";
+}
+
+std::optional<Method> parse_method(const std::string& s) {
+  if (s == "pca") return Method::pca;
+  if (s == "principal-axis") return Method::principal_axis;
+  if (s == "ml") return Method::max_likelihood;
+  return std::nullopt;
+}
+
+std::optional<Basis> parse_basis(const std::string& s) {
+  if (s == "covariance") return Basis::covariance;
+  if (s == "correlation") return Basis::correlation;
+  return std::nullopt;
+}
+
+}  // namespace factorwatch::engine

@@ -1,0 +1,153 @@
+#include "prepare.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+
+#include "weights.h"
+
+namespace factorwatch::engine::detail {
+namespace {
+
+std::string format(const char* fmt, double a, double b) {
+  char buf[160];
+  std::snprintf(buf, sizeof buf, fmt, a, b);
+  return buf;
+}
+
+double median(std::vector<double> v) {
+  if (v.empty()) return 0.0;
+  const std::size_t mid = v.size() / 2;
+  std::nth_element(v.begin(), v.begin() + mid, v.end());
+  return v[mid];
+}
+
+// Drops assets whose variance is negligible next to the window's typical asset.
+void exclude_constant(const FitOptions& options, std::vector<Eigen::Index>& keep,
+                      const Eigen::VectorXd& variance_by_column,
+                      const std::vector<std::string>& names, std::vector<ExcludedAsset>& excluded) {
+  std::vector<double> v;
+  for (Eigen::Index c : keep) v.push_back(variance_by_column[c]);
+  const double typical = median(v);
+  std::vector<Eigen::Index> kept;
+  for (Eigen::Index c : keep) {
+    const double s = variance_by_column[c];
+    if (!(s > options.constant_threshold * typical) || !(s > 0)) {
+      excluded.push_back({names[c], format("constant series: variance %.3g is below %.3g of the "
+                                           "window's median asset variance",
+                                           s, options.constant_threshold)});
+    } else {
+      kept.push_back(c);
+    }
+  }
+  keep.swap(kept);
+}
+
+}  // namespace
+
+PreparedData prepare(const ReturnsPanel& panel, const FitOptions& options) {
+  const Eigen::Index T = panel.periods(), width = panel.width();
+  PreparedData out;
+  out.periods = T;
+  const Eigen::VectorXd w = observation_weights(T, options.weighting, options.half_life);
+  out.effective_sample_size = effective_sample_size(w);
+
+  // Coverage, mean and variance of each column over its observed dates.
+  Eigen::VectorXd coverage = Eigen::VectorXd::Zero(width), mean = Eigen::VectorXd::Zero(width),
+                  variance = Eigen::VectorXd::Zero(width);
+  for (Eigen::Index t = 0; t < T; ++t)
+    for (Eigen::Index j = 0; j < width; ++j) {
+      const double x = panel.values(t, j);
+      if (std::isfinite(x)) {
+        coverage[j] += w[t];
+        mean[j] += w[t] * x;
+      }
+    }
+  for (Eigen::Index j = 0; j < width; ++j)
+    if (coverage[j] > 0) mean[j] /= coverage[j];
+  for (Eigen::Index t = 0; t < T; ++t)
+    for (Eigen::Index j = 0; j < width; ++j) {
+      const double x = panel.values(t, j);
+      if (std::isfinite(x)) variance[j] += w[t] * (x - mean[j]) * (x - mean[j]);
+    }
+
+  std::vector<Eigen::Index> keep;
+  for (Eigen::Index j = 0; j < width; ++j) {
+    if (coverage[j] + 1e-12 < options.min_coverage) {
+      out.excluded.push_back({panel.assets[j], format("coverage %.3f is below the minimum %.3f",
+                                                      coverage[j], options.min_coverage)});
+      continue;
+    }
+    variance[j] /= coverage[j];
+    keep.push_back(j);
+  }
+  exclude_constant(options, keep, variance, panel.assets, out.excluded);
+
+  const Eigen::Index N = Eigen::Index(keep.size());
+  out.columns = keep;
+  out.mean.resize(N);
+  out.variance.resize(N);
+  out.basis_scale.resize(N);
+  Eigen::VectorXd column_factor(N);
+  for (Eigen::Index i = 0; i < N; ++i) {
+    const Eigen::Index c = keep[i];
+    out.assets.push_back(panel.assets[c]);
+    out.mean[i] = mean[c];
+    out.variance[i] = variance[c];
+    out.basis_scale[i] = options.basis == Basis::correlation ? std::sqrt(variance[c]) : 1.0;
+    column_factor[i] = 1.0 / (std::sqrt(coverage[c]) * out.basis_scale[i]);
+  }
+
+  RowMatrix X(T, N);
+  bool any_gap = false;
+  for (Eigen::Index t = 0; t < T; ++t) {
+    const double root_w = std::sqrt(w[t]);
+    for (Eigen::Index i = 0; i < N; ++i) {
+      const double x = panel.values(t, keep[i]);
+      if (std::isfinite(x)) {
+        X(t, i) = root_w * (x - out.mean[i]) * column_factor[i];
+      } else {
+        X(t, i) = 0.0;
+        any_gap = true;
+      }
+    }
+  }
+  out.gap_handling = any_gap ? "gaps set to the asset's window mean; column rescaled by "
+                               "1/sqrt(coverage) so variances use observed dates only"
+                             : "no gaps among the fitted assets";
+  out.moments = std::make_unique<PanelMoments>(std::move(X));
+  return out;
+}
+
+PreparedData prepare(const CovarianceInput& input, const FitOptions& options) {
+  const Eigen::Index width = input.matrix.rows();
+  PreparedData out;
+  out.periods = Eigen::Index(std::llround(input.observations));
+  out.effective_sample_size = input.observations;
+  out.gap_handling = "not applicable: matrix given";
+
+  std::vector<Eigen::Index> keep;
+  Eigen::VectorXd variance = input.matrix.diagonal();
+  for (Eigen::Index j = 0; j < width; ++j) keep.push_back(j);
+  exclude_constant(options, keep, variance, input.assets, out.excluded);
+
+  const Eigen::Index N = Eigen::Index(keep.size());
+  out.columns = keep;
+  out.mean = Eigen::VectorXd::Zero(N);
+  out.variance.resize(N);
+  out.basis_scale.resize(N);
+  for (Eigen::Index i = 0; i < N; ++i) {
+    out.assets.push_back(input.assets[keep[i]]);
+    out.variance[i] = variance[keep[i]];
+    out.basis_scale[i] =
+        options.basis == Basis::correlation ? std::sqrt(variance[keep[i]]) : 1.0;
+  }
+  Eigen::MatrixXd S(N, N);
+  for (Eigen::Index i = 0; i < N; ++i)
+    for (Eigen::Index j = 0; j < N; ++j)
+      S(i, j) = input.matrix(keep[i], keep[j]) / (out.basis_scale[i] * out.basis_scale[j]);
+  out.moments = std::make_unique<DenseMoments>(std::move(S));
+  return out;
+}
+
+}  // namespace factorwatch::engine::detail
