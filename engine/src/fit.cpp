@@ -90,10 +90,14 @@ FactorFit fit_prepared(PreparedData d, const FitOptions& options,
     f.fit_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return f;
   };
-  if (N < k + 2) {
+  // Principal components need k assets; principal axis one more (a specific part
+  // must remain); ML k + 2 so that the model is not saturated.
+  const int needed = options.method == Method::pca ? k : options.method == Method::principal_axis ? k + 1 : k + 2;
+  if (N < needed) {
     out.termination = Termination::numerical_failure;
     out.message = "too few usable assets (" + std::to_string(N) + ") for " + std::to_string(k) +
-                  " factors; at least k + 2 are needed";
+                  " factors by " + to_string(options.method) + "; at least " + std::to_string(needed) +
+                  " are needed";
     return finish(out);
   }
 

@@ -1,0 +1,174 @@
+// Behaviour around the estimators: screening, gaps, weights, Heywood cases, warm
+// starts, canonical signs, option validation. Planted-structure data throughout.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <limits>
+
+#include "factorwatch/engine/fit.h"
+#include "simulated_model.h"
+#include "weights.h"
+
+namespace {
+
+using namespace factorwatch::engine;
+using factorwatch::testing::simulate_planted_model;
+constexpr double kGap = std::numeric_limits<double>::quiet_NaN();
+
+FitOptions ml(int k) {
+  FitOptions o;
+  o.factors = k;
+  return o;
+}
+
+// Kish's effective sample size (sum w)^2 / sum w^2 for geometric weights
+// w_t = lambda^(T-1-t) has the closed form (1 - l^T)^2 (1 + l) / ((1 - l)(1 - l^2T))
+// (sums of geometric series; Kish 1965, Survey Sampling, design effect of weighting).
+TEST(Weights, EffectiveSampleSizeOfExponentialWeights) {
+  const int T = 500;
+  const double half_life = 63;
+  const double l = std::pow(0.5, 1.0 / half_life);
+  const double expected = std::pow(1 - std::pow(l, T), 2) * (1 + l) / ((1 - l) * (1 - std::pow(l, 2 * T)));
+  const Eigen::VectorXd w = factorwatch::engine::detail::observation_weights(T, Weighting::ewma, half_life);
+  EXPECT_NEAR(w.sum(), 1.0, 1e-14);
+  EXPECT_NEAR(w[T - 1] / w[T - 1 - 63], 2.0, 1e-12);  // one half-life back weighs half
+  EXPECT_NEAR(factorwatch::engine::detail::effective_sample_size(w), expected, 1e-9 * expected);
+  const Eigen::VectorXd e = factorwatch::engine::detail::observation_weights(T, Weighting::equal, 0);
+  EXPECT_NEAR(factorwatch::engine::detail::effective_sample_size(e), T, 1e-9);
+}
+
+TEST(Weights, FitReportsTheEffectiveSampleSize) {
+  const auto m = simulate_planted_model(400, 20, 2, 7);
+  FitOptions o = ml(2);
+  o.weighting = Weighting::ewma;
+  o.half_life = 40;
+  const FactorFit f = fit(m.panel, o);
+  EXPECT_EQ(f.periods, 400);
+  EXPECT_GT(f.effective_sample_size, 100);
+  EXPECT_LT(f.effective_sample_size, 130);  // about 2.885 half-lives = 115 for a long window
+  ASSERT_TRUE(f.converged);
+}
+
+TEST(Screening, LowCoverageAndConstantSeriesAreExcludedWithReasons) {
+  auto m = simulate_planted_model(300, 20, 2, 8);
+  for (int t = 0; t < 200; ++t) m.panel.values(t, 4) = kGap;  // coverage 1/3
+  m.panel.values.col(7).setConstant(0.001);                    // constant series
+  const FactorFit f = fit(m.panel, ml(2));
+  ASSERT_EQ(f.excluded.size(), 2u);
+  EXPECT_EQ(f.excluded[0].asset, m.panel.assets[4]);
+  EXPECT_NE(f.excluded[0].reason.find("coverage 0.333"), std::string::npos) << f.excluded[0].reason;
+  EXPECT_EQ(f.excluded[1].asset, m.panel.assets[7]);
+  EXPECT_NE(f.excluded[1].reason.find("constant"), std::string::npos);
+  EXPECT_EQ(f.assets.size(), 18u);
+  EXPECT_EQ(f.loadings.rows(), 18);
+}
+
+// With gaps, each variance uses the asset's observed dates only (stated rule in
+// prepare.h): the fitted diag(Sigma) reproduces those variances at the ML optimum.
+TEST(Gaps, VariancesUseObservedDatesOnly) {
+  auto m = simulate_planted_model(600, 15, 2, 9);
+  for (int t = 0; t < 600; t += 7) m.panel.values(t, 2) = kGap;
+  for (int t = 100; t < 160; ++t) m.panel.values(t, 5) = kGap;
+  FitOptions o = ml(2);
+  o.tolerance = 1e-13;
+  o.max_iterations = 100000;
+  const FactorFit f = fit(m.panel, o);
+  ASSERT_TRUE(f.converged);
+  for (int i : {2, 5}) {
+    double sum = 0, sum2 = 0, n = 0;
+    for (int t = 0; t < 600; ++t) {
+      const double x = m.panel.values(t, i);
+      if (std::isnan(x)) continue;
+      sum += x;
+      n += 1;
+    }
+    const double mean = sum / n;
+    for (int t = 0; t < 600; ++t) {
+      const double x = m.panel.values(t, i);
+      if (!std::isnan(x)) sum2 += (x - mean) * (x - mean);
+    }
+    EXPECT_NEAR(f.mean[i], mean, 1e-15);
+    EXPECT_NEAR(f.scale[i] * f.scale[i], sum2 / n, 1e-12 * sum2 / n);
+    EXPECT_NEAR(f.communality[i] + f.specific_variance[i], sum2 / n, 1e-6 * sum2 / n);
+  }
+  EXPECT_NE(f.gap_handling.find("mean"), std::string::npos);
+}
+
+// An asset that is almost an exact copy of a factor has (nearly) no specific
+// variance: ML drives psi to the floor, which must be flagged, not hidden.
+TEST(Heywood, NearZeroSpecificVarianceIsFlooredAndFlagged) {
+  auto m = simulate_planted_model(800, 12, 1, 10);
+  for (int t = 0; t < 800; ++t) m.panel.values(t, 0) = 0.01 * m.factors(t, 0) + 1e-7 * std::sin(t);
+  FitOptions o = ml(1);
+  o.specific_floor = 0.005;
+  const FactorFit f = fit(m.panel, o);
+  ASSERT_TRUE(f.IsSolutionUsable());
+  EXPECT_TRUE(f.heywood[0]);
+  EXPECT_NEAR(f.uniqueness[0], 0.005, 1e-12);
+  for (std::size_t i = 1; i < f.heywood.size(); ++i) EXPECT_FALSE(f.heywood[i]) << i;
+}
+
+// Rolling windows overlap: a fit warm-started from yesterday's converges to the
+// same optimum as a cold one, in fewer EM passes.
+TEST(WarmStart, ReachesTheColdOptimumInFewerPasses) {
+  const auto m = simulate_planted_model(701, 300, 6, 12);
+  ReturnsPanel yesterday = m.panel, today = m.panel;
+  yesterday.values = m.panel.values.topRows(700);
+  yesterday.dates.pop_back();
+  today.values = m.panel.values.bottomRows(700);
+  today.dates.erase(today.dates.begin());
+  FitOptions o = ml(6);
+  o.tolerance = 1e-10;
+  const FactorFit prior = fit(yesterday, o);
+  const FactorFit cold = fit(today, o);
+  o.warm_start = WarmStart{prior.assets, prior.loadings, prior.specific_variance};
+  const FactorFit warm = fit(today, o);
+  ASSERT_TRUE(cold.converged && warm.converged);
+  EXPECT_TRUE(warm.warm_started);
+  EXPECT_LT(warm.iterations, cold.iterations);
+  EXPECT_NEAR(warm.log_likelihood, cold.log_likelihood, 1e-7 * std::abs(cold.log_likelihood));
+  EXPECT_LT((warm.specific_variance - cold.specific_variance).cwiseQuotient(cold.specific_variance).cwiseAbs().maxCoeff(), 1e-3);
+}
+
+// Canonical form (stated rule): factors ordered by variance explained; each column's sum is positive.
+TEST(Canonical, OrderedByVarianceWithPositiveColumnSums) {
+  const auto m = simulate_planted_model(1000, 40, 3, 13);
+  for (Method method : {Method::pca, Method::principal_axis, Method::max_likelihood}) {
+    FitOptions o = ml(3);
+    o.method = method;
+    const FactorFit f = fit(m.panel, o);
+    for (int j = 0; j < 3; ++j) {
+      EXPECT_GT(f.loadings.col(j).sum(), 0) << to_string(method);
+      if (j > 0) {
+        EXPECT_GE(f.explained_share[j - 1], f.explained_share[j]);
+      }
+    }
+  }
+}
+
+TEST(Options, InvalidOptionsNameTheFieldAndThrow) {
+  FitOptions o;
+  std::string error;
+  o.factors = 0;
+  EXPECT_FALSE(o.IsValid(&error));
+  EXPECT_NE(error.find("'factors' = 0"), std::string::npos) << error;
+  o = FitOptions{};
+  o.weighting = Weighting::ewma;
+  EXPECT_FALSE(o.IsValid(&error));
+  EXPECT_NE(error.find("half_life"), std::string::npos);
+  o.half_life = 10;
+  EXPECT_TRUE(o.IsValid(&error));
+  o.min_coverage = 1.5;
+  EXPECT_THROW(fit(simulate_planted_model(50, 5, 1, 1).panel, o), std::invalid_argument);
+}
+
+TEST(Options, TooFewAssetsIsAResultNotACrash) {
+  const auto m = simulate_planted_model(100, 4, 1, 14);
+  FitOptions o = ml(3);
+  const FactorFit f = fit(m.panel, o);
+  EXPECT_EQ(f.termination, Termination::numerical_failure);
+  EXPECT_FALSE(f.IsSolutionUsable());
+  EXPECT_NE(f.message.find("too few usable assets"), std::string::npos);
+}
+
+}  // namespace
