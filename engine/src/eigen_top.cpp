@@ -122,9 +122,16 @@ TopEigen top_eigenpairs(const SecondMoments& S, int count, int vectors_needed,
     }
   }
 
-  ShiftedMomentsOp op(S, shift);
-  TopEigen r = spectra_top(op, count, seed,
-                           X ? "spectra, matrix-free on the panel" : "spectra on the given matrix");
+  TopEigen r;
+  if (choice == SolverChoice::automatic && X && N <= kFormedLimit) {
+    Eigen::MatrixXd A = S.dense();
+    if (shift) A.diagonal() -= *shift;
+    Spectra::DenseSymMatProd<double> op(A);
+    r = spectra_top(op, count, seed, "spectra on the N x N covariance formed from the panel");
+  } else {
+    ShiftedMomentsOp op(S, shift);
+    r = spectra_top(op, count, seed, X ? "spectra, matrix-free on the panel" : "spectra on the given matrix");
+  }
   if (r.ok) return r;
   // Last resort: the dense solver, when the matrix fits in memory comfortably.
   if (N <= 20000) {

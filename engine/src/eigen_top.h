@@ -27,7 +27,11 @@ TopEigen top_eigenpairs(const SecondMoments& S, int count, int vectors_needed,
 // Top `count` eigenpairs of a dense symmetric matrix (LAPACK-style full solve).
 TopEigen dense_top_eigenpairs(const Eigen::MatrixXd& A, int count);
 
-// Sizes at which `automatic` stops using dense solvers (documented in DEVELOPERS.md).
-inline constexpr Eigen::Index kDenseLimit = 800;
+// Sizes behind the `automatic` route (documented in docs/methodology.md):
+// up to kDenseLimit assets the full dense eigen-decomposition is cheap enough;
+// up to kFormedLimit assets (and T >= N) S is formed once and Spectra runs on it,
+// since a product with the formed S (N^2) is cheaper than with the panel (2 T N).
+inline constexpr Eigen::Index kDenseLimit = 200;
+inline constexpr Eigen::Index kFormedLimit = 4000;
 
 }  // namespace factorwatch::engine::detail

@@ -14,6 +14,10 @@ Eigen::Index rows_per_block(Eigen::Index width) {
   return std::max<Eigen::Index>(8, target_bytes / std::max<Eigen::Index>(1, 8 * width));
 }
 
+// Below this many panel entries a product takes microseconds and waking a second
+// thread costs more than it saves (and stalls badly when the cores are busy).
+constexpr Eigen::Index kParallelEntries = 1 << 18;
+
 }  // namespace
 
 PanelMoments::PanelMoments(RowMatrix X) : X_(std::move(X)) {
@@ -25,7 +29,7 @@ void PanelMoments::multiply(const Eigen::MatrixXd& V, Eigen::MatrixXd& out) cons
   const Eigen::Index block = rows_per_block(N);
   const Eigen::Index blocks = (T + block - 1) / block;
   out.setZero(N, m);
-#pragma omp parallel
+#pragma omp parallel if (X_.size() >= kParallelEntries)
   {
     Eigen::MatrixXd acc = Eigen::MatrixXd::Zero(N, m);
     Eigen::MatrixXd Yb;
@@ -81,7 +85,7 @@ Eigen::MatrixXd gram_matrix(const RowMatrix& X) {
   for (Eigen::Index i = 0; i < blocks; ++i)
     for (Eigen::Index j = 0; j <= i; ++j) pairs.emplace_back(i, j);
   Eigen::MatrixXd G(T, T);
-#pragma omp parallel for schedule(dynamic)
+#pragma omp parallel for schedule(dynamic) if (X.size() >= kParallelEntries)
   for (std::size_t p = 0; p < pairs.size(); ++p) {
     const Eigen::Index i0 = pairs[p].first * block, j0 = pairs[p].second * block;
     const Eigen::Index ri = std::min(block, T - i0), rj = std::min(block, T - j0);

@@ -2,6 +2,7 @@
 
 
 #include <cmath>
+#include <memory>
 
 namespace factorwatch::engine::detail {
 namespace {
@@ -23,9 +24,13 @@ Estimate principal_axis_estimate(const SecondMoments& S, const TopEigen& spectru
 
   // The dense matrix is kept when it is cheap, so each iteration only shifts its diagonal.
   const bool dense = options.solver == SolverChoice::dense ||
-                     (options.solver == SolverChoice::automatic && N <= 4 * kDenseLimit);
+                     (options.solver == SolverChoice::automatic && N <= kFormedLimit);
   Eigen::MatrixXd Sd;
-  if (dense) Sd = S.dense();
+  std::unique_ptr<DenseMoments> formed;
+  if (dense) {
+    Sd = S.dense();
+    if (N > kDenseLimit) formed = std::make_unique<DenseMoments>(Sd);
+  }
 
   Eigen::VectorXd h;
   std::string start;
@@ -51,19 +56,17 @@ Estimate principal_axis_estimate(const SecondMoments& S, const TopEigen& spectru
   TopEigen top;
   for (int it = 1; it <= options.max_iterations; ++it) {
     const Eigen::VectorXd psi = s - h;
-    if (dense) {
+    if (dense && (N <= kDenseLimit || k >= N - 1)) {
       Eigen::MatrixXd A = Sd;
       A.diagonal() -= psi;
-      if (N <= 64 || k >= N - 1) {
-        top = dense_top_eigenpairs(A, k);
-      } else {
-        SolverChoice c = SolverChoice::matrix_free;  // Spectra on the stored matrix
-        DenseMoments shifted(std::move(A));
-        top = top_eigenpairs(shifted, k, k, nullptr, c, options.seed);
-      }
-      top.path = "principal axis on the dense matrix: " + top.path;
+      top = dense_top_eigenpairs(A, k);
+      top.path = "principal axis, dense eigen-decomposition of the formed matrix";
+    } else if (dense) {
+      top = top_eigenpairs(*formed, k, k, &psi, SolverChoice::matrix_free, options.seed);
+      top.path = "principal axis, " + top.path + " (formed once)";
     } else {
       top = top_eigenpairs(S, k, k, &psi, SolverChoice::matrix_free, options.seed);
+      top.path = "principal axis, " + top.path;
     }
     if (!top.ok) {
       e.termination = Termination::numerical_failure;
