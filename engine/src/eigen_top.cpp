@@ -1,5 +1,7 @@
 #include "eigen_top.h"
 
+#include "panel_kernels.h"
+
 #include <Spectra/MatOp/DenseSymMatProd.h>
 #include <Spectra/SymEigsSolver.h>
 
@@ -111,10 +113,11 @@ TopEigen top_eigenpairs(const SecondMoments& S, int count, int vectors_needed,
       r.path = "dense on the T x T gram matrix (spectra did not converge)";
     }
     if (r.ok) {
-      Eigen::MatrixXd V(N, vectors_needed);
+      Eigen::MatrixXd V;
+      const Eigen::MatrixXd U = r.vectors.leftCols(vectors_needed);
+      if (!transpose_product(*X, U, V)) V.noalias() = X->transpose() * U;
       for (int j = 0; j < vectors_needed; ++j) {
         const double lambda = r.values[j];
-        V.col(j) = X->transpose() * r.vectors.col(j);
         V.col(j) /= lambda > 0 ? std::sqrt(lambda) : std::max(V.col(j).norm(), 1e-300);
       }
       r.vectors = V;

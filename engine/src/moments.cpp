@@ -3,6 +3,8 @@
 #include <algorithm>
 #include <vector>
 
+#include "panel_kernels.h"
+
 namespace factorwatch::engine::detail {
 namespace {
 
@@ -14,17 +16,18 @@ Eigen::Index rows_per_block(Eigen::Index width) {
   return std::max<Eigen::Index>(8, target_bytes / std::max<Eigen::Index>(1, 8 * width));
 }
 
-// Below this many panel entries a product takes microseconds and waking a second
-// thread costs more than it saves (and stalls badly when the cores are busy).
-constexpr Eigen::Index kParallelEntries = 1 << 18;
-
 }  // namespace
 
 PanelMoments::PanelMoments(RowMatrix X) : X_(std::move(X)) {
   diag_ = X_.colwise().squaredNorm().transpose();
 }
 
+PanelMoments::PanelMoments(RowMatrix X, Eigen::VectorXd diagonal)
+    : X_(std::move(X)), diag_(std::move(diagonal)) {}
+
 void PanelMoments::multiply(const Eigen::MatrixXd& V, Eigen::MatrixXd& out) const {
+  if (fused_gram_product(X_, V, out)) return;
+  // Wide V: Eigen's GEMM per cache-sized row block, one accumulator per thread.
   const Eigen::Index T = X_.rows(), N = X_.cols(), m = V.cols();
   const Eigen::Index block = rows_per_block(N);
   const Eigen::Index blocks = (T + block - 1) / block;

@@ -29,6 +29,8 @@ class SecondMoments {
 class PanelMoments final : public SecondMoments {
  public:
   explicit PanelMoments(RowMatrix X);
+  // With diag(X'X) already known (the preparation computed the variances).
+  PanelMoments(RowMatrix X, Eigen::VectorXd diagonal);
   Eigen::Index size() const override { return X_.cols(); }
   const Eigen::VectorXd& diagonal() const override { return diag_; }
   void multiply(const Eigen::MatrixXd& V, Eigen::MatrixXd& out) const override;

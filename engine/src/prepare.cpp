@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdio>
 
+#include "panel_kernels.h"
 #include "weights.h"
 
 namespace factorwatch::engine::detail {
@@ -43,6 +44,56 @@ void exclude_constant(const FitOptions& options, std::vector<Eigen::Index>& keep
   keep.swap(kept);
 }
 
+// Weighted coverage, mean and variance of every column over its observed dates, in
+// two streaming passes over the rows (mean first, then squared deviations: the
+// two-pass form does not lose precision the way sum-of-squares does). Each thread
+// takes a range of rows with its own accumulators; the loops are branch-free so
+// that they vectorise.
+void column_statistics(const RowMatrix& values, const Eigen::VectorXd& w, Eigen::VectorXd& coverage,
+                       Eigen::VectorXd& mean, Eigen::VectorXd& variance) {
+  const Eigen::Index T = values.rows(), width = values.cols();
+  coverage = Eigen::VectorXd::Zero(width);
+  mean = Eigen::VectorXd::Zero(width);
+  variance = Eigen::VectorXd::Zero(width);
+  const bool parallel = values.size() >= kParallelEntries;
+#pragma omp parallel if (parallel)
+  {
+    Eigen::VectorXd c = Eigen::VectorXd::Zero(width), m = Eigen::VectorXd::Zero(width);
+#pragma omp for schedule(static) nowait
+    for (Eigen::Index t = 0; t < T; ++t) {
+      const double* row = values.data() + t * width;
+      const double wt = w[t];
+      for (Eigen::Index j = 0; j < width; ++j) {
+        const bool ok = std::isfinite(row[j]);
+        c[j] += ok ? wt : 0.0;
+        m[j] += ok ? wt * row[j] : 0.0;
+      }
+    }
+#pragma omp critical
+    {
+      coverage += c;
+      mean += m;
+    }
+#pragma omp barrier
+#pragma omp single
+    for (Eigen::Index j = 0; j < width; ++j)
+      if (coverage[j] > 0) mean[j] /= coverage[j];
+    // (the implicit barrier after `single` publishes the means)
+    Eigen::VectorXd v = Eigen::VectorXd::Zero(width);
+#pragma omp for schedule(static) nowait
+    for (Eigen::Index t = 0; t < T; ++t) {
+      const double* row = values.data() + t * width;
+      const double wt = w[t];
+      for (Eigen::Index j = 0; j < width; ++j) {
+        const double d = std::isfinite(row[j]) ? row[j] - mean[j] : 0.0;
+        v[j] += wt * d * d;
+      }
+    }
+#pragma omp critical
+    variance += v;
+  }
+}
+
 }  // namespace
 
 PreparedData prepare(const ReturnsPanel& panel, const FitOptions& options) {
@@ -53,23 +104,8 @@ PreparedData prepare(const ReturnsPanel& panel, const FitOptions& options) {
   out.effective_sample_size = effective_sample_size(w);
 
   // Coverage, mean and variance of each column over its observed dates.
-  Eigen::VectorXd coverage = Eigen::VectorXd::Zero(width), mean = Eigen::VectorXd::Zero(width),
-                  variance = Eigen::VectorXd::Zero(width);
-  for (Eigen::Index t = 0; t < T; ++t)
-    for (Eigen::Index j = 0; j < width; ++j) {
-      const double x = panel.values(t, j);
-      if (std::isfinite(x)) {
-        coverage[j] += w[t];
-        mean[j] += w[t] * x;
-      }
-    }
-  for (Eigen::Index j = 0; j < width; ++j)
-    if (coverage[j] > 0) mean[j] /= coverage[j];
-  for (Eigen::Index t = 0; t < T; ++t)
-    for (Eigen::Index j = 0; j < width; ++j) {
-      const double x = panel.values(t, j);
-      if (std::isfinite(x)) variance[j] += w[t] * (x - mean[j]) * (x - mean[j]);
-    }
+  Eigen::VectorXd coverage, mean, variance;
+  column_statistics(panel.values, w, coverage, mean, variance);
 
   std::vector<Eigen::Index> keep;
   for (Eigen::Index j = 0; j < width; ++j) {
@@ -100,22 +136,24 @@ PreparedData prepare(const ReturnsPanel& panel, const FitOptions& options) {
 
   RowMatrix X(T, N);
   bool any_gap = false;
+#pragma omp parallel for schedule(static) reduction(|| : any_gap) if (panel.values.size() >= kParallelEntries)
   for (Eigen::Index t = 0; t < T; ++t) {
     const double root_w = std::sqrt(w[t]);
+    const double* row = panel.values.data() + t * width;
+    double* x = X.data() + t * N;
     for (Eigen::Index i = 0; i < N; ++i) {
-      const double x = panel.values(t, keep[i]);
-      if (std::isfinite(x)) {
-        X(t, i) = root_w * (x - out.mean[i]) * column_factor[i];
-      } else {
-        X(t, i) = 0.0;
-        any_gap = true;
-      }
+      const double v = row[keep[std::size_t(i)]];
+      const bool observed = std::isfinite(v);
+      any_gap = any_gap || !observed;
+      x[i] = observed ? root_w * (v - out.mean[i]) * column_factor[i] : 0.0;
     }
   }
   out.gap_handling = any_gap ? "gaps set to the asset's window mean; column rescaled by "
                                "1/sqrt(coverage) so variances use observed dates only"
                              : "no gaps among the fitted assets";
-  out.moments = std::make_unique<PanelMoments>(std::move(X));
+  // diag(X'X) is the variance on the basis scale (1 for correlation), known already.
+  out.moments = std::make_unique<PanelMoments>(
+      std::move(X), out.variance.cwiseQuotient(out.basis_scale.cwiseAbs2()));
   return out;
 }
 
