@@ -133,7 +133,7 @@ TopEigen top_eigenpairs(const SecondMoments& S, int count, int vectors_needed,
     r = spectra_top(op, count, seed, "spectra on the N x N covariance formed from the panel");
   } else {
     ShiftedMomentsOp op(S, shift);
-    r = spectra_top(op, count, seed, X ? "spectra, matrix-free on the panel" : "spectra on the given matrix");
+    r = spectra_top(op, count, seed, X ? "spectra, matrix-free on the panel" : "spectra on the stored matrix");
   }
   if (r.ok) return r;
   // Last resort: the dense solver, when the matrix fits in memory comfortably.

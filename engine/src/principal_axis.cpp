@@ -26,11 +26,7 @@ Estimate principal_axis_estimate(const SecondMoments& S, const TopEigen& spectru
   const bool dense = options.solver == SolverChoice::dense ||
                      (options.solver == SolverChoice::automatic && N <= kFormedLimit);
   Eigen::MatrixXd Sd;
-  std::unique_ptr<DenseMoments> formed;
-  if (dense) {
-    Sd = S.dense();
-    if (N > kDenseLimit) formed = std::make_unique<DenseMoments>(Sd);
-  }
+  if (dense) Sd = S.dense();
 
   Eigen::VectorXd h;
   std::string start;
@@ -51,19 +47,24 @@ Estimate principal_axis_estimate(const SecondMoments& S, const TopEigen& spectru
   }
   cap_communality(s, options.specific_floor, h);
 
+  // Past the dense limit the formed matrix moves into an operator for Spectra (no copy).
+  std::unique_ptr<DenseMoments> formed;
+  if (dense && options.solver != SolverChoice::dense && N > kDenseLimit && k < N - 1)
+    formed = std::make_unique<DenseMoments>(std::move(Sd));
+
   e.termination = Termination::iteration_limit;
   e.message = "iteration limit reached before the tolerance; started from " + start;
   TopEigen top;
   for (int it = 1; it <= options.max_iterations; ++it) {
     const Eigen::VectorXd psi = s - h;
-    if (dense && (N <= kDenseLimit || k >= N - 1)) {
+    if (dense && !formed) {
       Eigen::MatrixXd A = Sd;
       A.diagonal() -= psi;
       top = dense_top_eigenpairs(A, k);
       top.path = "principal axis, dense eigen-decomposition of the formed matrix";
-    } else if (dense) {
+    } else if (formed) {
       top = top_eigenpairs(*formed, k, k, &psi, SolverChoice::matrix_free, options.seed);
-      top.path = "principal axis, " + top.path + " (formed once)";
+      top.path = "principal axis, " + top.path + " (S formed once)";
     } else {
       top = top_eigenpairs(S, k, k, &psi, SolverChoice::matrix_free, options.seed);
       top.path = "principal axis, " + top.path;
