@@ -5,6 +5,8 @@
 #include <cstdio>
 #include <iostream>
 #include <stdexcept>
+#include <string>
+#include <utility>
 
 #include "factorwatch/engine/fit.h"
 #include "factorwatch/storage/covariance_csv.h"
@@ -41,6 +43,19 @@ bool check_source(const FitArguments& a, std::string* error) {
     return false;
   }
   return true;
+}
+
+// The engine names its fields (half_life); the user typed options (--half-life).
+std::string cli_spelling(std::string message) {
+  static const std::pair<const char*, const char*> names[] = {
+      {"'factors'", "'--factors'"},           {"'half_life'", "'--half-life'"},
+      {"'min_coverage'", "'--min-coverage'"}, {"'tolerance'", "'--tolerance'"},
+      {"'max_iterations'", "'--max-iterations'"}};
+  for (const auto& [engine_name, option] : names) {
+    const auto at = message.find(engine_name);
+    if (at != std::string::npos) message.replace(at, std::string(engine_name).size(), option);
+  }
+  return message;
 }
 
 engine::FitOptions to_fit_options(const FitArguments& a) {
@@ -157,7 +172,7 @@ int run_fit_command(const FitArguments& a) {
   }
   const engine::FitOptions options = to_fit_options(a);
   if (!options.IsValid(&error)) {
-    std::fprintf(stderr, "factorwatch fit: %s\n", error.c_str());
+    std::fprintf(stderr, "factorwatch fit: %s\n", cli_spelling(error).c_str());
     return kBadInput;
   }
 
