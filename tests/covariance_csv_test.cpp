@@ -56,6 +56,17 @@ class CovarianceCsv : public ::testing::Test {
   int count_ = 0;
 };
 
+// A bare matrix under a header of names (no row names) is read by position.
+TEST_F(CovarianceCsv, BareRowsUnderAHeaderOfNames) {
+  const CovarianceInput in = read_covariance_csv(write("A,B,C\n4,1,0.5\n1,9,2\n0.5,2,16\n"), 60);
+  ASSERT_EQ(in.assets, (std::vector<std::string>{"A", "B", "C"}));
+  EXPECT_EQ(in.matrix(1, 1), 9);
+  EXPECT_EQ(in.matrix(2, 0), 0.5);
+  EXPECT_EQ(in.observations, 60);
+  expect_error("A,B\n4,1\n1\n", 3, "B", "missing");
+  expect_error("A,B\n4,1\n1,9,3\n", 3, "B", "extra fields");
+}
+
 TEST_F(CovarianceCsv, HeaderWithCornerCell) {
   const CovarianceInput in = read_covariance_csv(write(",A,B\nA,4,1\nB,1,9\n"), 250);
   EXPECT_EQ(in.assets, (std::vector<std::string>{"A", "B"}));

@@ -29,13 +29,23 @@ std::string number_text(double v) {
 struct Edges {
   std::vector<std::string> names;  // the assets, in header order
   std::string row_label;           // how to call the first column in messages
+  bool row_names = true;           // each row starts with its asset's name
 };
 
-// The header may or may not start with a corner cell; the first data row decides.
+// The header may or may not start with a corner cell, and the rows may or may not
+// start with names; the first data row decides. As wide as the header and starting
+// with a number (not a name): a bare matrix under a header of names, read by position.
 Edges read_edges(const std::vector<std::string>& header, std::size_t header_line,
-                 std::size_t first_row_width, std::size_t first_row_line, const std::string& path) {
+                 std::size_t first_row_width, std::string_view first_field, std::size_t first_row_line,
+                 const std::string& path) {
   Edges edges;
-  if (first_row_width == header.size()) {
+  double probe = 0;
+  if (first_row_width == header.size() && !header[0].empty() &&
+      detail::parse_cell(first_field, probe) == detail::Cell::number) {
+    edges.names = header;
+    edges.row_label = edges.names[0];
+    edges.row_names = false;
+  } else if (first_row_width == header.size()) {
     edges.names.assign(header.begin() + 1, header.end());
     edges.row_label = header[0].empty() ? "(row names)" : header[0];
   } else if (first_row_width == header.size() + 1) {
@@ -93,8 +103,10 @@ engine::CovarianceInput read_covariance_csv(const std::string& path, double obse
   const std::vector<std::string> header(fields.begin(), fields.end());
   if (!scanner.next(fields)) throw InputError(path, header_line, "", "no matrix rows after the header");
 
-  const Edges edges = read_edges(header, header_line, fields.size(), scanner.line(), path);
+  const Edges edges = read_edges(header, header_line, fields.size(), fields.empty() ? std::string_view() : fields[0],
+                                 scanner.line(), path);
   const std::size_t n = edges.names.size();
+  const std::size_t first = edges.row_names ? 1 : 0;  // where the numbers start in a row
   scanner.set_column_names(nullptr);  // row fields are offset by one from the names
 
   engine::CovarianceInput input;
@@ -110,23 +122,26 @@ engine::CovarianceInput read_covariance_csv(const std::string& path, double obse
       throw InputError(path, line, edges.row_label,
                        "extra row " + detail::quoted(fields[0]) + ": the header names " +
                            std::to_string(n) + " assets");
-    if (fields.size() != n + 1) {
+    if (fields.size() != n + first) {
       const std::string counts = "the row has " + std::to_string(fields.size()) + " fields, expected " +
-                                 std::to_string(n + 1) + " (a name and " + std::to_string(n) + " numbers)";
-      if (fields.size() < n + 1) throw InputError(path, line, edges.names[fields.size() - 1], "missing: " + counts);
+                                 std::to_string(n + first) +
+                                 (edges.row_names ? " (a name and " + std::to_string(n) + " numbers)" : "");
+      if (fields.size() < n + first)
+        throw InputError(path, line, edges.names[fields.size() > first ? fields.size() - first : 0],
+                         "missing: " + counts);
       throw InputError(path, line, edges.names.back(), "extra fields after this column: " + counts);
     }
-    if (fields[0] != edges.names[i])
+    if (edges.row_names && fields[0] != edges.names[i])
       throw InputError(path, line, edges.row_label,
                        "row name " + detail::quoted(fields[0]) + " does not match the header's " +
                            detail::quoted(edges.names[i]) + " in the same position");
     for (std::size_t j = 0; j < n; ++j) {
       double value = 0;
-      const detail::Cell kind = detail::parse_cell(fields[j + 1], value);
+      const detail::Cell kind = detail::parse_cell(fields[j + first], value);
       if (kind == detail::Cell::gap)
         throw InputError(path, line, edges.names[j], "missing value (a matrix may have no gaps)");
       if (kind != detail::Cell::number)
-        throw InputError(path, line, edges.names[j], detail::describe_bad_cell(kind, fields[j + 1]));
+        throw InputError(path, line, edges.names[j], detail::describe_bad_cell(kind, fields[j + first]));
       if (i == j && value < 0)
         throw InputError(path, line, edges.names[j],
                          "negative variance " + number_text(value) + " on the diagonal");

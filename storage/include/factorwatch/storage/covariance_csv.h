@@ -2,7 +2,9 @@
 //
 // Layout: a header row of asset names, optionally preceded by a corner cell (as R's
 // write.csv writes it), then one row per asset: its name (must equal the header's name in
-// the same position) and N numbers. Every entry must be a finite number (no gaps), the
+// the same position) and N numbers. Rows may also be bare: N numbers under a header of N
+// names, read by position (recognised when the first row is as wide as the header and
+// starts with a number). Every entry must be a finite number (no gaps), the
 // diagonal non-negative, and the matrix symmetric: |a_ij - a_ji| <= 1e-10 times the
 // entry's scale max(|a_ij|, |a_ji|, sqrt(a_ii a_jj)); the two triangles are then averaged
 // so the engine receives an exactly symmetric matrix. Comment lines, quotes, CRLF and
