@@ -1,0 +1,86 @@
+// End to end: the `factorwatch fit` command as a user runs it, on published data.
+#include <gtest/gtest.h>
+#include <unistd.h>
+
+#include <array>
+#include <cstdio>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <string>
+#include <sys/wait.h>
+
+#include "factorwatch/engine/caution.h"
+#include "reference_table.h"
+
+namespace {
+
+struct CommandResult {
+  int status = -1;
+  std::string out;  // standard output only
+};
+
+CommandResult run(const std::string& arguments) {
+  CommandResult r;
+  const std::string command = std::string(FACTORWATCH_COMMAND) + " " + arguments + " 2>/dev/null";
+  FILE* pipe = ::popen(command.c_str(), "r");
+  if (!pipe) return r;
+  std::array<char, 4096> buffer{};
+  std::size_t n = 0;
+  while ((n = std::fread(buffer.data(), 1, buffer.size(), pipe)) > 0) r.out.append(buffer.data(), n);
+  const int status = ::pclose(pipe);
+  r.status = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+  return r;
+}
+
+const std::string kHarman = std::string(FACTORWATCH_REFERENCE_DIR) + "/harman74_cor.csv";
+
+// Source: R 4.2.2 stats::factanal(factors = 2, covmat = Harman74.cor, rotation = "none")
+// run to tight convergence (tests/reference/harman74_factanal_k2.csv and _summary.csv).
+// Tolerances: the command's default tolerance (1e-8 relative log-likelihood change)
+// leaves uniquenesses within about 1e-4 of the optimum; the statistic within 1e-4.
+TEST(FitCommand, JsonOnHarman74MatchesFactanal) {
+  const CommandResult r = run("fit --covariance " + kHarman + " --observations 145 --factors 2 --format json");
+  ASSERT_EQ(r.status, 0) << r.out;
+  const auto j = nlohmann::json::parse(r.out);
+  const auto ref = factorwatch::testing::read_reference("harman74_factanal_k2.csv");
+  const auto summary = factorwatch::testing::read_reference("harman74_factanal_summary.csv");
+  ASSERT_EQ(j["assets"].size(), ref.rows.size());
+  for (std::size_t i = 0; i < ref.rows.size(); ++i) {
+    EXPECT_EQ(j["assets"][i], ref.text(i, "variable"));
+    EXPECT_NEAR(j["uniqueness"][i].get<double>(), ref.number(i, "uniqueness"), 2e-4);
+    EXPECT_EQ(j["loadings"][i].size(), 2u);
+  }
+  EXPECT_NEAR(j["lr_test"]["statistic"].get<double>(), summary.number(1, "statistic"),
+              1e-4 * summary.number(1, "statistic"));
+  EXPECT_EQ(j["lr_test"]["dof"].get<double>(), summary.number(1, "dof"));
+  EXPECT_TRUE(j["converged"].get<bool>());
+  EXPECT_EQ(j["termination"], "converged");
+  EXPECT_EQ(j["caution"], factorwatch::engine::kCaution);
+  EXPECT_GE(j["eigenvalues"].size(), 14u);  // 2k + 10
+  EXPECT_GT(j["fit_seconds"].get<double>(), 0.0);
+  for (const char* key : {"specific_variance", "communality", "trace", "log_likelihood", "iterations",
+                          "excluded", "heywood", "method", "basis", "solver_path"})
+    EXPECT_TRUE(j.contains(key)) << key;
+}
+
+TEST(FitCommand, TableEndsWithTheCaution) {
+  const CommandResult r = run("fit --covariance " + kHarman + " --observations 145 --factors 3 --method pca");
+  ASSERT_EQ(r.status, 0);
+  std::string last = r.out.substr(0, r.out.find_last_not_of('\n') + 1);
+  last = last.substr(last.find_last_of('\n') + 1);
+  EXPECT_EQ(last, factorwatch::engine::kCaution);
+  EXPECT_NE(r.out.find("PargraphComprehension"), std::string::npos);
+}
+
+TEST(FitCommand, BadInputExitsWithTwoAndPrintsNoModel) {
+  const std::string path = ::testing::TempDir() + "/factorwatch_bad_returns.csv";
+  std::ofstream(path) << "date,asset,return\n2024-01-02,ZQ-0001,0.01\n2024-01-03,ZQ-0001,oops\n";
+  EXPECT_EQ(run("fit --returns " + path).status, 2);
+  EXPECT_EQ(run("fit --covariance " + kHarman + " --observations 145 --factors 0").status, 2);
+  EXPECT_EQ(run("fit --returns " + path + " --covariance " + kHarman).status, 2);
+  const CommandResult missing = run("fit --returns /nonexistent/returns.csv");
+  EXPECT_EQ(missing.status, 2);
+  EXPECT_TRUE(missing.out.empty());
+}
+
+}  // namespace
