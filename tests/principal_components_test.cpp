@@ -43,6 +43,13 @@ void reference_pairs(const std::string& source, Eigen::VectorXd& values, Eigen::
   }
 }
 
+// Principal-component loadings from reference eigenpairs: sqrt(lambda_j) v_j, j < k.
+Eigen::MatrixXd loadings_from(const Eigen::VectorXd& values, const Eigen::MatrixXd& vectors, int k) {
+  Eigen::MatrixXd L = vectors.leftCols(k);
+  for (int j = 0; j < k; ++j) L.col(j) *= std::sqrt(values[j]);
+  return L;
+}
+
 // Source: numpy 1.24.2 numpy.linalg.eigh(numpy.cov(r, rowvar=False, ddof=0)) — LAPACK
 // dsyevd — on the same returns (tests/reference/make_eustock_pca.py). ddof=0 because
 // the engine's covariance divides by the sum of the weights (n).
@@ -58,8 +65,7 @@ TEST(PrincipalComponents, CovarianceEigenpairsMatchNumpyEigh) {
   ASSERT_GE(f.eigenvalues.size(), 4);
   for (int j = 0; j < 4; ++j) EXPECT_NEAR(f.eigenvalues[j], values[j], 1e-12 * values[0]);
   // Loadings are sqrt(lambda_j) v_j; relative 1e-10 covers rounding in both solvers.
-  Eigen::MatrixXd expected = vectors.leftCols(2);
-  for (int j = 0; j < 2; ++j) expected.col(j) *= std::sqrt(values[j]);
+  const Eigen::MatrixXd expected = loadings_from(values, vectors, 2);
   EXPECT_LT(max_difference_up_to_sign(f.loadings, expected), 1e-10 * expected.cwiseAbs().maxCoeff());
   EXPECT_NEAR(f.trace, values.sum(), 1e-12 * values.sum());
 }
@@ -77,8 +83,7 @@ TEST(PrincipalComponents, CorrelationEigenpairsMatchR) {
   ASSERT_TRUE(f.converged) << f.message;
   ASSERT_GE(f.eigenvalues.size(), 4);
   for (int j = 0; j < 4; ++j) EXPECT_NEAR(f.eigenvalues[j], values[j], 1e-12);
-  Eigen::MatrixXd expected = vectors.leftCols(3);
-  for (int j = 0; j < 3; ++j) expected.col(j) *= std::sqrt(values[j]);
+  const Eigen::MatrixXd expected = loadings_from(values, vectors, 3);
   EXPECT_LT(max_difference_up_to_sign(f.standardized_loadings(), expected), 1e-10);
   EXPECT_NEAR(f.trace, 4.0, 1e-12);
 }

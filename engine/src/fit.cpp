@@ -22,7 +22,7 @@ using detail::Estimate;
 using detail::PreparedData;
 using detail::SecondMoments;
 
-constexpr double kLog2Pi = 1.8378770664093454836;
+using detail::kLog2Pi;
 // Above this width the LR test's log|S| (a dense N x N factorisation) is skipped;
 // the test needs n > N anyway, which wide panels never meet.
 constexpr Eigen::Index kLikelihoodRatioMaxWidth = 4000;

@@ -5,8 +5,6 @@
 namespace factorwatch::engine::detail {
 namespace {
 
-constexpr double kLog2Pi = 1.8378770664093454836;
-
 struct Params {
   Eigen::MatrixXd L;
   Eigen::VectorXd psi;

@@ -7,6 +7,8 @@
 
 namespace factorwatch::engine::detail {
 
+inline constexpr double kLog2Pi = 1.8378770664093454836;  // log(2 pi)
+
 // Gaussian log-likelihood per observation of Sigma = L L' + diag(psi) given S:
 // -(1/2) [N log(2 pi) + log|Sigma| + tr(Sigma^-1 S)], by the matrix determinant
 // lemma and the Woodbury identity (one product S * (Psi^-1 L)).
