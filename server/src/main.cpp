@@ -2,19 +2,47 @@
 // and turns command-line mistakes into exit code 2, the usual code for a usage error.
 #include <CLI/CLI.hpp>
 
+#include "cli_common.h"
+#include "exposures_command.h"
 #include "fit_command.h"
+#include "load_command.h"
+#include "model_command.h"
+#include "refresh_command.h"
+#include "specific_risk_command.h"
+#include "windows_command.h"
 
 int main(int argc, char** argv) {
+  using namespace factorwatch::server;
   CLI::App app{"factorwatch: statistical factor risk models fitted to asset returns"};
   app.require_subcommand(1);
-  factorwatch::server::FitArguments fit_arguments;
-  CLI::App* fit = factorwatch::server::add_fit_command(app, fit_arguments);
+  GlobalArguments global;
+  add_global_options(app, global);
+
+  FitArguments fit_arguments;
+  LoadArguments load_arguments;
+  ModelArguments model_arguments;
+  RefreshArguments refresh_arguments;
+  WindowsArguments windows_arguments;
+  WindowArguments exposures_arguments, specific_arguments;
+  CLI::App* load = add_load_command(app, load_arguments);
+  CLI::App* model = add_model_command(app, model_arguments);
+  CLI::App* refresh = add_refresh_command(app, refresh_arguments);
+  CLI::App* windows = add_windows_command(app, windows_arguments);
+  CLI::App* exposures = add_exposures_command(app, exposures_arguments);
+  CLI::App* specific = add_specific_risk_command(app, specific_arguments);
+  CLI::App* fit = add_fit_command(app, fit_arguments);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
     const int code = app.exit(e);  // prints help, or the error with a hint
-    return code == 0 ? 0 : 2;
+    return code == 0 ? 0 : kExitBadInput;
   }
-  if (fit->parsed()) return factorwatch::server::run_fit_command(fit_arguments);
-  return 2;
+  if (load->parsed()) return run_load_command(load_arguments, global);
+  if (model->parsed()) return run_model_command(model_arguments, global);
+  if (refresh->parsed()) return run_refresh_command(refresh_arguments, global);
+  if (windows->parsed()) return run_windows_command(windows_arguments, global);
+  if (exposures->parsed()) return run_exposures_command(exposures_arguments, global);
+  if (specific->parsed()) return run_specific_risk_command(specific_arguments, global);
+  if (fit->parsed()) return run_fit_command(fit_arguments);
+  return kExitBadInput;
 }

@@ -54,4 +54,12 @@ engine::ReturnsPanel read_returns_csv(const std::string& path) {
   return detail::read_wide_returns(scanner, header);
 }
 
+// Temporary: replaced by the validating reader of branch ingest-validation.
+ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions&) {
+  ReturnsFile f;
+  f.panel = read_returns_csv(path);
+  f.layout = "unknown";
+  return f;
+}
+
 }  // namespace factorwatch::storage

@@ -27,6 +27,16 @@
 
 namespace factorwatch::storage {
 
+enum class ValuesInFile { returns, prices_to_simple_returns, prices_to_log_returns };
+struct ReturnsReadOptions { ValuesInFile values = ValuesInFile::returns; };
+struct ReturnsFile {
+  engine::ReturnsPanel panel;
+  std::string layout;
+  std::size_t data_rows = 0;
+  std::size_t values_present = 0;
+};
+ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions& options);
+
 engine::ReturnsPanel read_returns_csv(const std::string& path);
 
 }  // namespace factorwatch::storage

@@ -1,0 +1,27 @@
+// How many periods a year a window's dates represent, for square-root-of-time
+// annualisation (volatility x sqrt(periods per year); common practice).
+#pragma once
+
+#include <string>
+#include <vector>
+
+namespace factorwatch::engine {
+
+struct Frequency {
+  const char* name = "daily";   // daily | weekly | monthly | quarterly | annual
+  int periods_per_year = 252;   // 252 trading days, 52 weeks, 12 months (common practice)
+};
+
+// From the median calendar gap between consecutive ISO dates (yyyy-mm-dd):
+// up to 4 days daily (a weekend is 3), up to 10 weekly, up to 45 monthly, up to 120
+// quarterly, else annual. Fewer than two dates: daily.
+Frequency infer_frequency(const std::vector<std::string>& dates);
+
+// The same thresholds applied to a typical gap in calendar days, e.g. a window's span
+// divided by its number of gaps when only its first and last dates are at hand.
+Frequency frequency_from_gap(double days);
+
+// Calendar days from `first` to `last` (ISO dates).
+long days_between(const std::string& first, const std::string& last);
+
+}  // namespace factorwatch::engine

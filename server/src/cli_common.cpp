@@ -1,0 +1,72 @@
+#include "cli_common.h"
+
+#include <unistd.h>
+
+#include <cstdio>
+#include <cstdlib>
+#include <iostream>
+#include <stdexcept>
+
+#include "factorwatch/engine/caution.h"
+#include "factorwatch/storage/data_directory.h"
+
+namespace factorwatch::server {
+
+void add_global_options(CLI::App& app, GlobalArguments& global) {
+  app.add_option("--data", global.data_dir,
+                 "Data directory holding factorwatch.db (default: $FACTORWATCH_DATA, else "
+                 "$XDG_DATA_HOME/factorwatch or ~/.local/share/factorwatch)")
+      ->type_name("DIR");
+  app.fallthrough();  // so that `factorwatch load FILE --data DIR` works as well
+}
+
+std::unique_ptr<storage::Database> open_database(const GlobalArguments& global, const char* command) {
+  try {
+    return std::make_unique<storage::Database>(storage::database_path(global.data_dir));
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "factorwatch %s: %s\n", command, e.what());
+    return nullptr;
+  }
+}
+
+void print_caution(std::ostream& out) { out << "\nCaution: " << engine::kCaution << "\n"; }
+
+void print_csv_caution(std::ostream& out) { out << "# caution: " << engine::kCaution << "\n"; }
+
+std::string csv_field(const std::string& text) {
+  if (text.find_first_of(",\"\r\n") == std::string::npos) return text;
+  std::string out = "\"";
+  for (char c : text) {
+    if (c == '"') out += '"';
+    out += c;
+  }
+  return out + "\"";
+}
+
+std::string exact_number(double x) {
+  char text[40];
+  for (int digits = 15; digits <= 17; ++digits) {
+    std::snprintf(text, sizeof text, "%.*g", digits, x);
+    if (std::strtod(text, nullptr) == x) break;
+  }
+  return text;
+}
+
+std::vector<std::string> split_list(const std::string& text) {
+  std::vector<std::string> out;
+  std::size_t start = 0;
+  while (start <= text.size()) {
+    std::size_t end = text.find(',', start);
+    if (end == std::string::npos) end = text.size();
+    std::string item = text.substr(start, end - start);
+    const auto b = item.find_first_not_of(" \t");
+    const auto e = item.find_last_not_of(" \t");
+    if (b != std::string::npos) out.push_back(item.substr(b, e - b + 1));
+    start = end + 1;
+  }
+  return out;
+}
+
+bool stderr_is_terminal() { return isatty(STDERR_FILENO) == 1; }
+
+}  // namespace factorwatch::server

@@ -1,0 +1,48 @@
+// What every database command shares: the --data option, opening the database with a
+// plain message on failure, exit codes, and the small pieces of table and CSV output.
+#pragma once
+
+#include <CLI/CLI.hpp>
+#include <memory>
+#include <ostream>
+#include <string>
+#include <vector>
+
+#include "factorwatch/storage/database.h"
+
+namespace factorwatch::server {
+
+// Exit codes of every command.
+inline constexpr int kExitOk = 0;
+inline constexpr int kExitFailed = 1;    // the job ran and failed (e.g. an unusable fit)
+inline constexpr int kExitBadInput = 2;  // bad options or a bad input file; nothing changed
+
+struct GlobalArguments {
+  std::string data_dir;  // --data; "" = FACTORWATCH_DATA or the default
+};
+
+// Adds --data to the top-level command (subcommands accept it too).
+void add_global_options(CLI::App& app, GlobalArguments& global);
+
+// Opens (creating and migrating) the database; nullptr after printing the reason.
+std::unique_ptr<storage::Database> open_database(const GlobalArguments& global, const char* command);
+
+// The caution as the last lines of a table.
+void print_caution(std::ostream& out);
+// The caution as the first line of a CSV file (a '#' comment line).
+void print_csv_caution(std::ostream& out);
+
+// A CSV field, quoted when it holds a comma, quote or line break (RFC 4180).
+std::string csv_field(const std::string& text);
+
+// Numbers in output: round-trip precision for CSV and JSON consumers ("%.17g" trimmed
+// to the shortest text that reads back the same), fixed widths for tables.
+std::string exact_number(double x);
+
+// "--assets A,B,C" into names (spaces around names are ignored).
+std::vector<std::string> split_list(const std::string& text);
+
+// True when stderr is a terminal (progress lines are for people, not for log files).
+bool stderr_is_terminal();
+
+}  // namespace factorwatch::server

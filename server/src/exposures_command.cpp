@@ -1,0 +1,151 @@
+#include "exposures_command.h"
+
+#include <cstdio>
+#include <iostream>
+#include <nlohmann/json.hpp>
+
+#include "factorwatch/engine/caution.h"
+
+namespace factorwatch::server {
+namespace {
+
+void print_header(const SelectedWindow& s) {
+  const engine::FactorFit& f = s.window.fit;
+  std::printf("model %s, version %d: %s, %d factors, %s basis\n", s.model.name.c_str(), s.model.version,
+              engine::to_string(f.method), f.factors, engine::to_string(f.basis));
+  std::printf("window %s .. %s (%lld dates): %zu assets fitted, %zu excluded; %s after %d iterations%s\n",
+              s.window.first_date.c_str(), s.window.as_of.c_str(), static_cast<long long>(f.periods), f.assets.size(),
+              f.excluded.size(), engine::to_string(f.termination), f.iterations,
+              s.window.stale ? "; STALE: returns in this window changed since, run factorwatch refresh" : "");
+  if (!s.note.empty()) std::printf("note: %s\n", s.note.c_str());
+}
+
+void print_table(const SelectedWindow& s, int limit) {
+  const engine::FactorFit& f = s.window.fit;
+  print_header(s);
+  std::printf("\nfactor  share of variance  assets loading most\n");
+  for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) {
+    // The three largest absolute loadings name what the factor moves.
+    std::vector<std::size_t> order(f.assets.size());
+    for (std::size_t i = 0; i < order.size(); ++i) order[i] = i;
+    const std::size_t top = std::min<std::size_t>(3, order.size());
+    std::partial_sort(order.begin(), order.begin() + top, order.end(), [&](std::size_t a, std::size_t b) {
+      return std::abs(f.loadings(a, j)) > std::abs(f.loadings(b, j));
+    });
+    std::string names;
+    for (std::size_t k = 0; k < top; ++k) names += (k ? ", " : "") + f.assets[order[k]];
+    std::printf("%-6s  %16.1f%%  %s\n", factor_name(j).c_str(), 100 * f.explained_share(j), names.c_str());
+  }
+  std::printf("\n%-14s", "asset");
+  for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::printf(" %10s", factor_name(j).c_str());
+  std::printf(" %12s %12s %10s\n", "communality", "specific_var", "uniqueness");
+  const std::size_t shown = limit > 0 ? std::min<std::size_t>(limit, s.rows.size()) : s.rows.size();
+  for (std::size_t r = 0; r < shown; ++r) {
+    const std::size_t i = s.rows[r];
+    std::printf("%-14s", f.assets[i].c_str());
+    for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::printf(" %+10.5f", f.loadings(i, j));
+    std::printf(" %12.4e %12.4e %10.3f%s\n", f.communality(i), f.specific_variance(i), f.uniqueness(i),
+                f.heywood[i] ? "  (Heywood: specific variance at its floor)" : "");
+  }
+  if (shown < s.rows.size())
+    std::printf("... %zu more; --limit 0 shows all, --format csv gives a spreadsheet file\n", s.rows.size() - shown);
+  for (const auto& m : s.missing) std::printf("%-14s not in this window: %s\n", m.asset.c_str(), m.reason.c_str());
+  std::printf("\nLoadings are in return units per factor of unit variance; communality and specific\n"
+              "variance in squared return units per period; uniqueness = specific share of the variance.\n");
+  print_caution(std::cout);
+}
+
+void print_csv(const SelectedWindow& s) {
+  const engine::FactorFit& f = s.window.fit;
+  print_csv_caution(std::cout);
+  std::cout << "# model " << s.model.name << " version " << s.model.version << ", window " << s.window.first_date
+            << " .. " << s.window.as_of << ", " << engine::to_string(f.method) << "\n";
+  std::cout << "asset";
+  for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::cout << "," << factor_name(j);
+  std::cout << ",communality,specific_variance,uniqueness,heywood\n";
+  for (std::size_t i : s.rows) {
+    std::cout << csv_field(f.assets[i]);
+    for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::cout << "," << exact_number(f.loadings(i, j));
+    std::cout << "," << exact_number(f.communality(i)) << "," << exact_number(f.specific_variance(i)) << ","
+              << exact_number(f.uniqueness(i)) << "," << (f.heywood[i] ? "true" : "false") << "\n";
+  }
+}
+
+void print_json(const SelectedWindow& s) {
+  const engine::FactorFit& f = s.window.fit;
+  nlohmann::ordered_json j;
+  j["caution"] = engine::kCaution;
+  j["model"] = s.model.name;
+  j["version"] = s.model.version;
+  j["as_of"] = s.window.as_of;
+  j["first_date"] = s.window.first_date;
+  j["periods"] = f.periods;
+  j["method"] = engine::to_string(f.method);
+  j["basis"] = engine::to_string(f.basis);
+  j["factors"] = f.factors;
+  j["termination"] = engine::to_string(f.termination);
+  j["stale"] = s.window.stale;
+  j["configuration_hash"] = s.window.configuration_hash;
+  j["input_hash"] = s.window.input_hash;
+  if (!s.note.empty()) j["note"] = s.note;
+  j["explained_share"] = std::vector<double>(f.explained_share.data(), f.explained_share.data() + f.explained_share.size());
+  nlohmann::ordered_json rows = nlohmann::ordered_json::array();
+  for (std::size_t i : s.rows) {
+    nlohmann::ordered_json row;
+    row["asset"] = f.assets[i];
+    std::vector<double> loadings(static_cast<std::size_t>(f.loadings.cols()));
+    for (Eigen::Index k = 0; k < f.loadings.cols(); ++k) loadings[static_cast<std::size_t>(k)] = f.loadings(i, k);
+    row["loadings"] = loadings;
+    row["communality"] = f.communality(i);
+    row["specific_variance"] = f.specific_variance(i);
+    row["uniqueness"] = f.uniqueness(i);
+    row["heywood"] = static_cast<bool>(f.heywood[i]);
+    rows.push_back(row);
+  }
+  j["assets"] = rows;
+  nlohmann::ordered_json missing = nlohmann::ordered_json::array();
+  for (const auto& m : s.missing) missing.push_back({{"asset", m.asset}, {"reason", m.reason}});
+  j["not_in_window"] = missing;
+  nlohmann::ordered_json excluded = nlohmann::ordered_json::array();
+  for (const auto& e : f.excluded) excluded.push_back({{"asset", e.asset}, {"reason", e.reason}});
+  j["excluded"] = excluded;
+  std::cout << j.dump(2) << "\n";
+}
+
+}  // namespace
+
+void add_window_options(CLI::App* command, WindowArguments& a) {
+  command->add_option("NAME", a.model, "Model name")->required();
+  command->add_option("--as-of", a.as_of, "Window ending on this date, or the latest before it (default: the latest)")
+      ->type_name("DATE");
+  command->add_option("--assets", a.assets, "Only these assets, comma-separated, in this order")->type_name("LIST");
+  command->add_option("--format", a.format, "table, csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}))
+      ->capture_default_str();
+  command->add_option("--limit", a.limit, "Table rows to show (0: all)")->type_name("N")->capture_default_str();
+}
+
+CLI::App* add_exposures_command(CLI::App& app, WindowArguments& a) {
+  CLI::App* command = app.add_subcommand("exposures", "Loadings, communality and specific variance per asset");
+  add_window_options(command, a);
+  return command;
+}
+
+int run_exposures_command(const WindowArguments& a, const GlobalArguments& global) {
+  auto db = open_database(global, "exposures");
+  if (!db) return kExitFailed;
+  int code = kExitOk;
+  try {
+    const auto s = select_window(*db, a, "exposures", &code);
+    if (!s) return code;
+    if (a.format == "csv") print_csv(*s);
+    else if (a.format == "json") print_json(*s);
+    else print_table(*s, a.limit);
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "factorwatch exposures: %s\n", e.what());
+    return kExitFailed;
+  }
+  return code;
+}
+
+}  // namespace factorwatch::server

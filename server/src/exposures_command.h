@@ -1,0 +1,19 @@
+// `factorwatch exposures NAME [--as-of DATE] [--assets LIST] [--format table|csv|json]`:
+// each asset's loadings on the factors of a stored window, its communality, specific
+// variance and uniqueness.
+#pragma once
+
+#include <CLI/CLI.hpp>
+
+#include "cli_common.h"
+#include "window_selection.h"
+
+namespace factorwatch::server {
+
+CLI::App* add_exposures_command(CLI::App& app, WindowArguments& arguments);
+int run_exposures_command(const WindowArguments& arguments, const GlobalArguments& global);
+
+// Options shared by the commands that read one window.
+void add_window_options(CLI::App* command, WindowArguments& arguments);
+
+}  // namespace factorwatch::server

@@ -1,0 +1,98 @@
+#include "load_command.h"
+
+#include <chrono>
+#include <cstdio>
+#include <future>
+#include <stdexcept>
+
+#include "factorwatch/storage/content_hash.h"
+#include "factorwatch/storage/ingest.h"
+#include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/returns_csv.h"
+
+namespace factorwatch::server {
+namespace {
+
+double seconds_since(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+std::string thousands(std::size_t n) {
+  std::string digits = std::to_string(n), out;
+  for (std::size_t i = 0; i < digits.size(); ++i) {
+    if (i > 0 && (digits.size() - i) % 3 == 0) out += ',';
+    out += digits[i];
+  }
+  return out;
+}
+
+}  // namespace
+
+CLI::App* add_load_command(CLI::App& app, LoadArguments& a) {
+  CLI::App* load = app.add_subcommand("load", "Store a returns file in the database (all or nothing)");
+  load->add_option("FILE", a.path, "Returns CSV, long (date,asset,return) or wide (date,<asset>,...)")
+      ->required()
+      ->type_name("FILE");
+  auto* prices = load->add_flag("--prices", a.prices,
+                                "The cells are prices: store simple returns between consecutive dates");
+  load->add_flag("--log-returns", a.log_returns, "With --prices: store log returns instead of simple returns")
+      ->needs(prices);
+  return load;
+}
+
+int run_load_command(const LoadArguments& a, const GlobalArguments& global) {
+  const auto start = std::chrono::steady_clock::now();
+  storage::ReturnsReadOptions read_options;
+  if (a.prices)
+    read_options.values = a.log_returns ? storage::ValuesInFile::prices_to_log_returns
+                                        : storage::ValuesInFile::prices_to_simple_returns;
+  storage::IngestSource source;
+  source.path = a.path;
+  source.values_in_file = storage::to_string(read_options.values);
+  storage::ReturnsFile file;
+  // The content hash reads the file a second time, on the other core, while it is parsed.
+  auto hash = std::async(std::launch::async, [&a] { return storage::file_sha256(a.path); });
+  try {
+    std::fprintf(stderr, "reading %s ...", a.path.c_str());
+    std::fflush(stderr);
+    file = storage::read_returns_file(a.path, read_options);
+    source.content_sha256 = hash.get();
+  } catch (const storage::InputError& e) {
+    if (hash.valid()) hash.wait();
+    std::fprintf(stderr, "\nfactorwatch load: %s\nThe file was rejected; the database is unchanged.\n", e.what());
+    return kExitBadInput;
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "\nfactorwatch load: %s\nThe file was rejected; the database is unchanged.\n", e.what());
+    return kExitBadInput;
+  }
+  source.layout = file.layout;
+  source.data_rows = file.data_rows;
+  const double read_seconds = seconds_since(start);
+  std::fprintf(stderr, " %s layout, %s rows, %lld dates x %lld assets in %.2f s\n", file.layout.c_str(),
+               thousands(file.data_rows).c_str(), static_cast<long long>(file.panel.periods()),
+               static_cast<long long>(file.panel.width()), read_seconds);
+
+  auto db = open_database(global, "load");
+  if (!db) return kExitFailed;
+  storage::LoadSummary s;
+  try {
+    s = storage::store_returns(*db, file.panel, source);
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "factorwatch load: storing %s failed, nothing was stored: %s\n", a.path.c_str(), e.what());
+    return kExitFailed;
+  }
+  std::printf("loaded %s into %s\n", a.path.c_str(), db->path().c_str());
+  std::printf("  file:     %s layout, %s, %s data rows, sha256 %s\n", file.layout.c_str(),
+              source.values_in_file.c_str(), thousands(file.data_rows).c_str(), source.content_sha256.c_str());
+  std::printf("  dates:    %s .. %s (%zu), assets %zu (%zu new)\n", s.first_date.c_str(), s.last_date.c_str(),
+              s.dates_in_file, s.assets_in_file, s.new_assets);
+  std::printf("  values:   %s new, %s unchanged, %s corrected\n", thousands(s.values_new).c_str(),
+              thousands(s.values_unchanged).c_str(), thousands(s.values_corrected).c_str());
+  if (s.windows_marked_stale > 0)
+    std::printf("  windows:  %zu marked stale; `factorwatch refresh` refits them\n", s.windows_marked_stale);
+  std::printf("  outcome:  %s (ingest run %ld), %.2f s (reading %.2f s, storing %.2f s)\n", s.outcome.c_str(),
+              s.run_id, seconds_since(start), read_seconds, s.seconds);
+  return kExitOk;
+}
+
+}  // namespace factorwatch::server

@@ -1,0 +1,87 @@
+#include "refresh_command.h"
+
+#include <cstdio>
+#include <iostream>
+#include <stdexcept>
+
+#include "factorwatch/storage/models.h"
+#include "factorwatch/storage/refresh.h"
+#include "factorwatch/storage/windows.h"
+
+namespace factorwatch::server {
+namespace {
+
+// One line rewritten in place: windows done / total, rate, time left.
+void show_progress(const std::string& model, const storage::RefreshProgress& p) {
+  const double rate = p.elapsed_seconds > 0 ? p.done / p.elapsed_seconds : 0;
+  const double left = rate > 0 ? (p.total - p.done) / rate : 0;
+  std::fprintf(stderr, "\rrefreshing %s: %zu/%zu windows, %.1f windows/s, %.0f s left, as of %s   ", model.c_str(),
+               p.done, p.total, rate, left, p.as_of.c_str());
+  if (p.done == p.total) std::fprintf(stderr, "\n");
+  std::fflush(stderr);
+}
+
+int refresh_one(storage::Database& db, const std::string& name, bool progress) {
+  const storage::RefreshSummary s = storage::refresh_model(
+      db, name, progress ? storage::RefreshCallback([&name](const storage::RefreshProgress& p) { show_progress(name, p); })
+                         : storage::RefreshCallback());
+  std::printf("%s (version %d): ", s.model.c_str(), s.version);
+  if (s.fitted == 0) {
+    std::printf("nothing to fit: %s (%zu windows current)\n", s.note.c_str(), s.already_current);
+  } else {
+    std::printf("%zu window%s fitted, as of %s .. %s (%zu were stale, %zu already current), %zu unusable\n", s.fitted,
+                s.fitted == 1 ? "" : "s", s.first_as_of.c_str(), s.last_as_of.c_str(), s.refitted_stale,
+                s.already_current, s.unusable);
+    std::printf("  %.2f s: reading %.2f s, fitting %.2f s, writing %.2f s (%.1f windows/s)\n", s.seconds,
+                s.read_seconds, s.fit_seconds, s.write_seconds, s.fitted / s.seconds);
+  }
+  const auto model = storage::find_model(db, name);
+  if (const auto latest = storage::read_window(db, model->id, "")) {
+    const engine::FactorFit& f = latest->fit;
+    std::printf("  latest window %s .. %s: %zu assets (%zu excluded), %d factors explain %.1f%% of the variance, %s after %d iterations%s\n",
+                latest->first_date.c_str(), latest->as_of.c_str(), f.assets.size(), f.excluded.size(), f.factors,
+                100 * f.explained_total, engine::to_string(f.termination), f.iterations, latest->stale ? " (stale)" : "");
+  }
+  return s.unusable > 0 ? kExitFailed : kExitOk;
+}
+
+}  // namespace
+
+CLI::App* add_refresh_command(CLI::App& app, RefreshArguments& a) {
+  CLI::App* refresh = app.add_subcommand("refresh", "Fit every window not yet stored, or stale, up to the latest date");
+  refresh->add_option("NAME", a.model, "Model to refresh (default: every model)");
+  refresh->add_flag("--quiet", a.quiet, "No progress line");
+  return refresh;
+}
+
+int run_refresh_command(const RefreshArguments& a, const GlobalArguments& global) {
+  auto db = open_database(global, "refresh");
+  if (!db) return kExitFailed;
+  std::vector<std::string> names;
+  if (!a.model.empty()) {
+    if (!storage::find_model(*db, a.model)) {
+      std::fprintf(stderr, "factorwatch refresh: no model named '%s' (factorwatch model list shows them)\n", a.model.c_str());
+      return kExitBadInput;
+    }
+    names.push_back(a.model);
+  } else {
+    for (const auto& m : storage::list_models(*db)) names.push_back(m.name);
+    if (names.empty()) {
+      std::fprintf(stderr, "factorwatch refresh: no models yet; define one with: factorwatch model set NAME\n");
+      return kExitBadInput;
+    }
+  }
+  int code = kExitOk;
+  for (const std::string& name : names) {
+    try {
+      if (refresh_one(*db, name, !a.quiet && stderr_is_terminal()) != kExitOk) code = kExitFailed;
+    } catch (const std::exception& e) {
+      std::fprintf(stderr, "\nfactorwatch refresh %s: %s\n", name.c_str(), e.what());
+      code = kExitFailed;
+    }
+  }
+  print_caution(std::cout);
+  return code;
+}
+
+}  // namespace factorwatch::server

@@ -1,0 +1,89 @@
+#include "windows_command.h"
+
+#include <cstdio>
+#include <iostream>
+#include <nlohmann/json.hpp>
+
+#include "factorwatch/engine/caution.h"
+#include "factorwatch/storage/models.h"
+#include "factorwatch/storage/windows.h"
+
+namespace factorwatch::server {
+
+CLI::App* add_windows_command(CLI::App& app, WindowsArguments& a) {
+  CLI::App* command = app.add_subcommand("windows", "A model's stored windows with their fit statistics");
+  command->add_option("NAME", a.model, "Model name")->required();
+  command->add_option("--format", a.format, "table, csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}))
+      ->capture_default_str();
+  return command;
+}
+
+int run_windows_command(const WindowsArguments& a, const GlobalArguments& global) {
+  auto db = open_database(global, "windows");
+  if (!db) return kExitFailed;
+  try {
+    const auto model = storage::find_model(*db, a.model);
+    if (!model) {
+      std::fprintf(stderr, "factorwatch windows: no model named '%s' (factorwatch model list shows them)\n",
+                   a.model.c_str());
+      return kExitBadInput;
+    }
+    const auto windows = storage::list_windows(*db, model->id);
+    if (a.format == "json") {
+      nlohmann::ordered_json j;
+      j["caution"] = engine::kCaution;
+      j["model"] = model->name;
+      j["version"] = model->version;
+      nlohmann::ordered_json rows = nlohmann::ordered_json::array();
+      for (const auto& w : windows)
+        rows.push_back({{"as_of", w.as_of},
+                        {"first_date", w.first_date},
+                        {"periods", w.periods},
+                        {"assets", w.asset_count},
+                        {"excluded", w.excluded_count},
+                        {"factors", w.factors},
+                        {"termination", w.termination},
+                        {"usable", w.usable},
+                        {"warm_started", w.warm_started},
+                        {"iterations", w.iterations},
+                        {"log_likelihood", w.log_likelihood},
+                        {"explained_share", w.explained_total},
+                        {"heywood_cases", w.heywood_count},
+                        {"fit_seconds", w.fit_seconds},
+                        {"total_seconds", w.total_seconds},
+                        {"stale", w.stale}});
+      j["windows"] = rows;
+      std::cout << j.dump(2) << "\n";
+      return kExitOk;
+    }
+    if (a.format == "csv") {
+      print_csv_caution(std::cout);
+      std::cout << "as_of,first_date,periods,assets,excluded,factors,termination,usable,warm_started,iterations,"
+                   "log_likelihood,explained_share,heywood_cases,fit_seconds,total_seconds,stale\n";
+      for (const auto& w : windows)
+        std::cout << w.as_of << "," << w.first_date << "," << w.periods << "," << w.asset_count << ","
+                  << w.excluded_count << "," << w.factors << "," << w.termination << "," << (w.usable ? "true" : "false")
+                  << "," << (w.warm_started ? "true" : "false") << "," << w.iterations << ","
+                  << exact_number(w.log_likelihood) << "," << exact_number(w.explained_total) << "," << w.heywood_count
+                  << "," << exact_number(w.fit_seconds) << "," << exact_number(w.total_seconds) << ","
+                  << (w.stale ? "true" : "false") << "\n";
+      return kExitOk;
+    }
+    std::printf("model %s, version %d: %zu windows\n\n", model->name.c_str(), model->version, windows.size());
+    std::printf("%-10s  %-10s %6s %6s %5s %8s %-16s %5s %14s %9s %7s %8s\n", "as of", "from", "dates", "assets",
+                "excl", "factors", "termination", "iter", "loglik/obs", "explained", "heywood", "fit ms");
+    for (const auto& w : windows)
+      std::printf("%-10s  %-10s %6lld %6d %5d %8d %-16s %5d %14.4f %8.1f%% %7d %8.1f%s\n", w.as_of.c_str(),
+                  w.first_date.c_str(), static_cast<long long>(w.periods), w.asset_count, w.excluded_count, w.factors,
+                  w.termination.c_str(), w.iterations, w.log_likelihood, 100 * w.explained_total, w.heywood_count,
+                  1000 * w.fit_seconds, w.stale ? "  stale" : "");
+    print_caution(std::cout);
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "factorwatch windows: %s\n", e.what());
+    return kExitFailed;
+  }
+  return kExitOk;
+}
+
+}  // namespace factorwatch::server

@@ -1,0 +1,56 @@
+// The rolling refresh: fit every window of a model that is not stored yet, or is stale,
+// up to the latest stored date.
+//
+// Windows: the model's window length W and step s lay a grid on the stored dates
+// d_0 < d_1 < ... : window j ends on d_(W-1+js) (its as-of date) and holds the W dates up
+// to it. The grid is anchored on the first stored date, so it does not move when new
+// dates arrive; a model's first_as_of skips the grid points before it. On the first run
+// this is a backfill; on a normal night, one new window.
+//
+// Each window is warm-started from the window before it on the grid (when that fit is
+// usable) and written in its own transaction: a refresh killed at any point leaves only
+// whole windows, and the next refresh carries on from them. A resumed run warm-starts
+// from the stored window, which holds the very numbers the uninterrupted run would have
+// used, so both give the same windows.
+#pragma once
+
+#include <cstddef>
+#include <functional>
+#include <string>
+#include <vector>
+
+#include "factorwatch/storage/database.h"
+#include "factorwatch/storage/models.h"
+
+namespace factorwatch::storage {
+
+struct RefreshProgress {
+  std::size_t done = 0;   // windows written so far in this run
+  std::size_t total = 0;  // windows this run will write
+  std::string as_of;      // of the window just written
+  double elapsed_seconds = 0;
+};
+
+struct RefreshSummary {
+  std::string model;
+  int version = 0;
+  std::size_t grid_windows = 0;     // windows the stored dates allow
+  std::size_t already_current = 0;  // stored and not stale: left alone
+  std::size_t fitted = 0;           // written in this run (new or refitted)
+  std::size_t refitted_stale = 0;   // of which were stale
+  std::size_t unusable = 0;         // of which ended in a numerical failure (stored, flagged)
+  std::string first_as_of, last_as_of;  // of the windows written in this run
+  double seconds = 0;
+  double read_seconds = 0, fit_seconds = 0, write_seconds = 0;
+  std::string note;  // e.g. why there is nothing to fit
+};
+
+using RefreshCallback = std::function<void(const RefreshProgress&)>;
+
+// Throws std::invalid_argument when the model does not exist.
+RefreshSummary refresh_model(Database& db, const std::string& model, const RefreshCallback& progress = {});
+
+// The as-of dates refresh_model would fit now, ascending.
+std::vector<std::string> pending_windows(Database& db, const ModelVersion& model);
+
+}  // namespace factorwatch::storage

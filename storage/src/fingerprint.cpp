@@ -1,0 +1,45 @@
+#include "fingerprint.h"
+
+#include <cstring>
+
+namespace factorwatch::storage::detail {
+namespace {
+
+inline std::uint64_t mix(std::uint64_t z) {
+  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ull;
+  z = (z ^ (z >> 27)) * 0x94d049bb133111ebull;
+  return z ^ (z >> 31);
+}
+
+}  // namespace
+
+void Fingerprint::add(const void* data, std::size_t bytes) {
+  const unsigned char* p = static_cast<const unsigned char*>(data);
+  std::uint64_t word;
+  for (; bytes >= 8; p += 8, bytes -= 8) {
+    std::memcpy(&word, p, 8);
+    state_ = mix(state_ ^ (word + 0x9e3779b97f4a7c15ull * ++count_));
+  }
+  if (bytes > 0) {
+    word = 0;
+    std::memcpy(&word, p, bytes);
+    state_ = mix(state_ ^ (word + 0x9e3779b97f4a7c15ull * ++count_) ^ (std::uint64_t{bytes} << 56));
+  }
+}
+
+void Fingerprint::add(const std::string& text) {
+  add(static_cast<std::int64_t>(text.size()));  // so that "ab","c" differs from "a","bc"
+  add(text.data(), text.size());
+}
+
+void Fingerprint::add(std::int64_t value) { add(&value, sizeof value); }
+
+std::string Fingerprint::hex() const {
+  static const char digits[] = "0123456789abcdef";
+  const std::uint64_t h = mix(state_ ^ count_);
+  std::string out(16, '0');
+  for (int i = 0; i < 16; ++i) out[15 - i] = digits[(h >> (4 * i)) & 15];
+  return out;
+}
+
+}  // namespace factorwatch::storage::detail

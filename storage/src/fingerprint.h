@@ -1,0 +1,27 @@
+// A fast 64-bit fingerprint of a window's input (dates, assets, returns), stored with
+// every window so that two windows can be told to have seen the same data.
+//
+// Not cryptographic: SHA-256 over 8 MB per window would cost about as much as the fit
+// itself during a backfill. Each 8-byte word is mixed with the splitmix64 finaliser
+// (Steele, Lea and Flood 2014) before it is folded in, so a changed bit anywhere
+// changes the result.
+#pragma once
+
+#include <cstdint>
+#include <string>
+
+namespace factorwatch::storage::detail {
+
+class Fingerprint {
+ public:
+  void add(const void* data, std::size_t bytes);
+  void add(const std::string& text);
+  void add(std::int64_t value);
+  std::string hex() const;  // 16 hex digits
+
+ private:
+  std::uint64_t state_ = 0x6a09e667f3bcc908ull;
+  std::uint64_t count_ = 0;
+};
+
+}  // namespace factorwatch::storage::detail

@@ -1,0 +1,132 @@
+#include "migrations.h"
+
+#include <SQLiteCpp/SQLiteCpp.h>
+
+#include <stdexcept>
+#include <string>
+
+namespace factorwatch::storage::detail {
+
+// Dates are INTEGER yyyymmdd (they sort as dates and take 4 bytes). Vectors and
+// matrices are BLOBs in the layout of blob_codec.h.
+const std::vector<Migration>& migrations() {
+  static const std::vector<Migration> steps = {
+      {1, "assets, returns by date, ingest runs", R"sql(
+CREATE TABLE assets (
+  id         INTEGER PRIMARY KEY,
+  name       TEXT NOT NULL UNIQUE,
+  first_date INTEGER,              -- first date with a stored return
+  last_date  INTEGER               -- last date with a stored return
+);
+-- One row per date: the day's cross-section. A window read is all assets over a range
+-- of dates, and a nightly file arrives date by date, so the date is the key.
+CREATE TABLE returns (
+  date      INTEGER PRIMARY KEY,   -- yyyymmdd
+  asset_ids BLOB NOT NULL,         -- int32 little-endian, ascending
+  returns   BLOB NOT NULL          -- float64 little-endian, same order; no missing values
+);
+CREATE TABLE ingest_runs (
+  id               INTEGER PRIMARY KEY,
+  file_name        TEXT NOT NULL,
+  content_sha256   TEXT NOT NULL,
+  loaded_at        TEXT NOT NULL,  -- UTC, ISO 8601
+  layout           TEXT NOT NULL,  -- long | wide
+  values_in_file   TEXT NOT NULL,  -- returns | prices (simple returns) | prices (log returns)
+  data_rows        INTEGER NOT NULL,
+  first_date       INTEGER,
+  last_date        INTEGER,
+  values_new       INTEGER NOT NULL,
+  values_unchanged INTEGER NOT NULL,
+  values_corrected INTEGER NOT NULL,
+  outcome          TEXT NOT NULL,  -- new data | correction | no change
+  seconds          REAL NOT NULL
+);
+)sql"},
+      {2, "models, model versions, fitted windows", R"sql(
+CREATE TABLE models (
+  id         INTEGER PRIMARY KEY,
+  name       TEXT NOT NULL UNIQUE,
+  created_at TEXT NOT NULL
+);
+-- A changed configuration is a new version; windows keep the version they were fitted with.
+CREATE TABLE model_versions (
+  id                 INTEGER PRIMARY KEY,
+  model_id           INTEGER NOT NULL REFERENCES models(id),
+  version            INTEGER NOT NULL,
+  configuration      TEXT NOT NULL,   -- JSON
+  configuration_hash TEXT NOT NULL,
+  created_at         TEXT NOT NULL,
+  UNIQUE (model_id, version)
+);
+CREATE TABLE windows (
+  id                 INTEGER PRIMARY KEY,
+  model_version_id   INTEGER NOT NULL REFERENCES model_versions(id),
+  as_of              INTEGER NOT NULL,  -- last date of the window
+  first_date         INTEGER NOT NULL,
+  configuration_hash TEXT NOT NULL,
+  input_hash         TEXT NOT NULL,     -- of the returns panel the fit saw
+  asset_count        INTEGER NOT NULL,
+  factors            INTEGER NOT NULL,
+  usable             INTEGER NOT NULL,  -- FactorFit::IsSolutionUsable
+  termination        TEXT NOT NULL,
+  assets             BLOB NOT NULL,     -- int32 asset ids, the fitted assets in order
+  mean               BLOB NOT NULL,
+  scale              BLOB NOT NULL,
+  loadings           BLOB NOT NULL,
+  specific_variance  BLOB NOT NULL,
+  communality        BLOB NOT NULL,
+  uniqueness         BLOB NOT NULL,
+  heywood            BLOB NOT NULL,
+  factor_covariance  BLOB NOT NULL,
+  eigenvalues        BLOB NOT NULL,
+  explained_share    BLOB NOT NULL,
+  statistics         TEXT NOT NULL,     -- JSON: scalars, excluded assets, solver path
+  fit_seconds        REAL NOT NULL,
+  total_seconds      REAL NOT NULL,
+  fitted_at          TEXT NOT NULL,
+  stale              INTEGER NOT NULL DEFAULT 0,
+  UNIQUE (model_version_id, as_of)
+);
+)sql"},
+      {3, "audit of corrected returns", R"sql(
+CREATE TABLE corrections (
+  run_id    INTEGER NOT NULL REFERENCES ingest_runs(id),
+  date      INTEGER NOT NULL,
+  asset_id  INTEGER NOT NULL REFERENCES assets(id),
+  old_value REAL NOT NULL,
+  new_value REAL NOT NULL
+);
+CREATE INDEX corrections_by_run ON corrections (run_id);
+CREATE INDEX windows_by_date ON windows (first_date, as_of);
+)sql"},
+  };
+  return steps;
+}
+
+int user_version(SQLite::Database& db) { return db.execAndGet("PRAGMA user_version").getInt(); }
+
+void migrate_to(SQLite::Database& db, int target) {
+  const std::string where = " (" + db.getFilename() + ")";
+  const int application_id = db.execAndGet("PRAGMA application_id").getInt();
+  const int tables = db.execAndGet("SELECT count(*) FROM sqlite_schema").getInt();
+  if (application_id != kApplicationId && (application_id != 0 || tables != 0))
+    throw std::runtime_error("not a factorwatch database" + where);
+  const int version = user_version(db);
+  if (version > target)
+    throw std::runtime_error("the database is at schema version " + std::to_string(version) +
+                             ", newer than this factorwatch understands (" + std::to_string(target) +
+                             "); use a newer factorwatch" + where);
+  if (version == target) return;
+  // IMMEDIATE: two processes opening a fresh file at once must not both migrate it.
+  SQLite::Transaction transaction(db, SQLite::TransactionBehavior::IMMEDIATE);
+  const int locked_version = user_version(db);
+  for (const Migration& m : migrations()) {
+    if (m.version <= locked_version || m.version > target) continue;
+    db.exec(m.sql);
+    db.exec("PRAGMA user_version = " + std::to_string(m.version));
+  }
+  db.exec("PRAGMA application_id = " + std::to_string(kApplicationId));
+  transaction.commit();
+}
+
+}  // namespace factorwatch::storage::detail

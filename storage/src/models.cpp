@@ -1,0 +1,212 @@
+#include "factorwatch/storage/models.h"
+
+#include <SQLiteCpp/SQLiteCpp.h>
+
+#include <algorithm>
+#include <cctype>
+#include <cmath>
+#include <fstream>
+#include <set>
+#include <stdexcept>
+
+#include "cell_parse.h"
+#include "date_key.h"
+#include "factorwatch/storage/input_error.h"
+#include "fingerprint.h"
+
+namespace factorwatch::storage {
+namespace {
+
+const char* weighting_name(engine::Weighting w) { return w == engine::Weighting::ewma ? "ewma" : "equal"; }
+
+ModelVersion read_version(SQLite::Statement& q) {
+  ModelVersion m;
+  m.id = static_cast<long>(q.getColumn(0).getInt64());
+  m.name = q.getColumn(1).getString();
+  m.version = q.getColumn(2).getInt();
+  m.config = ModelConfig::from_json(nlohmann::json::parse(q.getColumn(3).getString()));
+  m.configuration_hash = q.getColumn(4).getString();
+  m.created_at = q.getColumn(5).getString();
+  return m;
+}
+
+constexpr const char* kSelectVersion =
+    "SELECT v.id, m.name, v.version, v.configuration, v.configuration_hash, v.created_at "
+    "FROM model_versions v JOIN models m ON m.id = v.model_id ";
+
+}  // namespace
+
+bool ModelConfig::IsValid(std::string* error) const {
+  auto fail = [error](const std::string& message) {
+    *error = message;
+    return false;
+  };
+  if (window < 2) return fail("option '--window' = " + std::to_string(window) + ": must be at least 2 dates");
+  if (step < 1) return fail("option '--step' = " + std::to_string(step) + ": must be at least 1 date");
+  if (factors < 1) return fail("option '--factors' = " + std::to_string(factors) + ": must be at least 1");
+  if (factors >= window)
+    return fail("option '--factors' = " + std::to_string(factors) + ": must be below the window length (" +
+                std::to_string(window) + " dates)");
+  if (weighting == engine::Weighting::ewma && !(half_life > 0 && std::isfinite(half_life)))
+    return fail("option '--half-life': exponential weighting needs a half-life above 0 dates");
+  if (!(min_coverage > 0 && min_coverage <= 1))
+    return fail("option '--min-coverage' = " + std::to_string(min_coverage) + ": must be in (0, 1]");
+  if (!first_as_of.empty() && !detail::parse_iso_date(first_as_of))
+    return fail("option '--first-as-of' = '" + first_as_of + "': not a date in the form yyyy-mm-dd");
+  std::set<std::string> seen;
+  for (const std::string& a : universe) {
+    if (a.empty()) return fail("universe: an asset name is empty");
+    if (!seen.insert(a).second) return fail("universe: asset '" + a + "' is listed twice");
+  }
+  engine::FitOptions options = fit_options();
+  if (!options.IsValid(error)) return false;
+  return true;
+}
+
+engine::FitOptions ModelConfig::fit_options() const {
+  engine::FitOptions o;
+  o.method = method;
+  o.factors = factors;
+  o.basis = basis;
+  o.weighting = weighting;
+  o.half_life = weighting == engine::Weighting::ewma ? half_life : 0;
+  o.min_coverage = min_coverage;
+  return o;
+}
+
+nlohmann::ordered_json ModelConfig::to_json() const {
+  nlohmann::ordered_json j;
+  j["universe"] = universe;  // [] = all assets
+  j["window"] = window;
+  j["step"] = step;
+  j["method"] = engine::to_string(method);
+  j["factors"] = factors;
+  j["basis"] = engine::to_string(basis);
+  j["weighting"] = weighting_name(weighting);
+  j["half_life"] = half_life;
+  j["min_coverage"] = min_coverage;
+  j["first_as_of"] = first_as_of;
+  return j;
+}
+
+ModelConfig ModelConfig::from_json(const nlohmann::json& j) {
+  ModelConfig c;
+  try {
+    c.universe = j.at("universe").get<std::vector<std::string>>();
+    c.window = j.at("window").get<int>();
+    c.step = j.at("step").get<int>();
+    const auto method = engine::parse_method(j.at("method").get<std::string>());
+    const auto basis = engine::parse_basis(j.at("basis").get<std::string>());
+    if (!method || !basis) throw std::runtime_error("unknown method or basis");
+    c.method = *method;
+    c.basis = *basis;
+    c.factors = j.at("factors").get<int>();
+    c.weighting = j.at("weighting").get<std::string>() == "ewma" ? engine::Weighting::ewma : engine::Weighting::equal;
+    c.half_life = j.at("half_life").get<double>();
+    c.min_coverage = j.at("min_coverage").get<double>();
+    c.first_as_of = j.at("first_as_of").get<std::string>();
+  } catch (const nlohmann::json::exception& e) {
+    throw std::runtime_error(std::string("stored model configuration is not readable: ") + e.what());
+  }
+  return c;
+}
+
+std::string ModelConfig::hash() const {
+  detail::Fingerprint f;
+  f.add(to_json().dump());
+  return f.hex();
+}
+
+bool valid_model_name(const std::string& name, std::string* error) {
+  const bool ok = !name.empty() && name.size() <= 64 && std::all_of(name.begin(), name.end(), [](char c) {
+    return std::isalnum(static_cast<unsigned char>(c)) || c == '.' || c == '_' || c == '-';
+  });
+  if (!ok) *error = "model name '" + name + "': use 1 to 64 letters, digits, '.', '_' or '-'";
+  return ok;
+}
+
+SetModelOutcome set_model(Database& db, const std::string& name, const ModelConfig& config) {
+  std::string error;
+  if (!valid_model_name(name, &error) || !config.IsValid(&error)) throw std::invalid_argument(error);
+  SQLite::Database& sql = db.sql();
+  SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
+  SetModelOutcome outcome;
+  const std::optional<ModelVersion> current = find_model(db, name);
+  const std::string hash = config.hash();
+  if (current && current->configuration_hash == hash) {
+    outcome.model = *current;
+    return outcome;  // nothing to write; the transaction rolls back an empty change
+  }
+  long model_id = 0;
+  if (current) {
+    SQLite::Statement q(sql, "SELECT id FROM models WHERE name = ?");
+    q.bind(1, name);
+    q.executeStep();
+    model_id = static_cast<long>(q.getColumn(0).getInt64());
+  } else {
+    SQLite::Statement insert(sql, "INSERT INTO models (name, created_at) VALUES (?, ?)");
+    insert.bind(1, name);
+    insert.bind(2, detail::utc_now());
+    insert.exec();
+    model_id = static_cast<long>(sql.getLastInsertRowid());
+    outcome.created = true;
+  }
+  SQLite::Statement insert(sql,
+                           "INSERT INTO model_versions (model_id, version, configuration, configuration_hash, "
+                           "created_at) VALUES (?, ?, ?, ?, ?)");
+  insert.bind(1, static_cast<std::int64_t>(model_id));
+  insert.bind(2, current ? current->version + 1 : 1);
+  insert.bind(3, config.to_json().dump());
+  insert.bind(4, hash);
+  insert.bind(5, detail::utc_now());
+  insert.exec();
+  transaction.commit();
+  outcome.new_version = true;
+  outcome.model = *find_model(db, name);
+  return outcome;
+}
+
+std::optional<ModelVersion> find_model(Database& db, const std::string& name) {
+  SQLite::Statement q(db.sql(), std::string(kSelectVersion) + "WHERE m.name = ? ORDER BY v.version DESC LIMIT 1");
+  q.bind(1, name);
+  if (!q.executeStep()) return std::nullopt;
+  return read_version(q);
+}
+
+std::vector<ModelVersion> list_models(Database& db) {
+  SQLite::Statement q(db.sql(), std::string(kSelectVersion) +
+                                    "WHERE v.version = (SELECT max(version) FROM model_versions "
+                                    "WHERE model_id = m.id) ORDER BY m.name");
+  std::vector<ModelVersion> out;
+  while (q.executeStep()) out.push_back(read_version(q));
+  return out;
+}
+
+std::vector<std::string> read_universe_file(const std::string& path) {
+  std::ifstream in(path);
+  if (!in) throw InputError(path, 0, "", "cannot open the universe file");
+  std::vector<std::string> assets;
+  std::set<std::string> seen;
+  std::string line;
+  std::size_t number = 0;
+  while (std::getline(in, line)) {
+    ++number;
+    if (!line.empty() && line.back() == '\r') line.pop_back();
+    const auto begin = line.find_first_not_of(" \t");
+    if (begin == std::string::npos || line[begin] == '#') continue;
+    const auto end = line.find_last_not_of(" \t");
+    std::string name = line.substr(begin, end - begin + 1);
+    if (assets.empty() && seen.empty() && detail::same_name(name, "asset")) {
+      seen.insert("");  // header consumed
+      continue;
+    }
+    if (name.find(',') != std::string::npos)
+      throw InputError(path, number, "asset", "one asset per line, without commas");
+    if (!seen.insert(name).second) throw InputError(path, number, "asset", "asset " + detail::quoted(name) + " is listed twice");
+    assets.push_back(std::move(name));
+  }
+  if (assets.empty()) throw InputError(path, number, "", "the universe file lists no assets");
+  return assets;
+}
+
+}  // namespace factorwatch::storage

@@ -1,0 +1,92 @@
+#include "returns_span.h"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "date_key.h"
+#include "fingerprint.h"
+#include "returns_rows.h"
+
+namespace factorwatch::storage::detail {
+
+std::vector<std::int32_t> stored_dates(SQLite::Database& sql) {
+  std::vector<std::int32_t> dates;
+  SQLite::Statement q(sql, "SELECT date FROM returns ORDER BY date");
+  while (q.executeStep()) dates.push_back(q.getColumn(0).getInt());
+  return dates;
+}
+
+ReturnsSpan::ReturnsSpan(SQLite::Database& sql, AssetDirectory& directory, std::int32_t first, std::int32_t last,
+                         const std::vector<std::int32_t>& universe) {
+  std::vector<std::int32_t> ids = universe;
+  if (ids.empty()) {
+    SQLite::Statement q(sql, "SELECT id FROM assets WHERE first_date <= ? AND last_date >= ? ORDER BY id");
+    q.bind(1, last);
+    q.bind(2, first);
+    while (q.executeStep()) ids.push_back(q.getColumn(0).getInt());
+  }
+  const std::int32_t max_id = ids.empty() ? 0 : *std::max_element(ids.begin(), ids.end());
+  std::vector<std::int32_t> column_of(static_cast<std::size_t>(max_id) + 1, -1);
+  for (std::size_t c = 0; c < ids.size(); ++c) {
+    column_of[static_cast<std::size_t>(ids[c])] = static_cast<std::int32_t>(c);
+    names_.push_back(directory.name(ids[c]));
+  }
+
+  SQLite::Statement count(sql, "SELECT count(*) FROM returns WHERE date BETWEEN ? AND ?");
+  count.bind(1, first);
+  count.bind(2, last);
+  count.executeStep();
+  const auto rows = static_cast<Eigen::Index>(count.getColumn(0).getInt64());
+  values_.setConstant(rows, static_cast<Eigen::Index>(ids.size()), std::numeric_limits<double>::quiet_NaN());
+
+  SQLite::Statement q(sql, "SELECT date, asset_ids, returns FROM returns WHERE date BETWEEN ? AND ? ORDER BY date");
+  q.bind(1, first);
+  q.bind(2, last);
+  CrossSection row;
+  Eigen::Index t = 0;
+  while (q.executeStep() && t < rows) {
+    dates_.push_back(q.getColumn(0).getInt());
+    decode_cross_section(q.getColumn(1), q.getColumn(2), row);
+    double* out = values_.data() + t * values_.cols();
+    for (std::size_t k = 0; k < row.ids.size(); ++k) {
+      const std::int32_t id = row.ids[k];
+      if (id > max_id) continue;
+      const std::int32_t c = column_of[static_cast<std::size_t>(id)];
+      if (c >= 0) out[c] = row.values[k];
+    }
+    ++t;
+  }
+}
+
+engine::ReturnsPanel ReturnsSpan::window(std::size_t begin, std::size_t count) const {
+  const auto b = static_cast<Eigen::Index>(begin);
+  const auto n = static_cast<Eigen::Index>(count);
+  std::vector<Eigen::Index> columns;
+  for (Eigen::Index c = 0; c < values_.cols(); ++c) {
+    for (Eigen::Index t = b; t < b + n; ++t) {
+      if (!std::isnan(values_(t, c))) {
+        columns.push_back(c);
+        break;
+      }
+    }
+  }
+  engine::ReturnsPanel panel;
+  for (Eigen::Index t = b; t < b + n; ++t) panel.dates.push_back(iso_date(dates_[static_cast<std::size_t>(t)]));
+  panel.values.resize(n, static_cast<Eigen::Index>(columns.size()));
+  for (std::size_t j = 0; j < columns.size(); ++j) {
+    panel.assets.push_back(names_[static_cast<std::size_t>(columns[j])]);
+    panel.values.col(static_cast<Eigen::Index>(j)) = values_.block(b, columns[j], n, 1);
+  }
+  return panel;
+}
+
+std::string panel_fingerprint(const engine::ReturnsPanel& panel) {
+  Fingerprint f;
+  for (const std::string& d : panel.dates) f.add(d);
+  for (const std::string& a : panel.assets) f.add(a);
+  f.add(panel.values.data(), static_cast<std::size_t>(panel.values.size()) * sizeof(double));
+  return f.hex();
+}
+
+}  // namespace factorwatch::storage::detail

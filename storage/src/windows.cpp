@@ -1,0 +1,235 @@
+#include "factorwatch/storage/windows.h"
+
+#include <SQLiteCpp/SQLiteCpp.h>
+
+#include <cmath>
+#include <limits>
+#include <nlohmann/json.hpp>
+#include <stdexcept>
+
+#include "asset_directory.h"
+#include "blob_codec.h"
+#include "date_key.h"
+
+namespace factorwatch::storage {
+namespace {
+
+using nlohmann::json;
+
+// JSON has no NaN or infinity; a failed fit may carry them, so they travel as strings.
+json number(double x) {
+  if (std::isfinite(x)) return x;
+  return std::isnan(x) ? "nan" : (x > 0 ? "inf" : "-inf");
+}
+
+double number(const json& j) {
+  if (j.is_number()) return j.get<double>();
+  const std::string s = j.get<std::string>();
+  if (s == "inf") return std::numeric_limits<double>::infinity();
+  if (s == "-inf") return -std::numeric_limits<double>::infinity();
+  return std::numeric_limits<double>::quiet_NaN();
+}
+
+engine::Termination parse_termination(const std::string& s) {
+  for (engine::Termination t : {engine::Termination::not_run, engine::Termination::converged,
+                                engine::Termination::iteration_limit, engine::Termination::numerical_failure})
+    if (s == engine::to_string(t)) return t;
+  throw std::runtime_error("stored window: unknown termination '" + s + "'");
+}
+
+json statistics(const engine::FactorFit& fit) {
+  json excluded = json::array();
+  for (const auto& e : fit.excluded) excluded.push_back({{"asset", e.asset}, {"reason", e.reason}});
+  int heywood = 0;
+  for (bool h : fit.heywood) heywood += h;
+  return {{"termination", engine::to_string(fit.termination)},
+          {"message", fit.message},
+          {"method", engine::to_string(fit.method)},
+          {"basis", engine::to_string(fit.basis)},
+          {"solver_path", fit.solver_path},
+          {"gap_handling", fit.gap_handling},
+          {"warm_started", fit.warm_started},
+          {"periods", fit.periods},
+          {"effective_sample_size", number(fit.effective_sample_size)},
+          {"excluded", excluded},
+          {"heywood_count", heywood},
+          {"trace", number(fit.trace)},
+          {"explained_total", number(fit.explained_total)},
+          {"log_likelihood", number(fit.log_likelihood)},
+          {"lr_test",
+           {{"defined", fit.lr_test.defined},
+            {"statistic", number(fit.lr_test.statistic)},
+            {"dof", number(fit.lr_test.dof)},
+            {"p_value", number(fit.lr_test.p_value)}}},
+          {"iterations", fit.iterations},
+          {"converged", fit.converged}};
+}
+
+void restore_statistics(const json& j, engine::FactorFit& fit) {
+  fit.termination = parse_termination(j.at("termination").get<std::string>());
+  fit.message = j.at("message").get<std::string>();
+  fit.method = *engine::parse_method(j.at("method").get<std::string>());
+  fit.basis = *engine::parse_basis(j.at("basis").get<std::string>());
+  fit.solver_path = j.at("solver_path").get<std::string>();
+  fit.gap_handling = j.at("gap_handling").get<std::string>();
+  fit.warm_started = j.at("warm_started").get<bool>();
+  fit.periods = j.at("periods").get<Eigen::Index>();
+  fit.effective_sample_size = number(j.at("effective_sample_size"));
+  for (const auto& e : j.at("excluded")) fit.excluded.push_back({e.at("asset"), e.at("reason")});
+  fit.trace = number(j.at("trace"));
+  fit.explained_total = number(j.at("explained_total"));
+  fit.log_likelihood = number(j.at("log_likelihood"));
+  const json& lr = j.at("lr_test");
+  fit.lr_test.defined = lr.at("defined").get<bool>();
+  fit.lr_test.statistic = number(lr.at("statistic"));
+  fit.lr_test.dof = number(lr.at("dof"));
+  fit.lr_test.p_value = number(lr.at("p_value"));
+  fit.iterations = j.at("iterations").get<int>();
+  fit.converged = j.at("converged").get<bool>();
+}
+
+void bind_blob(SQLite::Statement& q, int index, const std::string& bytes) {
+  q.bind(index, bytes.data(), static_cast<int>(bytes.size()));
+}
+
+Eigen::MatrixXd matrix_column(SQLite::Statement& q, const char* name) {
+  const SQLite::Column c = q.getColumn(name);
+  return detail::decode_matrix(c.getBlob(), static_cast<std::size_t>(c.getBytes()), name);
+}
+
+Eigen::VectorXd vector_column(SQLite::Statement& q, const char* name) {
+  const SQLite::Column c = q.getColumn(name);
+  return detail::decode_vector(c.getBlob(), static_cast<std::size_t>(c.getBytes()), name);
+}
+
+WindowRecord read_record(Database& db, SQLite::Statement& q) {
+  WindowRecord w;
+  w.as_of = detail::iso_date(q.getColumn("as_of").getInt());
+  w.first_date = detail::iso_date(q.getColumn("first_date").getInt());
+  w.configuration_hash = q.getColumn("configuration_hash").getString();
+  w.input_hash = q.getColumn("input_hash").getString();
+  w.total_seconds = q.getColumn("total_seconds").getDouble();
+  w.fitted_at = q.getColumn("fitted_at").getString();
+  w.stale = q.getColumn("stale").getInt() != 0;
+  engine::FactorFit& fit = w.fit;
+  restore_statistics(json::parse(q.getColumn("statistics").getString()), fit);
+  fit.factors = q.getColumn("factors").getInt();
+  fit.fit_seconds = q.getColumn("fit_seconds").getDouble();
+  const SQLite::Column ids = q.getColumn("assets");
+  for (std::int32_t id : detail::decode_int32s(ids.getBlob(), static_cast<std::size_t>(ids.getBytes()), "assets"))
+    fit.assets.push_back(db.assets().name(id));
+  fit.mean = vector_column(q, "mean");
+  fit.scale = vector_column(q, "scale");
+  fit.loadings = matrix_column(q, "loadings");
+  fit.specific_variance = vector_column(q, "specific_variance");
+  fit.communality = vector_column(q, "communality");
+  fit.uniqueness = vector_column(q, "uniqueness");
+  const SQLite::Column heywood = q.getColumn("heywood");
+  fit.heywood = detail::decode_flags(heywood.getBlob(), static_cast<std::size_t>(heywood.getBytes()), "heywood");
+  fit.factor_covariance = matrix_column(q, "factor_covariance");
+  fit.eigenvalues = vector_column(q, "eigenvalues");
+  fit.explained_share = vector_column(q, "explained_share");
+  const auto n = static_cast<Eigen::Index>(fit.assets.size());
+  if (fit.loadings.rows() != n || fit.specific_variance.size() != n || fit.heywood.size() != fit.assets.size())
+    throw std::runtime_error("stored window " + w.as_of + ": the asset list and the loadings disagree in length");
+  return w;
+}
+
+}  // namespace
+
+void save_window(Database& db, long model_version_id, const WindowRecord& w) {
+  const engine::FactorFit& fit = w.fit;
+  std::vector<std::int32_t> ids;
+  ids.reserve(fit.assets.size());
+  for (const std::string& name : fit.assets) {
+    const std::int32_t id = db.assets().id(name);
+    if (id < 0) throw std::invalid_argument("save_window: asset '" + name + "' is not stored");
+    ids.push_back(id);
+  }
+  SQLite::Database& sql = db.sql();
+  SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
+  SQLite::Statement q(sql,
+                      "INSERT OR REPLACE INTO windows (model_version_id, as_of, first_date, configuration_hash, "
+                      "input_hash, asset_count, factors, usable, termination, assets, mean, scale, loadings, "
+                      "specific_variance, communality, uniqueness, heywood, factor_covariance, eigenvalues, "
+                      "explained_share, statistics, fit_seconds, total_seconds, fitted_at, stale) VALUES "
+                      "(?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, 0)");
+  q.bind(1, static_cast<std::int64_t>(model_version_id));
+  q.bind(2, detail::date_key(w.as_of, "as-of date"));
+  q.bind(3, detail::date_key(w.first_date, "first date"));
+  q.bind(4, w.configuration_hash);
+  q.bind(5, w.input_hash);
+  q.bind(6, static_cast<int>(fit.assets.size()));
+  q.bind(7, fit.factors);
+  q.bind(8, fit.IsSolutionUsable() ? 1 : 0);
+  q.bind(9, engine::to_string(fit.termination));
+  // SQLite copies blob parameters on bind (SQLITE_TRANSIENT), so temporaries are safe.
+  bind_blob(q, 10, detail::encode_int32s(ids));
+  bind_blob(q, 11, detail::encode_doubles(fit.mean));
+  bind_blob(q, 12, detail::encode_doubles(fit.scale));
+  bind_blob(q, 13, detail::encode_doubles(fit.loadings));
+  bind_blob(q, 14, detail::encode_doubles(fit.specific_variance));
+  bind_blob(q, 15, detail::encode_doubles(fit.communality));
+  bind_blob(q, 16, detail::encode_doubles(fit.uniqueness));
+  bind_blob(q, 17, detail::encode_flags(fit.heywood));
+  bind_blob(q, 18, detail::encode_doubles(fit.factor_covariance));
+  bind_blob(q, 19, detail::encode_doubles(fit.eigenvalues));
+  bind_blob(q, 20, detail::encode_doubles(fit.explained_share));
+  q.bind(21, statistics(fit).dump());
+  q.bind(22, fit.fit_seconds);
+  q.bind(23, w.total_seconds);
+  q.bind(24, w.fitted_at.empty() ? detail::utc_now() : w.fitted_at);
+  q.exec();
+  transaction.commit();
+}
+
+std::vector<WindowSummary> list_windows(Database& db, long model_version_id) {
+  SQLite::Statement q(db.sql(),
+                      "SELECT as_of, first_date, asset_count, factors, termination, usable, statistics, "
+                      "fit_seconds, total_seconds, stale FROM windows WHERE model_version_id = ? ORDER BY as_of");
+  q.bind(1, static_cast<std::int64_t>(model_version_id));
+  std::vector<WindowSummary> out;
+  while (q.executeStep()) {
+    WindowSummary s;
+    s.as_of = detail::iso_date(q.getColumn(0).getInt());
+    s.first_date = detail::iso_date(q.getColumn(1).getInt());
+    s.asset_count = q.getColumn(2).getInt();
+    s.factors = q.getColumn(3).getInt();
+    s.termination = q.getColumn(4).getString();
+    s.usable = q.getColumn(5).getInt() != 0;
+    const json stats = json::parse(q.getColumn(6).getString());
+    s.periods = stats.at("periods").get<Eigen::Index>();
+    s.excluded_count = static_cast<int>(stats.at("excluded").size());
+    s.warm_started = stats.at("warm_started").get<bool>();
+    s.iterations = stats.at("iterations").get<int>();
+    s.log_likelihood = number(stats.at("log_likelihood"));
+    s.explained_total = number(stats.at("explained_total"));
+    s.heywood_count = stats.at("heywood_count").get<int>();
+    s.fit_seconds = q.getColumn(7).getDouble();
+    s.total_seconds = q.getColumn(8).getDouble();
+    s.stale = q.getColumn(9).getInt() != 0;
+    out.push_back(std::move(s));
+  }
+  return out;
+}
+
+std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
+                                        bool at_or_before) {
+  std::string where = "WHERE model_version_id = ?1";
+  if (!as_of.empty()) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
+  SQLite::Statement q(db.sql(), "SELECT * FROM windows " + where + " ORDER BY as_of DESC LIMIT 1");
+  q.bind(1, static_cast<std::int64_t>(model_version_id));
+  if (!as_of.empty()) q.bind(2, detail::date_key(as_of, "as-of date"));
+  if (!q.executeStep()) return std::nullopt;
+  return read_record(db, q);
+}
+
+std::vector<std::string> current_window_dates(Database& db, long model_version_id) {
+  SQLite::Statement q(db.sql(), "SELECT as_of FROM windows WHERE model_version_id = ? AND stale = 0 ORDER BY as_of");
+  q.bind(1, static_cast<std::int64_t>(model_version_id));
+  std::vector<std::string> out;
+  while (q.executeStep()) out.push_back(detail::iso_date(q.getColumn(0).getInt()));
+  return out;
+}
+
+}  // namespace factorwatch::storage
