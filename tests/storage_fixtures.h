@@ -1,0 +1,109 @@
+// Shared pieces of the storage and command-line tests: a temporary data directory, files
+// written from a panel, and running the real factorwatch command.
+#pragma once
+
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <array>
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <iterator>
+#include <string>
+#include <vector>
+
+#include "factorwatch/engine/panel.h"
+
+namespace factorwatch::testing {
+
+// A fresh directory under the system temp directory, removed with its content.
+class TempDir {
+ public:
+  TempDir() {
+    std::string pattern = (std::filesystem::temp_directory_path() / "factorwatch-test-XXXXXX").string();
+    path_ = ::mkdtemp(pattern.data()) ? pattern : std::string();
+  }
+  ~TempDir() {
+    std::error_code ignored;
+    if (!path_.empty()) std::filesystem::remove_all(path_, ignored);
+  }
+  TempDir(const TempDir&) = delete;
+  TempDir& operator=(const TempDir&) = delete;
+  const std::string& path() const { return path_; }
+  std::string file(const std::string& name) const { return path_ + "/" + name; }
+  std::string database() const { return file("factorwatch.db"); }
+
+ private:
+  std::string path_;
+};
+
+// Monday-to-Friday ISO dates from 2021-01-04 (a Monday).
+inline std::vector<std::string> business_dates(int count) {
+  static const int month_days[] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
+  std::vector<std::string> out;
+  int y = 2021, m = 1, d = 4, weekday = 0;  // 0 = Monday
+  while (static_cast<int>(out.size()) < count) {
+    if (weekday < 5) {
+      char text[16];
+      std::snprintf(text, sizeof text, "%04d-%02d-%02d", y, m, d);
+      out.push_back(text);
+    }
+    weekday = (weekday + 1) % 7;
+    const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
+    if (++d > month_days[m - 1] + (m == 2 && leap)) {
+      d = 1;
+      if (++m > 12) m = 1, ++y;
+    }
+  }
+  return out;
+}
+
+// Long layout, %.17g so that every double reads back exactly; gaps are left out.
+inline void write_long_csv(const std::string& path, const engine::ReturnsPanel& panel) {
+  std::ofstream out(path);
+  out << "date,asset,return\n";
+  char number[40];
+  for (Eigen::Index t = 0; t < panel.periods(); ++t)
+    for (Eigen::Index i = 0; i < panel.width(); ++i) {
+      const double v = panel.values(t, i);
+      if (v != v) continue;
+      std::snprintf(number, sizeof number, "%.17g", v);
+      out << panel.dates[static_cast<std::size_t>(t)] << ',' << panel.assets[static_cast<std::size_t>(i)] << ','
+          << number << '\n';
+    }
+}
+
+inline void write_text(const std::string& path, const std::string& text) { std::ofstream(path) << text; }
+
+inline std::string read_bytes(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  return std::string(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
+}
+
+struct CommandResult {
+  int status = -1;
+  std::string out;  // standard output
+  std::string err;  // standard error
+};
+
+// Runs `factorwatch ARGUMENTS` with FACTORWATCH_DATA=data_dir.
+inline CommandResult run_factorwatch(const std::string& data_dir, const std::string& arguments) {
+  CommandResult r;
+  const std::string err_file = data_dir + "/.stderr";
+  const std::string command = "FACTORWATCH_DATA='" + data_dir + "' " + FACTORWATCH_COMMAND + " " + arguments +
+                              " 2>'" + err_file + "'";
+  FILE* pipe = ::popen(command.c_str(), "r");
+  if (!pipe) return r;
+  std::array<char, 4096> buffer{};
+  std::size_t n = 0;
+  while ((n = std::fread(buffer.data(), 1, buffer.size(), pipe)) > 0) r.out.append(buffer.data(), n);
+  const int status = ::pclose(pipe);
+  r.status = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+  r.err = read_bytes(err_file);
+  std::remove(err_file.c_str());
+  return r;
+}
+
+}  // namespace factorwatch::testing

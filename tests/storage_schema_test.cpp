@@ -1,0 +1,109 @@
+// The database file: WAL and foreign keys on, and forward migrations from every earlier
+// schema version with the data kept.
+#include <gtest/gtest.h>
+
+#include <SQLiteCpp/SQLiteCpp.h>
+
+#include "factorwatch/storage/database.h"
+#include "migrations.h"
+#include "storage_fixtures.h"
+
+namespace {
+
+using factorwatch::storage::Database;
+using factorwatch::storage::current_schema_version;
+using factorwatch::testing::TempDir;
+namespace detail = factorwatch::storage::detail;
+
+TEST(StorageSchema, FreshDatabaseIsCurrentWithWalAndForeignKeys) {
+  TempDir dir;
+  Database db(dir.database());
+  EXPECT_EQ(db.schema_version(), current_schema_version());
+  EXPECT_EQ(db.sql().execAndGet("PRAGMA journal_mode").getString(), "wal");
+  EXPECT_EQ(db.sql().execAndGet("PRAGMA foreign_keys").getInt(), 1);
+  EXPECT_EQ(db.sql().execAndGet("PRAGMA application_id").getInt(), detail::kApplicationId);
+  // A window must belong to a stored model version.
+  EXPECT_THROW(db.sql().exec("INSERT INTO windows (model_version_id, as_of, first_date, configuration_hash, "
+                             "input_hash, asset_count, factors, usable, termination, assets, mean, scale, loadings, "
+                             "specific_variance, communality, uniqueness, heywood, factor_covariance, eigenvalues, "
+                             "explained_share, statistics, fit_seconds, total_seconds, fitted_at) VALUES (99, 1, 1, "
+                             "'', '', 0, 0, 0, '', x'', x'', x'', x'', x'', x'', x'', x'', x'', x'', x'', '{}', 0, 0, '')"),
+               SQLite::Exception);
+}
+
+TEST(StorageSchema, MigrationsAreNumberedInOrder) {
+  const auto& steps = detail::migrations();
+  for (std::size_t i = 0; i < steps.size(); ++i) EXPECT_EQ(steps[i].version, static_cast<int>(i) + 1);
+}
+
+// Rows that a database at `version` can hold, so that migrating it shows they survive.
+void fill(SQLite::Database& sql, int version) {
+  if (version >= 1) {
+    sql.exec("INSERT INTO assets (id, name, first_date, last_date) VALUES (1, 'ZQ-0001', 20240102, 20240103)");
+    sql.exec("INSERT INTO returns (date, asset_ids, returns) VALUES (20240102, x'01000000', x'7b14ae47e17a843f')");
+    sql.exec("INSERT INTO ingest_runs (file_name, content_sha256, loaded_at, layout, values_in_file, data_rows, "
+             "values_new, values_unchanged, values_corrected, outcome, seconds) VALUES ('a.csv', 'ab', "
+             "'2026-01-01T00:00:00Z', 'long', 'returns', 1, 1, 0, 0, 'new data', 0.1)");
+  }
+  if (version >= 2) {
+    sql.exec("INSERT INTO models (id, name, created_at) VALUES (1, 'm', 'now')");
+    sql.exec("INSERT INTO model_versions (id, model_id, version, configuration, configuration_hash, created_at) "
+             "VALUES (1, 1, 1, '{}', 'h', 'now')");
+  }
+}
+
+// Every earlier version, including an empty file (version 0), migrates to the current
+// one on open and keeps its rows.
+TEST(StorageSchema, MigratesFromEveryEarlierVersion) {
+  for (int from = 0; from < current_schema_version(); ++from) {
+    TempDir dir;
+    {
+      SQLite::Database sql(dir.database(), SQLite::OPEN_READWRITE | SQLite::OPEN_CREATE);
+      if (from > 0) detail::migrate_to(sql, from);
+      fill(sql, from);
+      ASSERT_EQ(detail::user_version(sql), from);
+    }
+    Database db(dir.database());
+    EXPECT_EQ(db.schema_version(), current_schema_version()) << "from version " << from;
+    SQLite::Database& sql = db.sql();
+    const int expected_assets = from >= 1 ? 1 : 0;
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM assets").getInt(), expected_assets) << "from " << from;
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM returns").getInt(), expected_assets) << "from " << from;
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM model_versions").getInt(), from >= 2 ? 1 : 0);
+    // The newest tables exist and work.
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM corrections").getInt(), 0);
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM windows").getInt(), 0);
+    if (from >= 1) {
+      EXPECT_EQ(sql.execAndGet("SELECT name FROM assets WHERE id = 1").getString(), "ZQ-0001");
+    }
+  }
+}
+
+TEST(StorageSchema, RefusesANewerSchema) {
+  TempDir dir;
+  { Database db(dir.database()); db.sql().exec("PRAGMA user_version = " + std::to_string(current_schema_version() + 1)); }
+  try {
+    Database db(dir.database());
+    FAIL() << "opened a database from a newer version";
+  } catch (const std::runtime_error& e) {
+    EXPECT_NE(std::string(e.what()).find("newer"), std::string::npos) << e.what();
+  }
+}
+
+TEST(StorageSchema, RefusesSomeoneElsesDatabaseAndNonDatabases) {
+  TempDir dir;
+  {
+    SQLite::Database other(dir.file("other.db"), SQLite::OPEN_READWRITE | SQLite::OPEN_CREATE);
+    other.exec("CREATE TABLE t (x)");
+  }
+  try {
+    Database db(dir.file("other.db"));
+    FAIL() << "opened a foreign database";
+  } catch (const std::runtime_error& e) {
+    EXPECT_NE(std::string(e.what()).find("not a factorwatch database"), std::string::npos) << e.what();
+  }
+  factorwatch::testing::write_text(dir.file("text.db"), "date,asset,return\n2024-01-02,ZQ-0001,0.01\n");
+  EXPECT_THROW(Database(dir.file("text.db")), std::runtime_error);
+}
+
+}  // namespace
