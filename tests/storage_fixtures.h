@@ -46,7 +46,7 @@ inline std::vector<std::string> business_dates(int count) {
   int y = 2021, m = 1, d = 4, weekday = 0;  // 0 = Monday
   while (static_cast<int>(out.size()) < count) {
     if (weekday < 5) {
-      char text[16];
+      char text[40];
       std::snprintf(text, sizeof text, "%04d-%02d-%02d", y, m, d);
       out.push_back(text);
     }
