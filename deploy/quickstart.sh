@@ -1,13 +1,23 @@
 #!/usr/bin/env bash
 # The main job on the demo universe, from a fresh Debian/Ubuntu machine: install the
-# dependencies, build, generate the fictional demo universe, fit its latest window
-# (504 business days) by maximum likelihood and print the model summary.
+# dependencies, build, generate the fictional demo universe, load it into the database,
+# define a demo model, refresh it (fit its rolling windows) and print the latest
+# exposures. Run it again and it finds everything current: the load changes nothing and
+# the refresh fits nothing.
+#
+# The database goes to the data directory: $FACTORWATCH_DATA if set, else
+# ~/.local/share/factorwatch (see README.md).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 ./deploy/install-deps.sh
 ./deploy/build.sh -DFACTORWATCH_TESTS=OFF -DFACTORWATCH_BENCH=OFF
-if [ ! -f demo-universe/out/returns_wide.csv ]; then
+if [ ! -f demo-universe/out/returns_long.csv ]; then
   ./build/demo-universe/factorwatch-demo-universe --out demo-universe/out
 fi
-./build/server/factorwatch fit --returns demo-universe/out/returns_wide.csv --window 504 \
-  --method ml --factors 4 "$@"
+fw=./build/server/factorwatch
+"$fw" load demo-universe/out/returns_long.csv
+# Daily windows of 504 business days with four factors by maximum likelihood, fitted
+# from June 2023 on (about 670 windows, spanning the demo's planted change of August 2023).
+"$fw" model set demo --method ml --factors 4 --window 504 --step 1 --first-as-of 2023-06-01
+"$fw" refresh demo
+"$fw" exposures demo --limit 12 "$@"
