@@ -62,21 +62,30 @@ ReturnsSpan::ReturnsSpan(SQLite::Database& sql, AssetDirectory& directory, std::
 engine::ReturnsPanel ReturnsSpan::window(std::size_t begin, std::size_t count) const {
   const auto b = static_cast<Eigen::Index>(begin);
   const auto n = static_cast<Eigen::Index>(count);
-  std::vector<Eigen::Index> columns;
-  for (Eigen::Index c = 0; c < values_.cols(); ++c) {
-    for (Eigen::Index t = b; t < b + n; ++t) {
-      if (!std::isnan(values_(t, c))) {
-        columns.push_back(c);
-        break;
-      }
-    }
+  const Eigen::Index width = values_.cols();
+  // Columns with at least one return in the rows, found row by row (the block is
+  // row-major, so this streams through memory once).
+  std::vector<char> present(static_cast<std::size_t>(width), 0);
+  for (Eigen::Index t = b; t < b + n; ++t) {
+    const double* row = values_.data() + t * width;
+    for (Eigen::Index c = 0; c < width; ++c) present[static_cast<std::size_t>(c)] |= !std::isnan(row[c]);
   }
+  std::vector<Eigen::Index> columns;
+  for (Eigen::Index c = 0; c < width; ++c)
+    if (present[static_cast<std::size_t>(c)]) columns.push_back(c);
+
   engine::ReturnsPanel panel;
   for (Eigen::Index t = b; t < b + n; ++t) panel.dates.push_back(iso_date(dates_[static_cast<std::size_t>(t)]));
+  for (Eigen::Index c : columns) panel.assets.push_back(names_[static_cast<std::size_t>(c)]);
+  if (static_cast<Eigen::Index>(columns.size()) == width) {
+    panel.values = values_.middleRows(b, n);
+    return panel;
+  }
   panel.values.resize(n, static_cast<Eigen::Index>(columns.size()));
-  for (std::size_t j = 0; j < columns.size(); ++j) {
-    panel.assets.push_back(names_[static_cast<std::size_t>(columns[j])]);
-    panel.values.col(static_cast<Eigen::Index>(j)) = values_.block(b, columns[j], n, 1);
+  for (Eigen::Index t = 0; t < n; ++t) {
+    const double* from = values_.data() + (b + t) * width;
+    double* to = panel.values.data() + t * panel.values.cols();
+    for (std::size_t j = 0; j < columns.size(); ++j) to[j] = from[columns[j]];
   }
   return panel;
 }
