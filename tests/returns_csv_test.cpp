@@ -1,14 +1,18 @@
-// Reading returns files (storage::read_returns_csv): layouts, gaps, order, CSV details,
-// every error path, speed, and the EuStockMarkets reference file written by R.
+// Reading returns files (storage::read_returns_csv, read_returns_file): layouts, gaps,
+// order, CSV details, prices, every error path, speed, and the EuStockMarkets reference
+// file written by R. Each malformed-file rule also has a file in tests/ingest-catalogue/.
 #include <gtest/gtest.h>
 #include <unistd.h>
 
 #include <cmath>
+#include <algorithm>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
+#include <random>
 #include <sstream>
 #include <string>
+#include <vector>
 
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/returns_csv.h"
@@ -17,6 +21,9 @@ namespace fs = std::filesystem;
 using factorwatch::engine::ReturnsPanel;
 using factorwatch::storage::InputError;
 using factorwatch::storage::read_returns_csv;
+using factorwatch::storage::read_returns_file;
+using factorwatch::storage::ReturnsFile;
+using factorwatch::storage::ValuesInFile;
 
 namespace {
 
@@ -40,13 +47,15 @@ class ReturnsCsv : public ::testing::Test {
 
   // The file must be rejected with "PATH:LINE: field 'FIELD': ..." mentioning `words`.
   void expect_error(const std::string& content, std::size_t line, const std::string& field,
-                    const std::string& words) {
+                    const std::string& words, ValuesInFile values = ValuesInFile::returns) {
     const std::string path = write("bad.csv", content);
     try {
-      read_returns_csv(path);
+      read_returns_file(path, {values});
       ADD_FAILURE() << "accepted:\n" << content;
     } catch (const InputError& e) {
-      const std::string prefix = path + ":" + std::to_string(line) + ": field '" + field + "': ";
+      // A problem not about one column leaves the field part out.
+      const std::string prefix =
+          path + ":" + std::to_string(line) + ": " + (field.empty() ? "" : "field '" + field + "': ");
       EXPECT_EQ(std::string(e.what()).rfind(prefix, 0), 0u) << e.what() << "\nwanted prefix " << prefix;
       EXPECT_EQ(e.line(), line) << e.what();
       EXPECT_EQ(e.field(), field) << e.what();
@@ -76,17 +85,17 @@ const char* kWide =
     "date,AAA,BBB,CCC\n"
     "2024-01-02,0.01,-0.02,0.5\n"
     "2024-01-03,,NA,0.25\n"
-    "2024-01-04,-1e-3,nan,1.5E-2\n";
+    "2024-01-04,-1e-3,na,1.5E-2\n";
 
 // The same returns, one row per (date, asset), asset by asset, columns shuffled; the
-// gaps are written once as an explicit NaN and once simply left out.
+// gaps are written once as an explicit NA and once simply left out.
 const char* kLong =
     "asset,return,date\n"
     "AAA,0.01,2024-01-02\n"
     "AAA,,2024-01-03\n"
     "AAA,-1e-3,2024-01-04\n"
     "BBB,-0.02,2024-01-02\n"
-    "BBB,NaN,2024-01-03\n"
+    "BBB,NA,2024-01-03\n"
     "CCC,0.5,2024-01-02\n"
     "CCC,0.25,2024-01-03\n"
     "CCC,1.5E-2,2024-01-04\n";
@@ -107,8 +116,24 @@ TEST_F(ReturnsCsv, GapsBecomeQuietNaN) {
   const ReturnsPanel p = read_returns_csv(write("wide.csv", kWide));
   EXPECT_TRUE(std::isnan(p.values(1, 0)));  // empty cell
   EXPECT_TRUE(std::isnan(p.values(1, 1)));  // NA
-  EXPECT_TRUE(std::isnan(p.values(2, 1)));  // nan
+  EXPECT_TRUE(std::isnan(p.values(2, 1)));  // na
   EXPECT_FALSE(std::isnan(p.values(1, 2)));
+}
+
+TEST_F(ReturnsCsv, NaInAnyCaseAndQuotedStaysAGap) {
+  // R's write.csv writes NA for a missing value; quoting does not change what a cell is.
+  const ReturnsPanel p = read_returns_csv(write("na.csv",
+                                                "date,asset,return\n"
+                                                "2024-01-02,ZQ-0001,NA\n"
+                                                "2024-01-02,ZQ-0002,\"NA\"\n"
+                                                "2024-01-03,ZQ-0001,Na\n"
+                                                "2024-01-03,ZQ-0002, nA \n"
+                                                "2024-01-04,ZQ-0001,0.01\n"));
+  ASSERT_EQ(p.periods(), 3);
+  ASSERT_EQ(p.width(), 2);
+  EXPECT_TRUE(p.values.topRows(2).array().isNaN().all());
+  EXPECT_EQ(p.values(2, 0), 0.01);
+  EXPECT_TRUE(std::isnan(p.values(2, 1)));  // no row at all
 }
 
 TEST_F(ReturnsCsv, LongAndWideGiveTheSamePanel) {
@@ -125,7 +150,7 @@ TEST_F(ReturnsCsv, LongRowsInAnyOrder) {
                                                 "2024-01-04,CCC,1.5E-2\n"
                                                 "2024-01-02,AAA,0.01\n"
                                                 "2024-01-03,CCC,0.25\n"
-                                                "2024-01-03,BBB,NaN\n"
+                                                "2024-01-03,BBB,NA\n"
                                                 "2024-01-04,AAA,-1e-3\n"
                                                 "2024-01-02,CCC,0.5\n"));
   expect_same_panel(read_returns_csv(write("wide.csv", kWide)), p);
@@ -136,23 +161,52 @@ TEST_F(ReturnsCsv, LongLayoutLeftOutRowIsAGap) {
   EXPECT_TRUE(std::isnan(p.values(2, 1)));  // BBB has no row for 2024-01-04
 }
 
-TEST_F(ReturnsCsv, RowsAreSortedByDate) {
-  const ReturnsPanel sorted = read_returns_csv(write("wide.csv", kWide));
-  const ReturnsPanel p = read_returns_csv(write("shuffled.csv",
-                                                "date,AAA,BBB,CCC\n"
-                                                "2024-01-04,-1e-3,nan,1.5E-2\n"
-                                                "2024-01-02,0.01,-0.02,0.5\n"
-                                                "2024-01-03,,NA,0.25\n"));
-  expect_same_panel(sorted, p);
+TEST_F(ReturnsCsv, LongRowsAreSortedByDate) {
   // Long rows in date-descending order, with a year boundary (keys sort as numbers).
   const ReturnsPanel q = read_returns_csv(write("long.csv",
                                                 "date,asset,return\n"
-                                                "2024-01-01,X,3\n"
-                                                "2023-12-31,X,2\n"
-                                                "2023-02-28,X,1\n"));
+                                                "2024-01-01,X,0.3\n"
+                                                "2023-12-31,X,0.2\n"
+                                                "2023-02-28,X,0.1\n"));
   EXPECT_EQ(q.dates, (std::vector<std::string>{"2023-02-28", "2023-12-31", "2024-01-01"}));
-  EXPECT_EQ(q.values(0, 0), 1);
-  EXPECT_EQ(q.values(2, 0), 3);
+  EXPECT_EQ(q.values(0, 0), 0.1);
+  EXPECT_EQ(q.values(2, 0), 0.3);
+}
+
+// A larger long file with its rows in a random order (fixed seed) reads like the same rows
+// date by date: nothing in the long reader may depend on the order of the rows.
+TEST_F(ReturnsCsv, LongFileInShuffledOrder) {
+  std::vector<std::string> rows;
+  for (int t = 0; t < 40; ++t)
+    for (int i = 0; i < 9; ++i) {
+      if ((t * 9 + i) % 11 == 3) continue;  // some pairs simply absent
+      char row[96];
+      const char* value = (t * 9 + i) % 13 == 5 ? "NA" : nullptr;
+      char number[32];
+      std::snprintf(number, sizeof number, "%.6f", 0.001 * ((t * 31 + i * 17) % 41 - 20));
+      std::snprintf(row, sizeof row, "2023-%02d-%02d,ZQ-%04d,%s\n", 1 + t / 28, 1 + t % 28, i + 1,
+                    value ? value : number);
+      rows.push_back(row);
+    }
+  std::string ordered = "date,asset,return\n";
+  for (const auto& r : rows) ordered += r;
+  // Assets keep the order of first appearance: keep the first nine rows in front, so that
+  // both files list the assets in the same order and the panels compare cell by cell.
+  std::vector<std::string> rest(rows.begin() + 9, rows.end());
+  std::mt19937 rng(20261202);
+  std::shuffle(rest.begin(), rest.end(), rng);
+  std::string shuffled = "date,asset,return\n";
+  for (int i = 8; i >= 0; --i) rest.insert(rest.begin(), rows[static_cast<std::size_t>(i)]);
+  for (const auto& r : rest) shuffled += r;
+  ASSERT_NE(ordered, shuffled);
+
+  const ReturnsFile a = read_returns_file(write("ordered.csv", ordered), {});
+  const ReturnsFile b = read_returns_file(write("shuffled.csv", shuffled), {});
+  expect_same_panel(a.panel, b.panel);
+  EXPECT_EQ(b.panel.periods(), 40);
+  EXPECT_EQ(b.panel.width(), 9);
+  EXPECT_EQ(b.data_rows, rows.size());
+  EXPECT_EQ(a.values_present, b.values_present);
 }
 
 TEST_F(ReturnsCsv, ByteOrderMarkAndCrLf) {
@@ -172,12 +226,12 @@ TEST_F(ReturnsCsv, QuotesCommentsBlankLinesAndSpaces) {
                                                 "date,\"Fund, Class A\",\"The \"\"Best\"\" Co\", Plain \n"
                                                 "\"2024-01-02\",\"0.5\", +0.25 ,\"\"\n"
                                                 "\n"
-                                                "2024-01-03,\"-1\",2,3\n"));
+                                                "2024-01-03,\"-0.5\",2,3\n"));
   EXPECT_EQ(p.assets, (std::vector<std::string>{"Fund, Class A", "The \"Best\" Co", "Plain"}));
   EXPECT_EQ(p.values(0, 0), 0.5);
   EXPECT_EQ(p.values(0, 1), 0.25);
   EXPECT_TRUE(std::isnan(p.values(0, 2)));
-  EXPECT_EQ(p.values(1, 0), -1);
+  EXPECT_EQ(p.values(1, 0), -0.5);
   EXPECT_EQ(p.periods(), 2);
 }
 
@@ -196,10 +250,164 @@ TEST_F(ReturnsCsv, NumbersAreParsedExactly) {
   EXPECT_EQ(p.values(0, 2), 2.2250738585072014e-308);
 }
 
-TEST_F(ReturnsCsv, LargeReturnsAreKeptAsGiven) {
-  // 1200 % is suspicious (a percent file?) but not impossible; the reader does not judge size.
-  const ReturnsPanel p = read_returns_csv(write("big.csv", "date,A\n2024-01-02,12\n"));
-  EXPECT_EQ(p.values(0, 0), 12);
+TEST_F(ReturnsCsv, ReturnsUpToTheLimitsAreKept) {
+  // The limits themselves: +1000 % is kept, just above -100 % is kept.
+  const ReturnsPanel p = read_returns_csv(write("edge.csv", "date,A,B\n2024-01-02,10,-0.999999\n"));
+  EXPECT_EQ(p.values(0, 0), 10);
+  EXPECT_EQ(p.values(0, 1), -0.999999);
+}
+
+TEST_F(ReturnsCsv, FileFieldsCountRowsAndValues) {
+  const ReturnsFile w = read_returns_file(write("wide.csv", kWide), {});
+  EXPECT_EQ(w.layout, "wide");
+  EXPECT_EQ(w.data_rows, 3u);
+  EXPECT_EQ(w.values_present, 6u);  // 9 cells, 3 gaps
+  const ReturnsFile l = read_returns_file(write("long.csv", kLong), {});
+  EXPECT_EQ(l.layout, "long");
+  EXPECT_EQ(l.data_rows, 8u);
+  EXPECT_EQ(l.values_present, 6u);  // 8 rows, 2 of them NA or empty
+  expect_same_panel(l.panel, read_returns_csv(write("again.csv", kLong)));
+}
+
+// --- prices -------------------------------------------------------------------------------
+
+// ZQ-0002 has no price on 01-03: its returns on 01-03 and 01-04 are missing, then resume.
+const char* kPricesWide =
+    "date,ZQ-0001,ZQ-0002\n"
+    "2024-01-02,100,50\n"
+    "2024-01-03,110,\n"
+    "2024-01-04,99,55\n"
+    "2024-01-05,99,60.5\n";
+
+TEST_F(ReturnsCsv, PricesToSimpleReturns) {
+  const ReturnsFile f =
+      read_returns_file(write("prices.csv", kPricesWide), {ValuesInFile::prices_to_simple_returns});
+  const ReturnsPanel& p = f.panel;
+  // The first date only gives the previous prices for the second.
+  EXPECT_EQ(p.dates, (std::vector<std::string>{"2024-01-03", "2024-01-04", "2024-01-05"}));
+  EXPECT_EQ(p.assets, (std::vector<std::string>{"ZQ-0001", "ZQ-0002"}));
+  EXPECT_EQ(p.values(0, 0), 110.0 / 100.0 - 1);
+  EXPECT_NEAR(p.values(0, 0), 0.10, 1e-15);
+  EXPECT_NEAR(p.values(1, 0), -0.10, 1e-15);
+  EXPECT_EQ(p.values(2, 0), 0.0);
+  EXPECT_TRUE(std::isnan(p.values(0, 1)));  // no price on 01-03
+  EXPECT_TRUE(std::isnan(p.values(1, 1)));  // no previous price for 01-04
+  EXPECT_EQ(p.values(2, 1), 60.5 / 55.0 - 1);  // resumes
+  EXPECT_NEAR(p.values(2, 1), 0.10, 1e-15);
+  EXPECT_EQ(f.data_rows, 4u);
+  EXPECT_EQ(f.values_present, 4u);
+}
+
+TEST_F(ReturnsCsv, PricesToLogReturns) {
+  const ReturnsPanel p =
+      read_returns_file(write("prices.csv", kPricesWide), {ValuesInFile::prices_to_log_returns}).panel;
+  ASSERT_EQ(p.periods(), 3);
+  EXPECT_EQ(p.values(0, 0), std::log(110.0 / 100.0));
+  EXPECT_NEAR(p.values(0, 0), 0.09531017980432486, 1e-15);  // ln 1.1
+  EXPECT_NEAR(p.values(1, 0), -0.10536051565782628, 1e-15);  // ln 0.9
+  EXPECT_EQ(p.values(2, 0), 0.0);
+  EXPECT_TRUE(std::isnan(p.values(0, 1)));
+  EXPECT_TRUE(std::isnan(p.values(1, 1)));
+  EXPECT_NEAR(p.values(2, 1), 0.09531017980432486, 1e-15);
+}
+
+TEST_F(ReturnsCsv, LongPricesInAnyOrderGiveTheSameReturns) {
+  // The previous date is the file's previous date, whichever row it came on; ZQ-0002's
+  // gap is a missing row here.
+  const ReturnsPanel lng = read_returns_file(write("prices_long.csv",
+                                                   "asset,date,return\n"
+                                                   "ZQ-0002,2024-01-05,60.5\n"
+                                                   "ZQ-0001,2024-01-03,110\n"
+                                                   "ZQ-0001,2024-01-02,100\n"
+                                                   "ZQ-0002,2024-01-02,50\n"
+                                                   "ZQ-0001,2024-01-05,99\n"
+                                                   "ZQ-0002,2024-01-04,55\n"
+                                                   "ZQ-0001,2024-01-04,99\n"),
+                                             {ValuesInFile::prices_to_simple_returns})
+                               .panel;
+  const ReturnsPanel wide =
+      read_returns_file(write("prices.csv", kPricesWide), {ValuesInFile::prices_to_simple_returns}).panel;
+  ASSERT_EQ(lng.assets, (std::vector<std::string>{"ZQ-0002", "ZQ-0001"}));
+  ASSERT_EQ(lng.dates, wide.dates);
+  for (Eigen::Index t = 0; t < 3; ++t)
+    for (Eigen::Index j = 0; j < 2; ++j) {
+      const double a = lng.values(t, 1 - j), b = wide.values(t, j);
+      EXPECT_TRUE(a == b || (std::isnan(a) && std::isnan(b))) << t << "," << j;
+    }
+}
+
+TEST_F(ReturnsCsv, PricesAreNotJudgedAsReturns) {
+  // Prices far above 10, and well over 100 of them: neither the +1000 % limit nor the
+  // percent rule reads them as returns.
+  std::string text = "date,ZQ-0001,ZQ-0002,ZQ-0003,ZQ-0004,ZQ-0005\n";
+  for (int t = 0; t < 30; ++t) {
+    char row[128];
+    std::snprintf(row, sizeof row, "2023-01-%02d,%d,%d,%d,%d,%d\n", t + 1, 250 + t, 251, 1000 - t, 80,
+                  99 + t % 2);
+    text += row;
+  }
+  const ReturnsFile f =
+      read_returns_file(write("prices.csv", text), {ValuesInFile::prices_to_simple_returns});
+  EXPECT_EQ(f.panel.periods(), 29);
+  EXPECT_EQ(f.values_present, 29u * 5u);
+}
+
+TEST_F(ReturnsCsv, ErrorBadPrices) {
+  const auto simple = ValuesInFile::prices_to_simple_returns, log = ValuesInFile::prices_to_log_returns;
+  expect_error("date,A,B\n2024-01-02,10,0\n2024-01-03,10,1\n", 2, "B",
+               "price '0' is not above 0 (prices must be positive)", simple);
+  expect_error("date,asset,return\n2024-01-02,A,10\n2024-01-03,A,-3\n", 3, "return",
+               "price '-3' is not above 0", log);
+  expect_error("# one date\ndate,A,B\n2024-01-02,10,20\n", 3, "date",
+               "a price file needs at least two dates", simple);
+  expect_error("date,asset,return\n2024-01-02,A,10\n2024-01-02,B,20\n", 2, "date",
+               "include the previous date's prices in each file", log);
+  // A price eleven times and more the previous one: the later price's line and asset.
+  expect_error("date,A,B\n2024-01-02,10,20\n2024-01-03,10,20\n2024-01-04,10,240\n", 4, "B",
+               "price 240 of 'B' on 2024-01-04 after 20 on 2024-01-03 (line 3) is a return of +1100 %, "
+               "above the +1000 % limit",
+               simple);
+  expect_error("date,A,B\n2024-01-02,10,20\n2024-01-03,10,20\n2024-01-04,10,240\n", 4, "B", "+1100 %", log);
+  // Exactly eleven times is +1000 %, kept.
+  EXPECT_NO_THROW(read_returns_file(write("x11.csv", "date,A\n2024-01-02,10\n2024-01-03,110\n"), {simple}));
+  // In a long file the line is found again after the whole file was read.
+  expect_error("date,asset,return\n2024-01-03,A,10\n2024-01-02,B,1\n\n2024-01-02,A,10\n2024-01-03,B,12\n", 6,
+               "return", "price 12 of 'B' on 2024-01-03 after 1 on 2024-01-02 (line 3)", simple);
+}
+
+// --- the percent rule: a file whose median |return| is above 0.25 -------------------
+
+// A wide file of `rows` dates x 5 assets where `large` of the cells (in file order) are
+// 0.3 and the others 0.01.
+std::string percent_like(int rows, int large) {
+  std::string text = "date,ZQ-0001,ZQ-0002,ZQ-0003,ZQ-0004,ZQ-0005\n";
+  int cell = 0;
+  for (int t = 0; t < rows; ++t) {
+    char date[16];
+    std::snprintf(date, sizeof date, "2023-%02d-%02d", 1 + t / 28, 1 + t % 28);
+    text += date;
+    for (int j = 0; j < 5; ++j) text += (cell++ < large) ? ",-0.3" : ",0.01";
+    text += "\n";
+  }
+  return text;
+}
+
+TEST_F(ReturnsCsv, PercentRule) {
+  // 20 dates x 5 = 100 values; 51 large ones make the lower median 0.3.
+  expect_error(percent_like(20, 51), 2, "ZQ-0001", "the file looks like percent");
+  expect_error(percent_like(20, 51), 2, "ZQ-0001", "median absolute return of its 100 values is 0.3");
+  // Exactly half large: the lower median is 0.01, the file is kept.
+  EXPECT_NO_THROW(read_returns_csv(write("half.csv", percent_like(20, 50))));
+  // Fewer than 100 values: too few to judge, kept even if all are large.
+  EXPECT_NO_THROW(read_returns_csv(write("few.csv", percent_like(19, 95))));
+  // The first large value in file order, in a long file whose rows are not in date order.
+  std::string lng = "date,asset,return\n2023-02-01,ZQ-0009,0.01\n2023-02-01,ZQ-0008,2.5\n";
+  for (int t = 0; t < 100; ++t) {
+    char row[64];
+    std::snprintf(row, sizeof row, "2023-01-%02d,ZQ-%04d,3\n", 1 + t % 28, 1 + t / 28);
+    lng += row;
+  }
+  expect_error(lng, 3, "return", "looks like percent");
 }
 
 // --- errors: every one names file, line and column --------------------------------------
@@ -211,8 +419,24 @@ TEST_F(ReturnsCsv, ErrorNotANumber) {
 }
 
 TEST_F(ReturnsCsv, ErrorNotFinite) {
-  expect_error("date,A,B\n2024-01-02,inf,0.2\n", 2, "A", "not a finite number");
+  // NaN is no longer a gap: it is what a failed computation leaves behind.
+  for (const char* cell : {"nan", "NaN", "NAN", "-nan", "inf", "-inf", "+Inf", "Infinity", "-INFINITY"})
+    expect_error(std::string("date,A,B\n2024-01-02,0.1,0.2\n2024-01-03,") + cell + ",0.2\n", 3, "A",
+                 "' is not a finite number (a missing value is an empty cell or NA)");
   expect_error("date,A,B\n2024-01-02,0.1,-1e999\n", 2, "B", "not a finite number");
+  expect_error("date,asset,return\n2024-01-02,A,NaN\n", 2, "return", "'NaN' is not a finite number");
+  expect_error("date,A\n2024-01-02,NaN\n", 2, "A", "a missing value is an empty cell",
+               ValuesInFile::prices_to_simple_returns);
+}
+
+TEST_F(ReturnsCsv, ErrorImplausibleReturns) {
+  expect_error("date,A,B\n2024-01-02,0.1,-1\n", 2, "B",
+               "return '-1' is at or below -1 (-100 %): a price cannot fall to zero or below");
+  expect_error("date,asset,return\n2024-01-02,A,0.1\n2024-01-02,B,-1.5\n", 3, "return", "at or below -1");
+  expect_error("date,A,B\n2024-01-02,0.1,0.2\n2024-01-03,10.5,0.2\n", 3, "A",
+               "return '10.5' is above 10 (1000 % in one period): if the file is in percent, convert "
+               "percent to fractions (5 % is 0.05)");
+  expect_error("date,asset,return\n2024-01-02,A,12\n", 2, "return", "above 10");
 }
 
 TEST_F(ReturnsCsv, ErrorBadDates) {
@@ -222,13 +446,21 @@ TEST_F(ReturnsCsv, ErrorBadDates) {
   expect_error("date,A\n2024/01/02,1\n", 2, "date", "yyyy-mm-dd");
   expect_error("Date,asset,return\n2024-1-2,A,1\n", 2, "Date", "yyyy-mm-dd");
   // 2024 is a leap year, 1900 is not, 2000 is.
-  EXPECT_NO_THROW(read_returns_csv(write("leap.csv", "date,A\n2024-02-29,1\n2000-02-29,1\n")));
+  EXPECT_NO_THROW(read_returns_csv(write("leap.csv", "date,A\n2000-02-29,1\n2024-02-29,1\n")));
   expect_error("date,A\n1900-02-29,1\n", 2, "date", "not a calendar date");
 }
 
 TEST_F(ReturnsCsv, ErrorDuplicateDateWide) {
   expect_error("date,A\n2024-01-02,1\n2024-01-03,1\n2024-01-02,2\n", 4, "date",
                "date 2024-01-02 appears twice (lines 2 and 4)");
+}
+
+TEST_F(ReturnsCsv, ErrorWideDatesMustAscend) {
+  expect_error("date,A\n2024-01-02,0.1\n2024-01-05,0.1\n\n2024-01-03,0.1\n", 5, "date",
+               "dates must ascend: 2024-01-03 on line 5 is earlier than 2024-01-05 on line 3");
+  // A repeat right after itself is still reported as a repeat.
+  expect_error("date,A\n2024-01-02,0.1\n2024-01-02,0.1\n", 3, "date",
+               "date 2024-01-02 appears twice (lines 2 and 3)");
 }
 
 TEST_F(ReturnsCsv, ErrorDuplicateDateAndAssetLong) {
@@ -254,13 +486,44 @@ TEST_F(ReturnsCsv, ErrorWrongNumberOfFields) {
 TEST_F(ReturnsCsv, ErrorLayoutHeaders) {
   expect_error("date,asset,return,currency\n2024-01-02,A,1,EUR\n", 1, "currency", "unexpected column");
   expect_error("day,asset,return\n2024-01-02,A,1\n", 1, "date", "column missing");
-  expect_error("day,A,B\n2024-01-02,1,2\n", 1, "day", "the first column must be 'date'");
+  expect_error("day,A,B\n2024-01-02,1,2\n", 1, "day", "unknown layout: the first column must be 'date'");
+  expect_error("day,A,B\n2024-01-02,1,2\n", 1, "day", "long, header date,asset,return, or wide");
+  // One of 'asset' and 'return' without the other: a long file with a column misnamed.
+  expect_error("date,asset,value\n2024-01-02,A,1\n", 1, "return", "column missing");
+  expect_error("date,ticker,return\n2024-01-02,A,1\n", 1, "asset", "column missing");
   expect_error("date\n2024-01-02\n", 1, "date", "no asset columns");
+}
+
+TEST_F(ReturnsCsv, ErrorCommentAmongTheData) {
+  // '#' lines are comments before the header only; among the data they are an error of
+  // their own rather than a row with the wrong number of fields.
+  expect_error("# fine here\ndate,A,B\n2024-01-02,0.1,0.2\n  # revised below\n2024-01-03,0.1,0.2\n", 4, "",
+               "a comment line among the data: lines starting with '#' are allowed only before the header");
+  // A quoted first field starting with '#' is data.
+  const ReturnsPanel p =
+      read_returns_csv(write("hash.csv", "asset,date,return\n\"#1 Fund\",2024-01-02,0.1\n"));
+  EXPECT_EQ(p.assets, (std::vector<std::string>{"#1 Fund"}));
 }
 
 TEST_F(ReturnsCsv, ErrorQuotes) {
   expect_error("date,A,B\n2024-01-02,\"0.1,0.2\n", 2, "A", "quote opened here is never closed");
   expect_error("date,A,B\n2024-01-02,\"0.1\"x,0.2\n", 2, "A", "unexpected text after the closing quote");
+}
+
+TEST_F(ReturnsCsv, ErrorInvalidUtf8Names) {
+  // "Caf\xE9" is Latin-1; a lone continuation byte, an overlong '/', a surrogate.
+  expect_error("date,ZQ-0001,Caf\xE9\n2024-01-02,1,2\n", 1, "column 3",
+               "the column name is not valid UTF-8 (byte 0xE9 at position 4)");
+  expect_error("date,asset,return\n2024-01-02,ZQ-0001,0.1\n2024-01-02,Z\x80Q,0.1\n", 3, "asset",
+               "the asset name is not valid UTF-8 (byte 0x80 at position 2)");
+  expect_error("date,\xC0\xAF\n2024-01-02,1\n", 1, "column 2", "not valid UTF-8 (byte 0xC0");
+  expect_error("date,\xED\xA0\x80\n2024-01-02,1\n", 1, "column 2", "not valid UTF-8 (byte 0xED");
+  // Well-formed names in other scripts are fine, up to four bytes a character.
+  const ReturnsPanel p = read_returns_csv(
+      write("utf8.csv", "date,ZQ-Grün Fonds,ZQ-東,\xF0\x9F\x93\x88\n2024-01-02,0.1,0.2,0.3\n"));
+  EXPECT_EQ(p.assets[1], "ZQ-東");
+  // A bad cell's bytes are escaped in the message, which stays valid UTF-8.
+  expect_error("date,A\n2024-01-02,0.\xFF\n", 2, "A", "'0.\\xFF' is not a number");
 }
 
 TEST_F(ReturnsCsv, ErrorsWithoutALine) {
@@ -272,12 +535,14 @@ TEST_F(ReturnsCsv, ErrorsWithoutALine) {
     EXPECT_EQ(std::string(e.what()).rfind(missing + ": cannot open", 0), 0u) << e.what();
     EXPECT_EQ(e.line(), 0u);
   }
-  for (const char* content : {"", "# only a comment\n\n"}) {
+  for (const std::string content : {"", "\xEF\xBB\xBF", "\n \n\t\r\n", "# only a comment\n\n"}) {
     try {
       read_returns_csv(write("empty.csv", content));
       ADD_FAILURE();
     } catch (const InputError& e) {
+      EXPECT_NE(std::string(e.what()).find("the file is empty"), std::string::npos) << e.what();
       EXPECT_NE(std::string(e.what()).find("no header row"), std::string::npos) << e.what();
+      EXPECT_EQ(e.line(), 0u);
     }
   }
   try {

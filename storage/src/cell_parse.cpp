@@ -1,9 +1,11 @@
 #include "cell_parse.h"
 
+#include <charconv>
 #include <cmath>
 #include <system_error>
 
 #include "fast_float/fast_float.h"
+#include "utf8_check.h"
 
 namespace factorwatch::storage::detail {
 
@@ -19,7 +21,8 @@ bool same_name(std::string_view a, std::string_view b) {
 }
 
 Cell parse_cell(std::string_view text, double& value) {
-  if (text.empty() || same_name(text, "na") || same_name(text, "nan")) return Cell::gap;
+  // NaN is not a gap: fast_float reads it as a number, so it lands in not_finite below.
+  if (text.empty() || same_name(text, "na")) return Cell::gap;
   // fast_float rejects a leading '+' (as std::from_chars does); spreadsheets write one.
   if (text.size() > 1 && text.front() == '+' && text[1] != '-' && text[1] != '+')
     text.remove_prefix(1);
@@ -34,8 +37,7 @@ Cell parse_cell(std::string_view text, double& value) {
 }
 
 std::string describe_bad_cell(Cell kind, std::string_view text) {
-  if (kind == Cell::not_finite)
-    return quoted(text) + " is not a finite number (write an empty cell, NA or NaN for a gap)";
+  if (kind == Cell::not_finite) return quoted(text) + " is not a finite number";
   return quoted(text) + " is not a number";
 }
 
@@ -58,10 +60,32 @@ std::optional<std::int32_t> parse_iso_date(std::string_view text) {
   return year * 10000 + month * 100 + day;
 }
 
+std::string shortest(double value) {
+  char buffer[32];
+  const auto result = std::to_chars(buffer, buffer + sizeof buffer, value);
+  return std::string(buffer, result.ptr);
+}
+
 std::string quoted(std::string_view text) {
   constexpr std::size_t kShown = 40;
+  // Messages must stay valid UTF-8 (they end up in JSON): bytes of a malformed cell are
+  // shown as \xNN, and a long cell is cut at a character boundary, never inside one.
+  if (first_invalid_utf8(text)) {
+    std::string shown;
+    for (unsigned char c : text.substr(0, kShown)) {
+      if (c < 0x80) {
+        shown += static_cast<char>(c);
+      } else {
+        static constexpr char kHex[] = "0123456789ABCDEF";
+        shown += {'\\', 'x', kHex[c >> 4], kHex[c & 15]};
+      }
+    }
+    return "'" + shown + (text.size() > kShown ? "...'" : "'");
+  }
   if (text.size() <= kShown) return "'" + std::string(text) + "'";
-  return "'" + std::string(text.substr(0, kShown)) + "...'";
+  std::size_t cut = kShown;
+  while (cut > 0 && (static_cast<unsigned char>(text[cut]) & 0xC0) == 0x80) --cut;
+  return "'" + std::string(text.substr(0, cut)) + "...'";
 }
 
 }  // namespace factorwatch::storage::detail

@@ -74,6 +74,8 @@ bool CsvScanner::next(std::vector<std::string_view>& fields) {
   while (pos_ < size) {
     record_line_ = next_line_;
     fields.clear();
+    while (pos_ < size && (text_[pos_] == ' ' || text_[pos_] == '\t')) ++pos_;
+    const std::size_t record_start = pos_;
     bool any_quoted = false;
     for (;;) {  // one field per pass
       while (pos_ < size && (text_[pos_] == ' ' || text_[pos_] == '\t')) ++pos_;
@@ -100,6 +102,13 @@ bool CsvScanner::next(std::vector<std::string_view>& fields) {
       break;
     }
     if (fields.size() == 1 && fields[0].empty() && !any_quoted) continue;  // blank line
+    // A record whose first field is unquoted and starts with '#'. The first byte of the
+    // record tells: a quoted first field starts with '"'.
+    if (records_ > 0 && record_start < size && text_[record_start] == '#')
+      throw InputError(path_, record_line_, "",
+                       "a comment line among the data: lines starting with '#' are allowed only "
+                       "before the header");
+    ++records_;
     return true;
   }
   return false;

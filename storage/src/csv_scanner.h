@@ -25,7 +25,9 @@ class CsvScanner {
   void skip_comments();
 
   // Reads the next non-blank record into `fields` (cleared first); false at the end.
-  // Throws InputError for an unterminated quote or text after a closing quote.
+  // Throws InputError for an unterminated quote, text after a closing quote, and for a
+  // comment line after the first record (the header): there it is most likely a note
+  // pasted among the data, and reading it as a row would give a puzzling message.
   bool next(std::vector<std::string_view>& fields);
 
   // First line (1-based) of the record last returned by next().
@@ -47,6 +49,7 @@ class CsvScanner {
   std::size_t pos_ = 0;
   std::size_t next_line_ = 1;
   std::size_t record_line_ = 0;
+  std::size_t records_ = 0;  // returned by next() so far
   const std::vector<std::string>* names_ = nullptr;
   std::deque<std::string> unescaped_;  // deque: growing it never moves earlier strings
 };

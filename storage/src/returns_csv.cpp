@@ -6,11 +6,15 @@
 #include "factorwatch/storage/input_error.h"
 #include "file_text.h"
 #include "returns_layouts.h"
+#include "returns_values.h"
+#include "utf8_check.h"
 
 namespace factorwatch::storage {
 namespace {
 
 constexpr std::size_t kMissing = static_cast<std::size_t>(-1);
+constexpr const char* kLayouts =
+    "a returns file is either long, header date,asset,return, or wide, header date,<asset>,<asset>,...";
 
 std::size_t find_column(const std::vector<std::string>& names, std::string_view wanted) {
   for (std::size_t i = 0; i < names.size(); ++i)
@@ -18,48 +22,72 @@ std::size_t find_column(const std::vector<std::string>& names, std::string_view 
   return kMissing;
 }
 
-}  // namespace
+// Column names end up in messages, reports and the database: refuse malformed UTF-8 here,
+// naming the column by position since its name cannot be shown.
+void check_names_are_utf8(const detail::ReturnsHeader& header) {
+  for (std::size_t i = 0; i < header.names.size(); ++i)
+    if (auto bad = detail::first_invalid_utf8(header.names[i]))
+      throw InputError(header.path, header.line, "column " + std::to_string(i + 1),
+                       detail::invalid_utf8_problem("the column name", header.names[i], *bad));
+}
 
-engine::ReturnsPanel read_returns_csv(const std::string& path) {
-  detail::FileText file(path);
-  detail::CsvScanner scanner(file.text(), path);
-  scanner.skip_comments();
-  std::vector<std::string_view> fields;
-  if (!scanner.next(fields))
-    throw InputError(path, 0, "", "the file has no header row (expected date,asset,return or date,<asset>,...)");
-
-  detail::ReturnsHeader header{path, file.text(), {}, scanner.line()};
-  header.names.assign(fields.begin(), fields.end());
-  scanner.set_column_names(&header.names);
-
-  // Long when the header names both 'asset' and 'return'; anything else must be wide.
+ReturnsFile read_layout(detail::CsvScanner& scanner, const detail::ReturnsHeader& header,
+                        detail::ValueRules& rules) {
+  const std::string& path = header.path;
   const std::size_t asset_col = find_column(header.names, "asset");
   const std::size_t return_col = find_column(header.names, "return");
   const std::size_t date_col = find_column(header.names, "date");
-  if (asset_col != kMissing && return_col != kMissing) {
-    if (date_col == kMissing)
-      throw InputError(path, header.line, "date",
+  // 'asset' or 'return' in the header means long: a wide file with assets named so is
+  // far less likely than a long file with a column misnamed.
+  if (asset_col != kMissing || return_col != kMissing) {
+    const char* missing = date_col == kMissing ? "date" : asset_col == kMissing ? "asset"
+                                                 : return_col == kMissing ? "return" : nullptr;
+    if (missing != nullptr)
+      throw InputError(path, header.line, missing,
                        "column missing: a long returns file has the columns date, asset, return");
     for (std::size_t i = 0; i < header.names.size(); ++i)
       if (i != date_col && i != asset_col && i != return_col)
         throw InputError(path, header.line, header.names[i],
                          "unexpected column: a long returns file has exactly the columns date, "
                          "asset, return (remove the others)");
-    return detail::read_long_returns(scanner, header, date_col, asset_col, return_col);
+    ReturnsFile file = detail::read_long_returns(scanner, header, rules, date_col, asset_col, return_col);
+    file.layout = "long";
+    return file;
   }
   if (date_col != 0)
     throw InputError(path, header.line, header.names[0],
-                     "the first column must be 'date' (wide layout: date,<asset>,<asset>,...; "
-                     "long layout: date,asset,return)");
-  return detail::read_wide_returns(scanner, header);
+                     std::string("unknown layout: the first column must be 'date'; ") + kLayouts);
+  ReturnsFile file = detail::read_wide_returns(scanner, header, rules);
+  file.layout = "wide";
+  return file;
 }
 
-// Temporary: replaced by the validating reader of branch ingest-validation.
-ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions&) {
-  ReturnsFile f;
-  f.panel = read_returns_csv(path);
-  f.layout = "unknown";
-  return f;
+}  // namespace
+
+ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions& options) {
+  detail::FileText file(path);
+  detail::CsvScanner scanner(file.text(), path);
+  scanner.skip_comments();
+  std::vector<std::string_view> fields;
+  if (!scanner.next(fields)) {
+    if (file.text().empty())
+      throw InputError(path, 0, "", std::string("the file is empty: no header row and no data; ") + kLayouts);
+    throw InputError(path, 0, "", std::string("the file is empty: only comments and blank lines, no header "
+                                              "row; ") + kLayouts);
+  }
+
+  detail::ReturnsHeader header{path, file.text(), {}, scanner.line()};
+  header.names.assign(fields.begin(), fields.end());
+  scanner.set_column_names(&header.names);
+  check_names_are_utf8(header);
+
+  detail::ValueRules rules(path, options.values);
+  ReturnsFile result = read_layout(scanner, header, rules);
+  const auto& values = result.panel.values;
+  result.values_present = static_cast<std::size_t>(values.size() - values.array().isNaN().count());
+  return result;
 }
+
+engine::ReturnsPanel read_returns_csv(const std::string& path) { return read_returns_file(path, {}).panel; }
 
 }  // namespace factorwatch::storage

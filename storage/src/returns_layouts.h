@@ -9,6 +9,8 @@
 
 #include "csv_scanner.h"
 #include "factorwatch/engine/panel.h"
+#include "factorwatch/storage/returns_csv.h"
+#include "returns_values.h"
 
 namespace factorwatch::storage::detail {
 
@@ -20,12 +22,13 @@ struct ReturnsHeader {
   std::size_t line = 0;
 };
 
-engine::ReturnsPanel read_wide_returns(CsvScanner& scanner, const ReturnsHeader& header);
+// Each reader returns the panel after values.finish() (returns, dates ascending) and the
+// number of data rows; the caller fills in the rest of ReturnsFile.
+ReturnsFile read_wide_returns(CsvScanner& scanner, const ReturnsHeader& header, ValueRules& values);
 
 // date_col, asset_col, return_col: positions of the three columns in the header.
-engine::ReturnsPanel read_long_returns(CsvScanner& scanner, const ReturnsHeader& header,
-                                       std::size_t date_col, std::size_t asset_col,
-                                       std::size_t return_col);
+ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, ValueRules& values,
+                              std::size_t date_col, std::size_t asset_col, std::size_t return_col);
 
 // One date of the file: its sort key (yyyymmdd), its text and the line it was read on.
 struct DateRow {
@@ -34,10 +37,9 @@ struct DateRow {
   std::size_t line;
 };
 
-// Order in which to take the dates so they ascend (stable). Throws InputError naming
-// both lines when a date occurs twice.
-std::vector<std::size_t> ascending_dates(const std::vector<DateRow>& dates, const std::string& path,
-                                         const std::string& date_column);
+// Order in which to take `dates` (distinct keys) so that they ascend. A long file's dates
+// come in any order; a wide file's must already ascend (checked row by row).
+std::vector<std::size_t> ascending_order(const std::vector<DateRow>& dates);
 
 // Reads the date cell of a record; throws InputError naming the column when invalid.
 std::int32_t read_date(std::string_view cell, const std::string& path, std::size_t line,

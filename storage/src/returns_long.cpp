@@ -6,6 +6,7 @@
 #include "cell_parse.h"
 #include "factorwatch/storage/input_error.h"
 #include "returns_layouts.h"
+#include "utf8_check.h"
 
 namespace factorwatch::storage::detail {
 namespace {
@@ -43,11 +44,37 @@ std::size_t line_of_row(const ReturnsHeader& header, std::size_t k) {
                        std::to_string(second_line) + ")");
 }
 
+// A cell's line is found by looking for its entry and reading the text again up to it.
+class LongLines : public CellLines {
+ public:
+  LongLines(const ReturnsHeader& header, std::size_t value_col, const std::vector<Entry>& entries,
+            const std::vector<DateRow>& dates, const std::vector<std::size_t>& order)
+      : header_(header), value_col_(value_col), entries_(entries), dates_(dates), order_(order) {}
+
+  std::size_t date_line(std::size_t row) const override { return dates_[order_[row]].line; }
+
+  std::size_t cell_line(std::size_t row, std::size_t column) const override {
+    const auto date = static_cast<std::int32_t>(order_[row]);
+    const auto asset = static_cast<std::int32_t>(column);
+    std::size_t k = 0;
+    while (entries_[k].date != date || entries_[k].asset != asset) ++k;
+    return line_of_row(header_, k);
+  }
+
+  const std::string& file_column(std::size_t) const override { return header_.names[value_col_]; }
+
+ private:
+  const ReturnsHeader& header_;
+  std::size_t value_col_;
+  const std::vector<Entry>& entries_;
+  const std::vector<DateRow>& dates_;
+  const std::vector<std::size_t>& order_;
+};
+
 }  // namespace
 
-engine::ReturnsPanel read_long_returns(CsvScanner& scanner, const ReturnsHeader& header,
-                                       std::size_t date_col, std::size_t asset_col,
-                                       std::size_t return_col) {
+ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, ValueRules& rules,
+                              std::size_t date_col, std::size_t asset_col, std::size_t return_col) {
   // Views into the file's text: no string per row, only one per distinct asset at the end.
   std::unordered_map<std::string_view, std::int32_t> asset_index;
   std::unordered_map<std::int32_t, std::int32_t> date_index;
@@ -88,30 +115,27 @@ engine::ReturnsPanel read_long_returns(CsvScanner& scanner, const ReturnsHeader&
     } else if (assets.empty() || assets[static_cast<std::size_t>(asset)] != asset_text) {
       auto found = asset_index.find(asset_text);
       if (found == asset_index.end()) {
+        if (auto bad = first_invalid_utf8(asset_text))
+          throw InputError(header.path, line, header.names[asset_col],
+                           invalid_utf8_problem("the asset name", asset_text, *bad));
         assets.emplace_back(asset_text);
         found = asset_index.emplace(asset_text, static_cast<std::int32_t>(assets.size() - 1)).first;
       }
       asset = found->second;
     }
 
-    double value = 0;
-    const Cell kind = parse_cell(fields[return_col], value);
-    if (kind == Cell::gap) {
-      value = std::numeric_limits<double>::quiet_NaN();
-    } else if (kind != Cell::number) {
-      throw InputError(header.path, line, header.names[return_col],
-                       describe_bad_cell(kind, fields[return_col]));
-    }
-    entries.push_back({date, asset, value});
+    entries.push_back({date, asset, rules.read(fields[return_col], line, header.names[return_col])});
   }
   if (entries.empty()) throw InputError(header.path, header.line, "", "no data rows after the header");
 
-  const std::vector<std::size_t> order = ascending_dates(dates, header.path, header.names[date_col]);
+  const std::vector<std::size_t> order = ascending_order(dates);
   std::vector<std::size_t> row_of(dates.size());
   for (std::size_t i = 0; i < order.size(); ++i) row_of[order[i]] = i;
 
   const std::size_t width = assets.size();
-  engine::ReturnsPanel panel;
+  ReturnsFile file;
+  file.data_rows = entries.size();
+  engine::ReturnsPanel& panel = file.panel;
   panel.values.setConstant(static_cast<Eigen::Index>(dates.size()), static_cast<Eigen::Index>(width),
                            std::numeric_limits<double>::quiet_NaN());
   std::vector<std::uint8_t> filled(dates.size() * width, 0);  // an explicit gap is filled too
@@ -122,10 +146,12 @@ engine::ReturnsPanel read_long_returns(CsvScanner& scanner, const ReturnsHeader&
     filled[cell] = 1;
     panel.values.data()[cell] = entries[k].value;
   }
+  std::vector<std::uint8_t>().swap(filled);  // a price file makes a second panel next
   panel.assets = std::move(assets);
   panel.dates.reserve(dates.size());
   for (std::size_t i : order) panel.dates.emplace_back(dates[i].text);
-  return panel;
+  rules.finish(panel, LongLines(header, return_col, entries, dates, order), header.names[date_col]);
+  return file;
 }
 
 }  // namespace factorwatch::storage::detail

@@ -1,6 +1,5 @@
-// Wide layout: date, then one column per asset.
+// Wide layout: date, then one column per asset; dates strictly ascending.
 #include <algorithm>
-#include <limits>
 #include <unordered_map>
 
 #include "cell_parse.h"
@@ -36,15 +35,47 @@ void check_asset_names(const ReturnsHeader& header) {
   throw InputError(header.path, line, header.names.back(), "extra fields after this column: " + counts);
 }
 
+// A date not after the row above. Why strict order for wide files: the rows are a time
+// series as a person or a spreadsheet wrote it, and one out of place is far more often a
+// paste error than a meaning. The rows so far ascend, so a repeat is found by bisection.
+[[noreturn]] void out_of_order(const ReturnsHeader& header, const std::vector<DateRow>& dates,
+                               const DateRow& row) {
+  const auto same = std::lower_bound(dates.begin(), dates.end(), row.key,
+                                     [](const DateRow& d, std::int32_t key) { return d.key < key; });
+  if (same != dates.end() && same->key == row.key)
+    throw InputError(header.path, row.line, header.names[0],
+                     "date " + std::string(row.text) + " appears twice (lines " +
+                         std::to_string(same->line) + " and " + std::to_string(row.line) + ")");
+  const DateRow& above = dates.back();
+  throw InputError(header.path, row.line, header.names[0],
+                   "dates must ascend: " + std::string(row.text) + " on line " + std::to_string(row.line) +
+                       " is earlier than " + std::string(above.text) + " on line " +
+                       std::to_string(above.line) + " (sort the rows by date)");
+}
+
+// Every row of a wide file is one date, so a cell's line is its row's.
+class WideLines : public CellLines {
+ public:
+  WideLines(const ReturnsHeader& header, const std::vector<DateRow>& dates)
+      : header_(header), dates_(dates) {}
+  std::size_t date_line(std::size_t row) const override { return dates_[row].line; }
+  std::size_t cell_line(std::size_t row, std::size_t) const override { return dates_[row].line; }
+  const std::string& file_column(std::size_t column) const override { return header_.names[column + 1]; }
+
+ private:
+  const ReturnsHeader& header_;
+  const std::vector<DateRow>& dates_;
+};
+
 }  // namespace
 
-engine::ReturnsPanel read_wide_returns(CsvScanner& scanner, const ReturnsHeader& header) {
+ReturnsFile read_wide_returns(CsvScanner& scanner, const ReturnsHeader& header, ValueRules& rules) {
   check_asset_names(header);
   const std::size_t width = header.names.size();
   const std::size_t assets = width - 1;
 
   std::vector<DateRow> dates;
-  std::vector<double> values;  // row-major, file order
+  std::vector<double> values;  // row-major, file order (which is date order)
   const std::size_t expected_rows = scanner.remaining_lines();
   dates.reserve(expected_rows);
   values.reserve(expected_rows * assets);
@@ -54,30 +85,24 @@ engine::ReturnsPanel read_wide_returns(CsvScanner& scanner, const ReturnsHeader&
   while (scanner.next(fields)) {
     const std::size_t line = scanner.line();
     if (fields.size() != width) wrong_width(header, line, fields.size());
-    dates.push_back({read_date(fields[0], header.path, line, header.names[0]), fields[0], line});
-    for (std::size_t j = 1; j < width; ++j) {
-      double value = 0;
-      Cell kind = parse_cell(fields[j], value);
-      if (kind == Cell::gap) {
-        value = std::numeric_limits<double>::quiet_NaN();
-      } else if (kind != Cell::number) {
-        throw InputError(header.path, line, header.names[j], describe_bad_cell(kind, fields[j]));
-      }
-      values.push_back(value);
-    }
+    const DateRow row{read_date(fields[0], header.path, line, header.names[0]), fields[0], line};
+    if (!dates.empty() && row.key <= dates.back().key) out_of_order(header, dates, row);
+    dates.push_back(row);
+    for (std::size_t j = 1; j < width; ++j) values.push_back(rules.read(fields[j], line, header.names[j]));
   }
   if (dates.empty()) throw InputError(header.path, header.line, "", "no data rows after the header");
 
-  const std::vector<std::size_t> order = ascending_dates(dates, header.path, header.names[0]);
-  engine::ReturnsPanel panel;
+  ReturnsFile file;
+  file.data_rows = dates.size();
+  engine::ReturnsPanel& panel = file.panel;
   panel.assets.assign(header.names.begin() + 1, header.names.end());
   panel.dates.reserve(dates.size());
+  for (const DateRow& d : dates) panel.dates.emplace_back(d.text);
   panel.values.resize(static_cast<Eigen::Index>(dates.size()), static_cast<Eigen::Index>(assets));
-  for (std::size_t i = 0; i < order.size(); ++i) {
-    panel.dates.emplace_back(dates[order[i]].text);
-    std::copy_n(values.data() + order[i] * assets, assets, panel.values.data() + i * assets);
-  }
-  return panel;
+  std::copy(values.begin(), values.end(), panel.values.data());
+  std::vector<double>().swap(values);  // a price file makes a second panel next
+  rules.finish(panel, WideLines(header, dates), header.names[0]);
+  return file;
 }
 
 }  // namespace factorwatch::storage::detail
