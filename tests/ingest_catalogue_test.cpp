@@ -12,6 +12,7 @@
 
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/returns_csv.h"
+#include "storage_fixtures.h"
 
 namespace fs = std::filesystem;
 using factorwatch::storage::InputError;
@@ -116,6 +117,37 @@ TEST(IngestCatalogue, EveryFileIsRejectedAsListed) {
       if (!e.field.empty()) prefix += "field '" + e.field + "': ";
       EXPECT_EQ(what.rfind(prefix, 0), 0u) << what << "\nwanted prefix " << prefix;
     }
+  }
+}
+
+// The all-or-nothing rule through the real command: every catalogue file, loaded into a
+// database that already holds returns and a fitted model, exits with status 2 and the
+// same message, and leaves the database file and its write-ahead log byte for byte as
+// they were.
+TEST(IngestCatalogue, EveryFileLeavesTheDatabaseUnchanged) {
+  factorwatch::testing::TempDir dir;
+  std::string good = "date,asset,return\n";
+  const auto dates = factorwatch::testing::business_dates(60);
+  for (std::size_t t = 0; t < dates.size(); ++t)
+    for (int i = 0; i < 4; ++i)
+      good += dates[t] + ",ZQ-000" + std::to_string(i + 1) + "," + std::to_string(0.001 * ((t * 7 + i * 3) % 11) - 0.005) + "\n";
+  factorwatch::testing::write_text(dir.file("good.csv"), good);
+  using factorwatch::testing::run_factorwatch;
+  ASSERT_EQ(run_factorwatch(dir.path(), "load " + dir.file("good.csv")).status, 0);
+  ASSERT_EQ(run_factorwatch(dir.path(), "model set m --method pca --factors 1 --window 50 --step 5").status, 0);
+  ASSERT_EQ(run_factorwatch(dir.path(), "refresh m").status, 0);
+  const std::string db = factorwatch::testing::read_bytes(dir.database());
+  const std::string wal = factorwatch::testing::read_bytes(dir.database() + "-wal");
+  ASSERT_FALSE(db.empty());
+  for (const Entry& e : read_manifest()) {
+    SCOPED_TRACE(kManifest + ":" + std::to_string(e.manifest_line) + " " + e.file);
+    const std::string options = e.values == "prices" ? " --prices" : e.values == "log-prices" ? " --prices --log-returns" : "";
+    const auto r = run_factorwatch(dir.path(), "load '" + kFolder + "/" + e.file + "'" + options);
+    EXPECT_EQ(r.status, 2) << r.out;
+    EXPECT_NE(r.err.find(e.message), std::string::npos) << r.err;
+    EXPECT_NE(r.err.find("the database is unchanged"), std::string::npos) << r.err;
+    EXPECT_TRUE(factorwatch::testing::read_bytes(dir.database()) == db);
+    EXPECT_TRUE(factorwatch::testing::read_bytes(dir.database() + "-wal") == wal);
   }
 }
 
