@@ -151,4 +151,38 @@ TEST_F(NightlyRoutine, MistakesGetPlainMessagesAndExitCodes) {
   EXPECT_NE(r.err.find("missing.csv"), std::string::npos) << r.err;
 }
 
+// A universe list file (header, comment, blank line allowed) restricts a model; a
+// duplicate name is refused with its line.
+TEST_F(NightlyRoutine, UniverseFileAndItsErrors) {
+  ASSERT_EQ(run_factorwatch(dir.path(), "load " + dir.file("history.csv")).status, 0);
+  factorwatch::testing::write_text(dir.file("universe.txt"), "asset\n# large caps\nP1002\n\nP1005\nP1007\nP1011\n");
+  auto r = run_factorwatch(dir.path(), "model set part --factors 1 --window 100 --step 29 --universe " + dir.file("universe.txt"));
+  ASSERT_EQ(r.status, 0) << r.err;
+  ASSERT_EQ(run_factorwatch(dir.path(), "refresh part").status, 0);
+  r = run_factorwatch(dir.path(), "exposures part --format json");
+  const auto j = nlohmann::json::parse(r.out);
+  ASSERT_EQ(j["assets"].size(), 4u);
+  EXPECT_EQ(j["assets"][0]["asset"], "P1002");
+  factorwatch::testing::write_text(dir.file("twice.txt"), "P1002\nP1005\nP1002\n");
+  r = run_factorwatch(dir.path(), "model set part --universe " + dir.file("twice.txt"));
+  EXPECT_EQ(r.status, 2);
+  EXPECT_NE(r.err.find("twice.txt:3: field 'asset': asset 'P1002' is listed twice"), std::string::npos) << r.err;
+  // Back to every asset: a new version, the old windows kept.
+  r = run_factorwatch(dir.path(), "model set part --universe all");
+  EXPECT_NE(r.out.find("new version 2"), std::string::npos) << r.out;
+}
+
+// Prices in, simple (or log) returns stored: p_t / p_(t-1) - 1 between consecutive dates.
+TEST_F(NightlyRoutine, PricesAreStoredAsReturns) {
+  factorwatch::testing::write_text(dir.file("prices.csv"), "date,ZQ-0001,ZQ-0002\n2024-01-02,100,50\n"
+                                                           "2024-01-03,101,49\n2024-01-04,99.99,49.49\n");
+  auto r = run_factorwatch(dir.path(), "load --prices " + dir.file("prices.csv"));
+  ASSERT_EQ(r.status, 0) << r.err;
+  EXPECT_NE(r.out.find("prices (simple returns)"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("2024-01-03 .. 2024-01-04 (2)"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("4 new"), std::string::npos) << r.out;
+  r = run_factorwatch(dir.path(), "load --log-returns " + dir.file("prices.csv"));
+  EXPECT_EQ(r.status, 2);  // --log-returns needs --prices
+}
+
 }  // namespace
