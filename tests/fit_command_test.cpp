@@ -11,25 +11,16 @@
 
 #include "factorwatch/engine/caution.h"
 #include "reference_table.h"
+#include "storage_fixtures.h"
 
 namespace {
 
-struct CommandResult {
-  int status = -1;
-  std::string out;  // standard output only
-};
+using factorwatch::testing::CommandResult;
 
+// `fit` needs no database; the temporary directory only catches stderr.
 CommandResult run(const std::string& arguments) {
-  CommandResult r;
-  const std::string command = std::string(FACTORWATCH_COMMAND) + " " + arguments + " 2>/dev/null";
-  FILE* pipe = ::popen(command.c_str(), "r");
-  if (!pipe) return r;
-  std::array<char, 4096> buffer{};
-  std::size_t n = 0;
-  while ((n = std::fread(buffer.data(), 1, buffer.size(), pipe)) > 0) r.out.append(buffer.data(), n);
-  const int status = ::pclose(pipe);
-  r.status = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  return r;
+  const factorwatch::testing::TempDir dir;
+  return factorwatch::testing::run_factorwatch(dir.path(), arguments);
 }
 
 const std::string kHarman = std::string(FACTORWATCH_REFERENCE_DIR) + "/harman74_cor.csv";

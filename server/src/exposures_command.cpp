@@ -103,9 +103,7 @@ void print_json(const SelectedWindow& s) {
     rows.push_back(row);
   }
   j["assets"] = rows;
-  nlohmann::ordered_json missing = nlohmann::ordered_json::array();
-  for (const auto& m : s.missing) missing.push_back({{"asset", m.asset}, {"reason", m.reason}});
-  j["not_in_window"] = missing;
+  j["not_in_window"] = missing_json(s);
   nlohmann::ordered_json excluded = nlohmann::ordered_json::array();
   for (const auto& e : f.excluded) excluded.push_back({{"asset", e.asset}, {"reason", e.reason}});
   j["excluded"] = excluded;
@@ -114,17 +112,6 @@ void print_json(const SelectedWindow& s) {
 
 }  // namespace
 
-void add_window_options(CLI::App* command, WindowArguments& a) {
-  command->add_option("NAME", a.model, "Model name")->required();
-  command->add_option("--as-of", a.as_of, "Window ending on this date, or the latest before it (default: the latest)")
-      ->type_name("DATE");
-  command->add_option("--assets", a.assets, "Only these assets, comma-separated, in this order")->type_name("LIST");
-  command->add_option("--format", a.format, "table, csv or json")
-      ->check(CLI::IsMember({"table", "csv", "json"}))
-      ->capture_default_str();
-  command->add_option("--limit", a.limit, "Table rows to show (0: all)")->type_name("N")->capture_default_str();
-}
-
 CLI::App* add_exposures_command(CLI::App& app, WindowArguments& a) {
   CLI::App* command = app.add_subcommand("exposures", "Loadings, communality and specific variance per asset");
   add_window_options(command, a);
@@ -132,20 +119,11 @@ CLI::App* add_exposures_command(CLI::App& app, WindowArguments& a) {
 }
 
 int run_exposures_command(const WindowArguments& a, const GlobalArguments& global) {
-  auto db = open_database(global, "exposures");
-  if (!db) return kExitFailed;
-  int code = kExitOk;
-  try {
-    const auto s = select_window(*db, a, "exposures", &code);
-    if (!s) return code;
-    if (a.format == "csv") print_csv(*s);
-    else if (a.format == "json") print_json(*s);
-    else print_table(*s, a.limit);
-  } catch (const std::exception& e) {
-    std::fprintf(stderr, "factorwatch exposures: %s\n", e.what());
-    return kExitFailed;
-  }
-  return code;
+  return run_on_window(a, global, "exposures", [&a](const SelectedWindow& s) {
+    if (a.format == "csv") print_csv(s);
+    else if (a.format == "json") print_json(s);
+    else print_table(s, a.limit);
+  });
 }
 
 }  // namespace factorwatch::server

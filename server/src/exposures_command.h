@@ -13,7 +13,4 @@ namespace factorwatch::server {
 CLI::App* add_exposures_command(CLI::App& app, WindowArguments& arguments);
 int run_exposures_command(const WindowArguments& arguments, const GlobalArguments& global);
 
-// Options shared by the commands that read one window.
-void add_window_options(CLI::App* command, WindowArguments& arguments);
-
 }  // namespace factorwatch::server

@@ -5,7 +5,6 @@
 #include <iostream>
 #include <nlohmann/json.hpp>
 
-#include "exposures_command.h"
 #include "factorwatch/engine/caution.h"
 #include "factorwatch/engine/frequency.h"
 
@@ -50,18 +49,13 @@ CLI::App* add_specific_risk_command(CLI::App& app, WindowArguments& a) {
 }
 
 int run_specific_risk_command(const WindowArguments& a, const GlobalArguments& global) {
-  auto db = open_database(global, "specific-risk");
-  if (!db) return kExitFailed;
-  int code = kExitOk;
-  try {
-    const auto s = select_window(*db, a, "specific-risk", &code);
-    if (!s) return code;
-    const engine::Frequency frequency = window_frequency(*s);
-    const std::vector<Row> rows = rows_of(*s, frequency);
+  return run_on_window(a, global, "specific-risk", [&a](const SelectedWindow& s) {
+    const engine::Frequency frequency = window_frequency(s);
+    const std::vector<Row> rows = rows_of(s, frequency);
     if (a.format == "csv") {
       print_csv_caution(std::cout);
-      std::cout << "# model " << s->model.name << " version " << s->model.version << ", window " << s->window.first_date
-                << " .. " << s->window.as_of << ", " << frequency.name << " data, annualised by sqrt("
+      std::cout << "# model " << s.model.name << " version " << s.model.version << ", window " << s.window.first_date
+                << " .. " << s.window.as_of << ", " << frequency.name << " data, annualised by sqrt("
                 << frequency.periods_per_year << ")\n";
       std::cout << "asset,specific_variance,specific_volatility,specific_volatility_annual,total_variance,"
                    "total_volatility_annual,specific_share,heywood\n";
@@ -73,14 +67,14 @@ int run_specific_risk_command(const WindowArguments& a, const GlobalArguments& g
     } else if (a.format == "json") {
       nlohmann::ordered_json j;
       j["caution"] = engine::kCaution;
-      j["model"] = s->model.name;
-      j["version"] = s->model.version;
-      j["as_of"] = s->window.as_of;
-      j["first_date"] = s->window.first_date;
+      j["model"] = s.model.name;
+      j["version"] = s.model.version;
+      j["as_of"] = s.window.as_of;
+      j["first_date"] = s.window.first_date;
       j["frequency"] = frequency.name;
       j["periods_per_year"] = frequency.periods_per_year;
-      j["stale"] = s->window.stale;
-      if (!s->note.empty()) j["note"] = s->note;
+      j["stale"] = s.window.stale;
+      if (!s.note.empty()) j["note"] = s.note;
       nlohmann::ordered_json out = nlohmann::ordered_json::array();
       for (const Row& r : rows)
         out.push_back({{"asset", r.asset},
@@ -92,15 +86,13 @@ int run_specific_risk_command(const WindowArguments& a, const GlobalArguments& g
                        {"specific_share", r.specific_share},
                        {"heywood", r.heywood}});
       j["assets"] = out;
-      nlohmann::ordered_json missing = nlohmann::ordered_json::array();
-      for (const auto& m : s->missing) missing.push_back({{"asset", m.asset}, {"reason", m.reason}});
-      j["not_in_window"] = missing;
+      j["not_in_window"] = missing_json(s);
       std::cout << j.dump(2) << "\n";
     } else {
-      std::printf("model %s, version %d: window %s .. %s, %s data, annualised by sqrt(%d)%s\n", s->model.name.c_str(),
-                  s->model.version, s->window.first_date.c_str(), s->window.as_of.c_str(), frequency.name,
-                  frequency.periods_per_year, s->window.stale ? "; STALE, run factorwatch refresh" : "");
-      if (!s->note.empty()) std::printf("note: %s\n", s->note.c_str());
+      std::printf("model %s, version %d: window %s .. %s, %s data, annualised by sqrt(%d)%s\n", s.model.name.c_str(),
+                  s.model.version, s.window.first_date.c_str(), s.window.as_of.c_str(), frequency.name,
+                  frequency.periods_per_year, s.window.stale ? "; STALE, run factorwatch refresh" : "");
+      if (!s.note.empty()) std::printf("note: %s\n", s.note.c_str());
       std::printf("\n%-14s %14s %14s %16s %14s\n", "asset", "specific vol", "specific vol", "total vol", "specific");
       std::printf("%-14s %14s %14s %16s %14s\n", "", "per period", "annualised", "annualised", "share");
       const std::size_t shown = a.limit > 0 ? std::min<std::size_t>(a.limit, rows.size()) : rows.size();
@@ -112,14 +104,10 @@ int run_specific_risk_command(const WindowArguments& a, const GlobalArguments& g
       }
       if (shown < rows.size())
         std::printf("... %zu more; --limit 0 shows all, --format csv gives a spreadsheet file\n", rows.size() - shown);
-      for (const auto& m : s->missing) std::printf("%-14s not in this window: %s\n", m.asset.c_str(), m.reason.c_str());
+      for (const auto& m : s.missing) std::printf("%-14s not in this window: %s\n", m.asset.c_str(), m.reason.c_str());
       print_caution(std::cout);
     }
-  } catch (const std::exception& e) {
-    std::fprintf(stderr, "factorwatch specific-risk: %s\n", e.what());
-    return kExitFailed;
-  }
-  return code;
+  });
 }
 
 }  // namespace factorwatch::server

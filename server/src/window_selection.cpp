@@ -11,6 +11,38 @@ namespace factorwatch::server {
 
 std::string factor_name(Eigen::Index j) { return "f" + std::to_string(j + 1); }
 
+void add_window_options(CLI::App* command, WindowArguments& a) {
+  command->add_option("NAME", a.model, "Model name")->required();
+  command->add_option("--as-of", a.as_of, "Window ending on this date, or the latest before it (default: the latest)")
+      ->type_name("DATE");
+  command->add_option("--assets", a.assets, "Only these assets, comma-separated, in this order")->type_name("LIST");
+  command->add_option("--format", a.format, "table, csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}))
+      ->capture_default_str();
+  command->add_option("--limit", a.limit, "Table rows to show (0: all)")->type_name("N")->capture_default_str();
+}
+
+int run_on_window(const WindowArguments& a, const GlobalArguments& global, const char* command,
+                  const std::function<void(const SelectedWindow&)>& print) {
+  auto db = open_database(global, command);
+  if (!db) return kExitFailed;
+  int code = kExitOk;
+  try {
+    const auto s = select_window(*db, a, command, &code);
+    if (s) print(*s);
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "factorwatch %s: %s\n", command, e.what());
+    return kExitFailed;
+  }
+  return code;
+}
+
+nlohmann::ordered_json missing_json(const SelectedWindow& s) {
+  nlohmann::ordered_json missing = nlohmann::ordered_json::array();
+  for (const auto& m : s.missing) missing.push_back({{"asset", m.asset}, {"reason", m.reason}});
+  return missing;
+}
+
 std::optional<SelectedWindow> select_window(storage::Database& db, const WindowArguments& a, const char* command,
                                             int* code) {
   *code = kExitBadInput;
