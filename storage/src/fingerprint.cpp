@@ -18,12 +18,16 @@ void Fingerprint::add(const void* data, std::size_t bytes) {
   std::uint64_t word;
   for (; bytes >= 8; p += 8, bytes -= 8) {
     std::memcpy(&word, p, 8);
-    state_ = mix(state_ ^ (word + 0x9e3779b97f4a7c15ull * ++count_));
+    ++count_;
+    std::uint64_t& lane = lanes_[count_ & 3];
+    lane = mix(lane ^ (word + 0x9e3779b97f4a7c15ull * count_));
   }
   if (bytes > 0) {
     word = 0;
     std::memcpy(&word, p, bytes);
-    state_ = mix(state_ ^ (word + 0x9e3779b97f4a7c15ull * ++count_) ^ (std::uint64_t{bytes} << 56));
+    ++count_;
+    std::uint64_t& lane = lanes_[count_ & 3];
+    lane = mix(lane ^ (word + 0x9e3779b97f4a7c15ull * count_) ^ (std::uint64_t{bytes} << 56));
   }
 }
 
@@ -36,7 +40,8 @@ void Fingerprint::add(std::int64_t value) { add(&value, sizeof value); }
 
 std::string Fingerprint::hex() const {
   static const char digits[] = "0123456789abcdef";
-  const std::uint64_t h = mix(state_ ^ count_);
+  std::uint64_t h = count_;
+  for (std::uint64_t lane : lanes_) h = mix(h ^ lane);
   std::string out(16, '0');
   for (int i = 0; i < 16; ++i) out[15 - i] = digits[(h >> (4 * i)) & 15];
   return out;
