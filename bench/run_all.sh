@@ -2,9 +2,12 @@
 # Builds the benchmarks (Release) and runs the whole suite: our PCA / ML cold / ML warm
 # fits, the Python peers on the identical panel (BLAS environment as-is and with the
 # OpenBLAS overrides unset), the stage split at N = 5000 and the compiler-flag
-# comparison. Prints the summary table; the raw JSON lines are kept. About 10 minutes.
+# comparison. Prints the summary table; the raw JSON lines are kept. About 10 minutes,
+# plus about 10 for the storage benchmark (bench/storage_bench.py: `factorwatch load` and
+# `factorwatch refresh` against sqlite3 and scikit-learn; it builds build-storagebench/
+# and writes build-storagebench/results/storage_bench.txt; --no-storage skips it).
 #
-#   bench/run_all.sh [--sizes "500 2000 5000 10000"] [--rounds 4] [--out DIR] [--no-flags]
+#   bench/run_all.sh [--sizes "500 2000 5000 10000"] [--rounds 4] [--out DIR] [--no-flags] [--no-storage]
 #
 # Round 1 covers every size; rounds 2..R repeat N = 5000 (the size the targets are set
 # at), ours and the peers alternating; the report uses medians over rounds.
@@ -18,14 +21,16 @@ ROOT=$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)
 SIZES="500 2000 5000 10000"
 OUT="$ROOT/build-bench/results"
 FLAGS=1
+STORAGE=1
 ROUNDS=4
 while [ $# -gt 0 ]; do
   case "$1" in
     --sizes) SIZES="$2"; shift 2 ;;
     --out) OUT="$2"; shift 2 ;;
     --no-flags) FLAGS=0; shift ;;
+    --no-storage) STORAGE=0; shift ;;
     --rounds) ROUNDS="$2"; shift 2 ;;
-    *) echo "usage: $0 [--sizes \"N ...\"] [--rounds R] [--out DIR] [--no-flags]" >&2; exit 2 ;;
+    *) echo "usage: $0 [--sizes \"N ...\"] [--rounds R] [--out DIR] [--no-flags] [--no-storage]" >&2; exit 2 ;;
   esac
 done
 
@@ -154,3 +159,8 @@ fi
 echo
 "$PY" "$ROOT/bench/report.py" table "$RAW" | tee "$OUT/table.txt"
 log "raw lines: $RAW; table: $OUT/table.txt"
+
+if [ "$STORAGE" = 1 ]; then
+  log "storage benchmark: ingest and refresh against sqlite3 and scikit-learn"
+  "$PY" "$ROOT/bench/storage_bench.py" --rounds 3
+fi
