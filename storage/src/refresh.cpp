@@ -139,13 +139,12 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
       }
       t_read = Clock::now();
       const engine::ReturnsPanel panel = span.window(point.index + 1 - window - first_row, window);
-      summary.read_seconds += since(t_read);
-
       WindowRecord record;
+      record.input_hash = detail::panel_fingerprint(panel);
+      summary.read_seconds += since(t_read);  // cutting the window and fingerprinting it
       record.as_of = detail::iso_date(point.as_of);
       record.first_date = panel.dates.front();
       record.configuration_hash = model->configuration_hash;
-      record.input_hash = detail::panel_fingerprint(panel);
       const auto t_fit = Clock::now();
       record.fit = engine::fit(panel, options);
       summary.fit_seconds += since(t_fit);

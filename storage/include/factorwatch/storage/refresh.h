@@ -41,6 +41,7 @@ struct RefreshSummary {
   std::size_t unusable = 0;         // of which ended in a numerical failure (stored, flagged)
   std::string first_as_of, last_as_of;  // of the windows written in this run
   double seconds = 0;
+  // Reading: the stored returns, each window cut from them and its input fingerprint.
   double read_seconds = 0, fit_seconds = 0, write_seconds = 0;
   std::string note;  // e.g. why there is nothing to fit
 };
