@@ -1,6 +1,5 @@
 #include "factorwatch/engine/frequency.h"
 
-#include <algorithm>
 #include <cstdlib>
 
 namespace factorwatch::engine {
@@ -24,15 +23,6 @@ long day_number(const std::string& iso) {
 }
 
 }  // namespace
-
-Frequency infer_frequency(const std::vector<std::string>& dates) {
-  if (dates.size() < 2) return {};
-  std::vector<long> gaps;
-  gaps.reserve(dates.size() - 1);
-  for (std::size_t i = 1; i < dates.size(); ++i) gaps.push_back(day_number(dates[i]) - day_number(dates[i - 1]));
-  std::nth_element(gaps.begin(), gaps.begin() + gaps.size() / 2, gaps.end());
-  return frequency_from_gap(static_cast<double>(gaps[gaps.size() / 2]));
-}
 
 Frequency frequency_from_gap(double days) {
   if (days <= 4) return {"daily", 252};

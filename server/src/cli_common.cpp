@@ -67,6 +67,10 @@ std::vector<std::string> split_list(const std::string& text) {
   return out;
 }
 
+double seconds_since(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
 bool stderr_is_terminal() { return isatty(STDERR_FILENO) == 1; }
 
 }  // namespace factorwatch::server

@@ -3,6 +3,7 @@
 #pragma once
 
 #include <CLI/CLI.hpp>
+#include <chrono>
 #include <memory>
 #include <ostream>
 #include <string>
@@ -41,6 +42,9 @@ std::string exact_number(double x);
 
 // "--assets A,B,C" into names (spaces around names are ignored).
 std::vector<std::string> split_list(const std::string& text);
+
+// Wall seconds since `start`, for the timings commands print.
+double seconds_since(std::chrono::steady_clock::time_point start);
 
 // True when stderr is a terminal (progress lines are for people, not for log files).
 bool stderr_is_terminal();

@@ -12,18 +12,11 @@
 #include "factorwatch/storage/covariance_csv.h"
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/returns_csv.h"
+#include "cli_common.h"
 #include "fit_report.h"
 
 namespace factorwatch::server {
 namespace {
-
-constexpr int kUsable = 0;
-constexpr int kFitFailed = 1;
-constexpr int kBadInput = 2;
-
-double seconds_since(std::chrono::steady_clock::time_point start) {
-  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-}
 
 // Options the engine does not see: the source, the observations count, the window.
 bool check_source(const FitArguments& a, std::string* error) {
@@ -168,12 +161,12 @@ int run_fit_command(const FitArguments& a) {
   std::string error;
   if (!check_source(a, &error)) {
     std::fprintf(stderr, "factorwatch fit: %s\n", error.c_str());
-    return kBadInput;
+    return kExitBadInput;
   }
   const engine::FitOptions options = to_fit_options(a);
   if (!options.IsValid(&error)) {
     std::fprintf(stderr, "factorwatch fit: %s\n", cli_spelling(error).c_str());
-    return kBadInput;
+    return kExitBadInput;
   }
 
   FitSource source;
@@ -192,10 +185,10 @@ int run_fit_command(const FitArguments& a) {
     }
   } catch (const storage::InputError& e) {
     std::fprintf(stderr, "\nfactorwatch fit: %s\n", e.what());
-    return kBadInput;
+    return kExitBadInput;
   } catch (const std::invalid_argument& e) {  // the engine refusing its inputs
     std::fprintf(stderr, "\nfactorwatch fit: %s\n", e.what());
-    return kBadInput;
+    return kExitBadInput;
   }
   std::fprintf(stderr, "%s after %d iterations in %.3f s: %s\n", engine::to_string(fit.termination),
                fit.iterations, fit.fit_seconds, fit.message.c_str());
@@ -206,7 +199,7 @@ int run_fit_command(const FitArguments& a) {
     write_fit_report_table(std::cout, fit, source);
   }
   std::cout.flush();
-  return fit.IsSolutionUsable() ? kUsable : kFitFailed;
+  return fit.IsSolutionUsable() ? kExitOk : kExitFailed;
 }
 
 }  // namespace factorwatch::server

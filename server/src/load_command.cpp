@@ -13,10 +13,6 @@
 namespace factorwatch::server {
 namespace {
 
-double seconds_since(std::chrono::steady_clock::time_point start) {
-  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-}
-
 std::string thousands(std::size_t n) {
   std::string digits = std::to_string(n), out;
   for (std::size_t i = 0; i < digits.size(); ++i) {
@@ -58,7 +54,6 @@ int run_load_command(const LoadArguments& a, const GlobalArguments& global) {
     file = storage::read_returns_file(a.path, read_options);
     source.content_sha256 = hash.get();
   } catch (const storage::InputError& e) {
-    if (hash.valid()) hash.wait();
     std::fprintf(stderr, "\nfactorwatch load: %s\nThe file was rejected; the database is unchanged.\n", e.what());
     return kExitBadInput;
   } catch (const std::exception& e) {

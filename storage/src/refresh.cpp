@@ -38,10 +38,26 @@ std::vector<GridPoint> grid(const std::vector<std::int32_t>& dates, const ModelC
   return points;
 }
 
-std::set<std::int32_t> current_dates(Database& db, long version_id) {
-  std::set<std::int32_t> out;
-  for (const std::string& d : current_window_dates(db, version_id)) out.insert(detail::date_key(d));
-  return out;
+// The stored dates, the model's grid on them, and which grid windows still need a fit
+// (none stored, or stale), from one read of the model version's windows.
+struct Plan {
+  std::vector<std::int32_t> dates;
+  std::vector<GridPoint> points;
+  std::vector<std::size_t> pending;  // positions in `points`
+  std::set<std::int32_t> stale;      // as-of dates of stored windows marked stale
+};
+
+Plan make_plan(Database& db, const ModelVersion& model) {
+  Plan plan;
+  plan.dates = detail::stored_dates(db.sql());
+  plan.points = grid(plan.dates, model.config);
+  std::set<std::int32_t> current;
+  SQLite::Statement q(db.sql(), "SELECT as_of, stale FROM windows WHERE model_version_id = ?");
+  q.bind(1, static_cast<std::int64_t>(model.id));
+  while (q.executeStep()) (q.getColumn(1).getInt() ? plan.stale : current).insert(q.getColumn(0).getInt());
+  for (std::size_t p = 0; p < plan.points.size(); ++p)
+    if (!current.count(plan.points[p].as_of)) plan.pending.push_back(p);
+  return plan;
 }
 
 std::vector<std::int32_t> universe_ids(Database& db, const ModelConfig& config) {
@@ -61,11 +77,9 @@ engine::WarmStart warm_from(const engine::FactorFit& fit) {
 }  // namespace
 
 std::vector<std::string> pending_windows(Database& db, const ModelVersion& model) {
-  const std::vector<std::int32_t> dates = detail::stored_dates(db.sql());
-  const std::set<std::int32_t> current = current_dates(db, model.id);
+  const Plan plan = make_plan(db, model);
   std::vector<std::string> out;
-  for (const GridPoint& p : grid(dates, model.config))
-    if (!current.count(p.as_of)) out.push_back(detail::iso_date(p.as_of));
+  for (std::size_t p : plan.pending) out.push_back(detail::iso_date(plan.points[p].as_of));
   return out;
 }
 
@@ -78,27 +92,18 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
   summary.model = model->name;
   summary.version = model->version;
 
-  const std::vector<std::int32_t> dates = detail::stored_dates(db.sql());
+  const Plan plan = make_plan(db, *model);
+  const std::vector<std::int32_t>& dates = plan.dates;
   if (dates.size() < static_cast<std::size_t>(config.window)) {
     summary.note = std::to_string(dates.size()) + " dates stored, fewer than the window of " +
                    std::to_string(config.window) + ": nothing to fit yet";
     summary.seconds = since(start);
     return summary;
   }
-  const std::vector<GridPoint> points = grid(dates, config);
+  const std::vector<GridPoint>& points = plan.points;
+  const std::vector<std::size_t>& pending = plan.pending;
   summary.grid_windows = points.size();
-  const std::set<std::int32_t> current = current_dates(db, model->id);
-  std::set<std::int32_t> stale;
-  {
-    SQLite::Statement q(db.sql(), "SELECT as_of FROM windows WHERE model_version_id = ? AND stale = 1");
-    q.bind(1, static_cast<std::int64_t>(model->id));
-    while (q.executeStep()) stale.insert(q.getColumn(0).getInt());
-  }
-  std::vector<std::size_t> pending;  // positions in `points`
-  for (std::size_t p = 0; p < points.size(); ++p) {
-    if (current.count(points[p].as_of)) ++summary.already_current;
-    else pending.push_back(p);
-  }
+  summary.already_current = points.size() - pending.size();
   if (pending.empty()) {
     summary.note = "every window is current";
     summary.seconds = since(start);
@@ -149,7 +154,7 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
       record.fit = engine::fit(panel, options);
       summary.fit_seconds += since(t_fit);
       if (!record.fit.IsSolutionUsable()) ++summary.unusable;
-      if (stale.count(point.as_of)) ++summary.refitted_stale;
+      if (plan.stale.count(point.as_of)) ++summary.refitted_stale;
 
       const auto t_write = Clock::now();
       record.total_seconds = since(t_window);

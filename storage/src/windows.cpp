@@ -224,12 +224,4 @@ std::optional<WindowRecord> read_window(Database& db, long model_version_id, con
   return read_record(db, q);
 }
 
-std::vector<std::string> current_window_dates(Database& db, long model_version_id) {
-  SQLite::Statement q(db.sql(), "SELECT as_of FROM windows WHERE model_version_id = ? AND stale = 0 ORDER BY as_of");
-  q.bind(1, static_cast<std::int64_t>(model_version_id));
-  std::vector<std::string> out;
-  while (q.executeStep()) out.push_back(detail::iso_date(q.getColumn(0).getInt()));
-  return out;
-}
-
 }  // namespace factorwatch::storage

@@ -3,7 +3,6 @@
 #pragma once
 
 #include <string>
-#include <vector>
 
 namespace factorwatch::engine {
 
@@ -12,13 +11,9 @@ struct Frequency {
   int periods_per_year = 252;   // 252 trading days, 52 weeks, 12 months (common practice)
 };
 
-// From the median calendar gap between consecutive ISO dates (yyyy-mm-dd):
-// up to 4 days daily (a weekend is 3), up to 10 weekly, up to 45 monthly, up to 120
-// quarterly, else annual. Fewer than two dates: daily.
-Frequency infer_frequency(const std::vector<std::string>& dates);
-
-// The same thresholds applied to a typical gap in calendar days, e.g. a window's span
-// divided by its number of gaps when only its first and last dates are at hand.
+// From the typical calendar gap between dates, e.g. a window's span divided by its
+// number of gaps: up to 4 days daily (a weekend is 3), up to 10 weekly, up to 45
+// monthly, up to 120 quarterly, else annual.
 Frequency frequency_from_gap(double days);
 
 // Calendar days from `first` to `last` (ISO dates).

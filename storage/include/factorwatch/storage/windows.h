@@ -51,7 +51,4 @@ std::vector<WindowSummary> list_windows(Database& db, long model_version_id);
 std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
                                         bool at_or_before = true);
 
-// As-of dates of the stored windows that are current (not stale), ascending.
-std::vector<std::string> current_window_dates(Database& db, long model_version_id);
-
 }  // namespace factorwatch::storage
