@@ -4,7 +4,8 @@
 set -euo pipefail
 
 packages=(
-  cmake g++ make
+  cmake g++ make pkgconf
+  curl python3
   libeigen3-dev libspectra-dev
   libcpp-httplib-dev nlohmann-json3-dev libsqlitecpp-dev libsqlite3-dev
   libgtest-dev libcli11-dev libfast-float-dev

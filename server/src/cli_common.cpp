@@ -31,26 +31,7 @@ std::unique_ptr<storage::Database> open_database(const GlobalArguments& global, 
 
 void print_caution(std::ostream& out) { out << "\nCaution: " << engine::kCaution << "\n"; }
 
-void print_csv_caution(std::ostream& out) { out << "# caution: " << engine::kCaution << "\n"; }
-
-std::string csv_field(const std::string& text) {
-  if (text.find_first_of(",\"\r\n") == std::string::npos) return text;
-  std::string out = "\"";
-  for (char c : text) {
-    if (c == '"') out += '"';
-    out += c;
-  }
-  return out + "\"";
-}
-
-std::string exact_number(double x) {
-  char text[40];
-  for (int digits = 15; digits <= 17; ++digits) {
-    std::snprintf(text, sizeof text, "%.*g", digits, x);
-    if (std::strtod(text, nullptr) == x) break;
-  }
-  return text;
-}
+void print_csv_caution(std::ostream& out) { out << csv_caution_line(); }
 
 std::vector<std::string> split_list(const std::string& text) {
   std::vector<std::string> out;

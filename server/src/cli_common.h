@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "factorwatch/storage/database.h"
+#include "text_format.h"
 
 namespace factorwatch::server {
 
@@ -32,13 +33,6 @@ std::unique_ptr<storage::Database> open_database(const GlobalArguments& global, 
 void print_caution(std::ostream& out);
 // The caution as the first line of a CSV file (a '#' comment line).
 void print_csv_caution(std::ostream& out);
-
-// A CSV field, quoted when it holds a comma, quote or line break (RFC 4180).
-std::string csv_field(const std::string& text);
-
-// Numbers in output: round-trip precision for CSV and JSON consumers ("%.17g" trimmed
-// to the shortest text that reads back the same), fixed widths for tables.
-std::string exact_number(double x);
 
 // "--assets A,B,C" into names (spaces around names are ignored).
 std::vector<std::string> split_list(const std::string& text);

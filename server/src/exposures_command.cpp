@@ -4,7 +4,7 @@
 #include <iostream>
 #include <nlohmann/json.hpp>
 
-#include "factorwatch/engine/caution.h"
+#include "exposures_view.h"
 
 namespace factorwatch::server {
 namespace {
@@ -55,61 +55,6 @@ void print_table(const SelectedWindow& s, int limit) {
   print_caution(std::cout);
 }
 
-void print_csv(const SelectedWindow& s) {
-  const engine::FactorFit& f = s.window.fit;
-  print_csv_caution(std::cout);
-  std::cout << "# model " << s.model.name << " version " << s.model.version << ", window " << s.window.first_date
-            << " .. " << s.window.as_of << ", " << engine::to_string(f.method) << "\n";
-  std::cout << "asset";
-  for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::cout << "," << factor_name(j);
-  std::cout << ",communality,specific_variance,uniqueness,heywood\n";
-  for (std::size_t i : s.rows) {
-    std::cout << csv_field(f.assets[i]);
-    for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::cout << "," << exact_number(f.loadings(i, j));
-    std::cout << "," << exact_number(f.communality(i)) << "," << exact_number(f.specific_variance(i)) << ","
-              << exact_number(f.uniqueness(i)) << "," << (f.heywood[i] ? "true" : "false") << "\n";
-  }
-}
-
-void print_json(const SelectedWindow& s) {
-  const engine::FactorFit& f = s.window.fit;
-  nlohmann::ordered_json j;
-  j["caution"] = engine::kCaution;
-  j["model"] = s.model.name;
-  j["version"] = s.model.version;
-  j["as_of"] = s.window.as_of;
-  j["first_date"] = s.window.first_date;
-  j["periods"] = f.periods;
-  j["method"] = engine::to_string(f.method);
-  j["basis"] = engine::to_string(f.basis);
-  j["factors"] = f.factors;
-  j["termination"] = engine::to_string(f.termination);
-  j["stale"] = s.window.stale;
-  j["configuration_hash"] = s.window.configuration_hash;
-  j["input_hash"] = s.window.input_hash;
-  if (!s.note.empty()) j["note"] = s.note;
-  j["explained_share"] = std::vector<double>(f.explained_share.data(), f.explained_share.data() + f.explained_share.size());
-  nlohmann::ordered_json rows = nlohmann::ordered_json::array();
-  for (std::size_t i : s.rows) {
-    nlohmann::ordered_json row;
-    row["asset"] = f.assets[i];
-    std::vector<double> loadings(static_cast<std::size_t>(f.loadings.cols()));
-    for (Eigen::Index k = 0; k < f.loadings.cols(); ++k) loadings[static_cast<std::size_t>(k)] = f.loadings(i, k);
-    row["loadings"] = loadings;
-    row["communality"] = f.communality(i);
-    row["specific_variance"] = f.specific_variance(i);
-    row["uniqueness"] = f.uniqueness(i);
-    row["heywood"] = static_cast<bool>(f.heywood[i]);
-    rows.push_back(row);
-  }
-  j["assets"] = rows;
-  j["not_in_window"] = missing_json(s);
-  nlohmann::ordered_json excluded = nlohmann::ordered_json::array();
-  for (const auto& e : f.excluded) excluded.push_back({{"asset", e.asset}, {"reason", e.reason}});
-  j["excluded"] = excluded;
-  std::cout << j.dump(2) << "\n";
-}
-
 }  // namespace
 
 CLI::App* add_exposures_command(CLI::App& app, WindowArguments& a) {
@@ -120,8 +65,8 @@ CLI::App* add_exposures_command(CLI::App& app, WindowArguments& a) {
 
 int run_exposures_command(const WindowArguments& a, const GlobalArguments& global) {
   return run_on_window(a, global, "exposures", [&a](const SelectedWindow& s) {
-    if (a.format == "csv") print_csv(s);
-    else if (a.format == "json") print_json(s);
+    if (a.format == "csv") std::cout << exposures_csv(s);
+    else if (a.format == "json") std::cout << exposures_json(s).dump(2) << "\n";
     else print_table(s, a.limit);
   });
 }

@@ -8,7 +8,9 @@
 #include "load_command.h"
 #include "model_command.h"
 #include "refresh_command.h"
+#include "serve_command.h"
 #include "specific_risk_command.h"
+#include "token_command.h"
 #include "windows_command.h"
 
 int main(int argc, char** argv) {
@@ -24,6 +26,8 @@ int main(int argc, char** argv) {
   RefreshArguments refresh_arguments;
   WindowsArguments windows_arguments;
   WindowArguments exposures_arguments, specific_arguments;
+  DaemonOptions serve_options;
+  TokenArguments token_arguments;
   CLI::App* load = add_load_command(app, load_arguments);
   CLI::App* model = add_model_command(app, model_arguments);
   CLI::App* refresh = add_refresh_command(app, refresh_arguments);
@@ -31,6 +35,8 @@ int main(int argc, char** argv) {
   CLI::App* exposures = add_exposures_command(app, exposures_arguments);
   CLI::App* specific = add_specific_risk_command(app, specific_arguments);
   CLI::App* fit = add_fit_command(app, fit_arguments);
+  CLI::App* serve = add_serve_command(app, serve_options);
+  CLI::App* token = add_token_command(app, token_arguments);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -44,5 +50,7 @@ int main(int argc, char** argv) {
   if (exposures->parsed()) return run_exposures_command(exposures_arguments, global);
   if (specific->parsed()) return run_specific_risk_command(specific_arguments, global);
   if (fit->parsed()) return run_fit_command(fit_arguments);
+  if (serve->parsed()) return run_serve_command(serve_options, global);
+  if (token->parsed()) return run_token_command(token_arguments, global);
   return kExitBadInput;
 }

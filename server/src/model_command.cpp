@@ -8,6 +8,7 @@
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
+#include "model_views.h"
 
 namespace factorwatch::server {
 namespace {
@@ -83,21 +84,12 @@ int run_show(const ModelArguments& a, storage::Database& db) {
     return kExitBadInput;
   }
   const auto windows = storage::list_windows(db, m->id);
-  std::size_t stale = 0;
-  for (const auto& w : windows) stale += w.stale;
   if (a.format == "json") {
-    nlohmann::ordered_json j;
-    j["model"] = m->name;
-    j["version"] = m->version;
-    j["created_at"] = m->created_at;
-    j["configuration_hash"] = m->configuration_hash;
-    j["configuration"] = m->config.to_json();
-    j["windows"] = windows.size();
-    j["stale_windows"] = stale;
-    j["latest_as_of"] = windows.empty() ? nlohmann::ordered_json() : nlohmann::ordered_json(windows.back().as_of);
-    std::cout << j.dump(2) << "\n";
+    std::cout << model_json(*m, windows).dump(2) << "\n";
     return kExitOk;
   }
+  std::size_t stale = 0;
+  for (const auto& w : windows) stale += w.stale;
   std::printf("model %s, version %d (since %s, configuration %s)\n%s", m->name.c_str(), m->version,
               m->created_at.c_str(), m->configuration_hash.c_str(), describe(m->config).c_str());
   std::printf("  windows:       %zu stored (%zu stale)%s%s\n", windows.size(), stale,

@@ -4,9 +4,9 @@
 #include <iostream>
 #include <nlohmann/json.hpp>
 
-#include "factorwatch/engine/caution.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
+#include "model_views.h"
 
 namespace factorwatch::server {
 
@@ -31,43 +31,11 @@ int run_windows_command(const WindowsArguments& a, const GlobalArguments& global
     }
     const auto windows = storage::list_windows(*db, model->id);
     if (a.format == "json") {
-      nlohmann::ordered_json j;
-      j["caution"] = engine::kCaution;
-      j["model"] = model->name;
-      j["version"] = model->version;
-      nlohmann::ordered_json rows = nlohmann::ordered_json::array();
-      for (const auto& w : windows)
-        rows.push_back({{"as_of", w.as_of},
-                        {"first_date", w.first_date},
-                        {"periods", w.periods},
-                        {"assets", w.asset_count},
-                        {"excluded", w.excluded_count},
-                        {"factors", w.factors},
-                        {"termination", w.termination},
-                        {"usable", w.usable},
-                        {"warm_started", w.warm_started},
-                        {"iterations", w.iterations},
-                        {"log_likelihood", w.log_likelihood},
-                        {"explained_share", w.explained_total},
-                        {"heywood_cases", w.heywood_count},
-                        {"fit_seconds", w.fit_seconds},
-                        {"total_seconds", w.total_seconds},
-                        {"stale", w.stale}});
-      j["windows"] = rows;
-      std::cout << j.dump(2) << "\n";
+      std::cout << windows_json(*model, windows).dump(2) << "\n";
       return kExitOk;
     }
     if (a.format == "csv") {
-      print_csv_caution(std::cout);
-      std::cout << "as_of,first_date,periods,assets,excluded,factors,termination,usable,warm_started,iterations,"
-                   "log_likelihood,explained_share,heywood_cases,fit_seconds,total_seconds,stale\n";
-      for (const auto& w : windows)
-        std::cout << w.as_of << "," << w.first_date << "," << w.periods << "," << w.asset_count << ","
-                  << w.excluded_count << "," << w.factors << "," << w.termination << "," << (w.usable ? "true" : "false")
-                  << "," << (w.warm_started ? "true" : "false") << "," << w.iterations << ","
-                  << exact_number(w.log_likelihood) << "," << exact_number(w.explained_total) << "," << w.heywood_count
-                  << "," << exact_number(w.fit_seconds) << "," << exact_number(w.total_seconds) << ","
-                  << (w.stale ? "true" : "false") << "\n";
+      std::cout << windows_csv(windows);
       return kExitOk;
     }
     std::printf("model %s, version %d: %zu windows\n\n", model->name.c_str(), model->version, windows.size());

@@ -83,7 +83,8 @@ std::vector<std::string> pending_windows(Database& db, const ModelVersion& model
   return out;
 }
 
-RefreshSummary refresh_model(Database& db, const std::string& name, const RefreshCallback& progress) {
+RefreshSummary refresh_model(Database& db, const std::string& name, const RefreshCallback& progress,
+                             const std::atomic<bool>* stop) {
   const auto start = Clock::now();
   const std::optional<ModelVersion> model = find_model(db, name);
   if (!model) throw std::invalid_argument("no model named '" + name + "' (define it with: factorwatch model set " + name + ")");
@@ -128,6 +129,13 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
     summary.read_seconds += since(t_read);
 
     for (std::size_t k = chunk; k < chunk_end; ++k) {
+      if (stop && stop->load()) {
+        summary.stopped = true;
+        summary.note = "stopped on request after " + std::to_string(summary.fitted) + " of " +
+                       std::to_string(pending.size()) + " windows; the next refresh carries on";
+        summary.seconds = since(start);
+        return summary;
+      }
       const std::size_t p = pending[k];
       const GridPoint& point = points[p];
       const auto t_window = Clock::now();

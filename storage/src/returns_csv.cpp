@@ -65,18 +65,24 @@ ReturnsFile read_layout(detail::CsvScanner& scanner, const detail::ReturnsHeader
 }  // namespace
 
 ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions& options) {
-  detail::FileText file(path);
-  detail::CsvScanner scanner(file.text(), path);
+  const detail::FileText file(path);
+  return read_returns_text(file.text(), path, options);
+}
+
+ReturnsFile read_returns_text(std::string_view text, const std::string& path, const ReturnsReadOptions& options) {
+  constexpr std::string_view kBom = "\xEF\xBB\xBF";
+  if (text.substr(0, kBom.size()) == kBom) text.remove_prefix(kBom.size());
+  detail::CsvScanner scanner(text, path);
   scanner.skip_comments();
   std::vector<std::string_view> fields;
   if (!scanner.next(fields)) {
-    if (file.text().empty())
+    if (text.empty())
       throw InputError(path, 0, "", std::string("the file is empty: no header row and no data; ") + kLayouts);
     throw InputError(path, 0, "", std::string("the file is empty: only comments and blank lines, no header "
                                               "row; ") + kLayouts);
   }
 
-  detail::ReturnsHeader header{path, file.text(), {}, scanner.line()};
+  detail::ReturnsHeader header{path, text, {}, scanner.line()};
   header.names.assign(fields.begin(), fields.end());
   scanner.set_column_names(&header.names);
   check_names_are_utf8(header);

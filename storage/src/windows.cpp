@@ -3,6 +3,7 @@
 #include <SQLiteCpp/SQLiteCpp.h>
 
 #include <cmath>
+#include <cstdio>
 #include <limits>
 #include <nlohmann/json.hpp>
 #include <stdexcept>
@@ -222,6 +223,32 @@ std::optional<WindowRecord> read_window(Database& db, long model_version_id, con
   if (!as_of.empty()) q.bind(2, detail::date_key(as_of, "as-of date"));
   if (!q.executeStep()) return std::nullopt;
   return read_record(db, q);
+}
+
+std::string WindowStamp::key() const {
+  char seconds[32];
+  std::snprintf(seconds, sizeof seconds, "%a", total_seconds);  // every bit of the timing
+  return as_of + "|" + std::to_string(row_id) + "|" + fitted_at + "|" + input_hash + "|" + seconds + "|" +
+         (stale ? "stale" : "current");
+}
+
+std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, const std::string& as_of,
+                                             bool at_or_before) {
+  std::string where = "WHERE model_version_id = ?1";
+  if (!as_of.empty()) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
+  SQLite::Statement q(db.sql(), "SELECT as_of, id, fitted_at, input_hash, total_seconds, stale FROM windows " +
+                                    where + " ORDER BY as_of DESC LIMIT 1");
+  q.bind(1, static_cast<std::int64_t>(model_version_id));
+  if (!as_of.empty()) q.bind(2, detail::date_key(as_of, "as-of date"));
+  if (!q.executeStep()) return std::nullopt;
+  WindowStamp stamp;
+  stamp.as_of = detail::iso_date(q.getColumn(0).getInt());
+  stamp.row_id = q.getColumn(1).getInt64();
+  stamp.fitted_at = q.getColumn(2).getString();
+  stamp.input_hash = q.getColumn(3).getString();
+  stamp.total_seconds = q.getColumn(4).getDouble();
+  stamp.stale = q.getColumn(5).getInt() != 0;
+  return stamp;
 }
 
 }  // namespace factorwatch::storage

@@ -14,6 +14,7 @@
 // used, so both give the same windows.
 #pragma once
 
+#include <atomic>
 #include <cstddef>
 #include <functional>
 #include <string>
@@ -44,12 +45,16 @@ struct RefreshSummary {
   // Reading: the stored returns, each window cut from them and its input fingerprint.
   double read_seconds = 0, fit_seconds = 0, write_seconds = 0;
   std::string note;  // e.g. why there is nothing to fit
+  bool stopped = false;  // asked to stop: the windows written so far are whole and kept
 };
 
 using RefreshCallback = std::function<void(const RefreshProgress&)>;
 
-// Throws std::invalid_argument when the model does not exist.
-RefreshSummary refresh_model(Database& db, const std::string& model, const RefreshCallback& progress = {});
+// Throws std::invalid_argument when the model does not exist. When `stop` is given and
+// becomes true, the run ends after the window being fitted is written (a daemon shutting
+// down); the next refresh carries on from the windows stored.
+RefreshSummary refresh_model(Database& db, const std::string& model, const RefreshCallback& progress = {},
+                             const std::atomic<bool>* stop = nullptr);
 
 // The as-of dates refresh_model would fit now, ascending.
 std::vector<std::string> pending_windows(Database& db, const ModelVersion& model);

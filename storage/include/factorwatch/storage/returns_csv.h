@@ -62,6 +62,7 @@
 
 #include <cstddef>
 #include <string>
+#include <string_view>
 
 #include "factorwatch/engine/panel.h"
 
@@ -93,6 +94,10 @@ struct ReturnsFile {
 };
 
 ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions& options);
+
+// The same rules for a file's content already in memory (an HTTP upload): `name` stands
+// for the path in every message. A leading UTF-8 byte-order mark is skipped.
+ReturnsFile read_returns_text(std::string_view text, const std::string& name, const ReturnsReadOptions& options);
 
 // A file of returns: read_returns_file(path, {}).panel.
 engine::ReturnsPanel read_returns_csv(const std::string& path);

@@ -41,6 +41,20 @@ struct WindowSummary {
   bool stale = false;
 };
 
+// What tells one stored fit from another without reading its matrices: a key for the
+// daemon's response cache. A refit replaces the row, and its fitted_at and measured
+// total_seconds (and, after a correction, input_hash) differ from the old row's.
+struct WindowStamp {
+  std::string as_of;
+  long long row_id = 0;
+  std::string fitted_at;
+  std::string input_hash;
+  double total_seconds = 0;
+  bool stale = false;
+
+  std::string key() const;  // all of the above in one string
+};
+
 // Inserts or replaces the window (model version, as-of) in its own transaction.
 void save_window(Database& db, long model_version_id, const WindowRecord& window);
 
@@ -50,5 +64,10 @@ std::vector<WindowSummary> list_windows(Database& db, long model_version_id);
 // as_of "" means the latest window. nullopt when there is none.
 std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
                                         bool at_or_before = true);
+
+// The stamp of the window read_window would return, from one indexed row, no BLOBs.
+// Throws std::invalid_argument for a malformed as-of date.
+std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, const std::string& as_of,
+                                             bool at_or_before = true);
 
 }  // namespace factorwatch::storage

@@ -1,0 +1,45 @@
+#include "endpoint_helpers.h"
+
+#include "factorwatch/engine/caution.h"
+
+namespace factorwatch::server {
+
+std::variant<Format, ApiResponse> negotiate_format(const ApiRequest& r) {
+  if (auto format = r.parameter("format")) {
+    if (*format == "json") return Format::json;
+    if (*format == "csv") return Format::csv;
+    return problem(400, "query parameter 'format' = '" + *format + "': must be json or csv", r.path, "format");
+  }
+  // A client that names CSV but not JSON gets CSV (RFC 9110 content negotiation, kept
+  // simple: no quality values are weighed).
+  if (r.accept.find("text/csv") != std::string::npos && r.accept.find("application/json") == std::string::npos)
+    return Format::csv;
+  return Format::json;
+}
+
+ApiResponse json_response(const nlohmann::ordered_json& j, int status) {
+  ApiResponse r;
+  r.status = status;
+  r.content_type = "application/json";
+  r.set_body(j.dump());
+  return r;
+}
+
+ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::string& filename, bool risk_numbers) {
+  ApiResponse r;
+  r.content_type = "text/csv; charset=utf-8";
+  r.body = std::move(body);
+  r.headers.emplace_back("Content-Disposition", "inline; filename=\"" + filename + "\"");
+  if (risk_numbers) r.headers.emplace_back(kCautionHeader, engine::kCaution);
+  return r;
+}
+
+std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& r, const std::string& name) {
+  const auto value = r.parameter(name);
+  if (!value) return false;
+  if (*value == "true" || *value == "1" || *value == "yes" || value->empty()) return true;
+  if (*value == "false" || *value == "0" || *value == "no") return false;
+  return problem(400, "query parameter '" + name + "' = '" + *value + "': must be true or false", r.path, name);
+}
+
+}  // namespace factorwatch::server

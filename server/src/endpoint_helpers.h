@@ -1,0 +1,32 @@
+// What the endpoint handlers share: choosing JSON or CSV, building responses (with the
+// caution where risk numbers are shown) and reading typed query parameters.
+#pragma once
+
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+#include <variant>
+
+#include "api_message.h"
+
+namespace factorwatch::server {
+
+enum class Format { json, csv };
+
+// `format=json|csv` wins; else `Accept: text/csv` asks for CSV; else JSON. A bad
+// `format` value is a 400 naming the parameter.
+std::variant<Format, ApiResponse> negotiate_format(const ApiRequest& request);
+
+ApiResponse json_response(const nlohmann::ordered_json& j, int status = 200);
+
+// A CSV body with the caution in the Factorwatch-Caution header (the body's first line
+// carries it too) and a file name for browsers and spreadsheet programs.
+ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::string& filename, bool risk_numbers);
+
+// A true/false query parameter (true, false, 1, 0, yes, no); a 400 naming it otherwise.
+std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& request, const std::string& name);
+
+// The name of the response header that carries the caution on CSV responses.
+inline constexpr const char* kCautionHeader = "Factorwatch-Caution";
+
+}  // namespace factorwatch::server

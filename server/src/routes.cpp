@@ -1,0 +1,37 @@
+#include "routes.h"
+
+#include "data_endpoints.h"
+#include "model_endpoints.h"
+#include "service_endpoints.h"
+#include "window_endpoints.h"
+
+namespace factorwatch::server {
+
+const std::vector<Route>& api_routes() {
+  static const std::vector<Route> routes = {
+      {"GET", "/v1", false, true, "This list of routes", index_endpoint},
+      {"GET", "/v1/health", false, true, "Readiness: 200 once the database is open and migrated, else 503",
+       health_endpoint},
+      {"GET", "/v1/version", false, true, "Program, API and database schema versions", version_endpoint},
+      {"POST", "/v1/returns", true, false, "Upload a returns CSV (all or nothing, as factorwatch load)",
+       upload_returns_endpoint},
+      {"GET", "/v1/assets", false, false, "Stored assets with their first and last dates", list_assets_endpoint},
+      {"GET", "/v1/models", false, false, "Models with their latest window", list_models_endpoint},
+      {"GET", "/v1/models/{name}", false, false, "A model's configuration and window counts", show_model_endpoint},
+      {"PUT", "/v1/models/{name}", true, false, "Define a model or change it (a change is a new version)",
+       define_model_endpoint},
+      {"POST", "/v1/models/{name}/refresh", true, false, "Start a refresh as a background job",
+       start_refresh_endpoint},
+      {"GET", "/v1/models/{name}/windows", false, false, "A model's stored windows with fit statistics",
+       list_windows_endpoint},
+      {"GET", "/v1/models/{name}/exposures", false, false,
+       "Loadings, communality and specific variance per asset of a window", exposures_endpoint},
+      {"GET", "/v1/models/{name}/specific-risk", false, false, "Specific and total volatility per asset of a window",
+       specific_risk_endpoint},
+      {"GET", "/v1/jobs", false, false, "Background jobs since the daemon started", list_jobs_endpoint},
+      {"GET", "/v1/jobs/{id}", false, false, "One job: state, progress and summary", show_job_endpoint},
+  };
+  return routes;
+}
+
+}  // namespace factorwatch::server

@@ -1,0 +1,25 @@
+// The HTTP API's route table: the one place a route is declared. The daemon registers
+// these, GET /v1 lists them, and a test checks each one against docs/openapi.yaml.
+#pragma once
+
+#include <vector>
+
+#include "api_context.h"
+#include "api_message.h"
+
+namespace factorwatch::server {
+
+using Handler = ApiResponse (*)(const ApiContext&, const ApiRequest&);
+
+struct Route {
+  const char* method;   // GET, POST or PUT
+  const char* path;     // with {name} / {id} placeholders, each one path segment
+  bool write;           // needs the token always (reads only with --reads-need-token)
+  bool before_ready;    // answered while the database is still being opened
+  const char* summary;
+  Handler handler;
+};
+
+const std::vector<Route>& api_routes();
+
+}  // namespace factorwatch::server

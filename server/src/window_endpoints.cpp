@@ -1,0 +1,104 @@
+#include "window_endpoints.h"
+
+#include "endpoint_helpers.h"
+#include "exposures_view.h"
+#include "factorwatch/storage/models.h"
+#include "model_views.h"
+#include "specific_risk_view.h"
+#include "text_format.h"
+#include "window_query.h"
+
+namespace factorwatch::server {
+namespace {
+
+ApiResponse no_model(const ApiRequest& r, const std::string& name) {
+  return problem(404, "no model named '" + name + "' (GET /v1/models lists them)", r.path, "name");
+}
+
+std::vector<std::string> split_assets(const std::string& text) {
+  std::vector<std::string> out;
+  std::size_t start = 0;
+  while (start <= text.size()) {
+    std::size_t end = text.find(',', start);
+    if (end == std::string::npos) end = text.size();
+    const std::string item = text.substr(start, end - start);
+    const auto b = item.find_first_not_of(" \t");
+    const auto e = item.find_last_not_of(" \t");
+    if (b != std::string::npos) out.push_back(item.substr(b, e - b + 1));
+    start = end + 1;
+  }
+  return out;
+}
+
+using Render = std::string (*)(const SelectedWindow&, Format);
+
+// The path every one-window endpoint takes: pick the window from its stamp, serve a
+// cached body when the very same window was rendered before, else read and render.
+ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, const char* what, Render render) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  const Format f = std::get<Format>(format);
+  const std::string assets = r.parameter("assets").value_or("");
+  const WindowQuery query{r.path_values.at("name"), r.parameter("as_of").value_or(""), split_assets(assets)};
+  if (!assets.empty() && query.assets.empty())
+    return problem(400, "query parameter 'assets': no asset names (give them comma-separated)", r.path, "assets");
+
+  storage::Database& db = context.database();
+  const WindowPick pick = pick_window(db, query);
+  switch (pick.outcome) {
+    case WindowLookup::no_model: return no_model(r, query.model);
+    case WindowLookup::bad_as_of:
+      return problem(400, "query parameter 'as_of': " + pick.message, r.path, "as_of");
+    case WindowLookup::no_window:
+      return problem(404, pick.message + "; start one with POST /v1/models/" + query.model + "/refresh", r.path, "as_of");
+    case WindowLookup::found: break;
+  }
+  // Lists of assets are not cached: their reasons for missing assets follow the returns
+  // stored, which the window stamp does not cover.
+  const bool cacheable = query.assets.empty();
+  const std::string key = std::string(what) + (f == Format::csv ? "|csv|" : "|json|") +
+                          std::to_string(pick.model.id) + "|" + pick.stamp.key() + "|" + query.as_of;
+  std::shared_ptr<const std::string> body = cacheable ? context.cache->find(key) : nullptr;
+  if (!body) {
+    body = std::make_shared<const std::string>(render(read_picked_window(db, pick, query), f));
+    if (cacheable) context.cache->put(key, body);
+  }
+  if (f == Format::csv)
+    return csv_response(std::move(body), query.model + "-" + what + "-" + pick.stamp.as_of + ".csv", true);
+  ApiResponse response;
+  response.body = std::move(body);
+  return response;
+}
+
+std::string render_exposures(const SelectedWindow& s, Format f) {
+  return f == Format::csv ? exposures_csv(s) : exposures_json(s).dump();
+}
+
+std::string render_specific_risk(const SelectedWindow& s, Format f) {
+  return f == Format::csv ? specific_risk_csv(s) : specific_risk_json(s).dump();
+}
+
+}  // namespace
+
+ApiResponse exposures_endpoint(const ApiContext& context, const ApiRequest& r) {
+  return window_endpoint(context, r, "exposures", render_exposures);
+}
+
+ApiResponse specific_risk_endpoint(const ApiContext& context, const ApiRequest& r) {
+  return window_endpoint(context, r, "specific-risk", render_specific_risk);
+}
+
+ApiResponse list_windows_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  const std::string& name = r.path_values.at("name");
+  storage::Database& db = context.database();
+  const auto model = storage::find_model(db, name);
+  if (!model) return no_model(r, name);
+  const auto windows = storage::list_windows(db, model->id);
+  if (std::get<Format>(format) == Format::csv)
+    return csv_response(std::make_shared<const std::string>(windows_csv(windows)), name + "-windows.csv", true);
+  return json_response(windows_json(*model, windows));
+}
+
+}  // namespace factorwatch::server

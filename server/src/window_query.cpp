@@ -1,0 +1,77 @@
+#include "window_query.h"
+
+#include <stdexcept>
+#include <unordered_map>
+
+#include "factorwatch/storage/assets.h"
+
+namespace factorwatch::server {
+
+std::string factor_name(Eigen::Index j) { return "f" + std::to_string(j + 1); }
+
+nlohmann::ordered_json missing_json(const SelectedWindow& s) {
+  nlohmann::ordered_json missing = nlohmann::ordered_json::array();
+  for (const auto& m : s.missing) missing.push_back({{"asset", m.asset}, {"reason", m.reason}});
+  return missing;
+}
+
+WindowPick pick_window(storage::Database& db, const WindowQuery& q) {
+  WindowPick pick;
+  const auto model = storage::find_model(db, q.model);
+  if (!model) {
+    pick.outcome = WindowLookup::no_model;
+    pick.message = "no model named '" + q.model + "'";
+    return pick;
+  }
+  pick.model = *model;
+  std::optional<storage::WindowStamp> stamp;
+  try {
+    stamp = storage::find_window_stamp(db, model->id, q.as_of, true);
+  } catch (const std::invalid_argument& e) {
+    pick.outcome = WindowLookup::bad_as_of;
+    pick.message = e.what();
+    return pick;
+  }
+  if (!stamp) {
+    pick.outcome = WindowLookup::no_window;
+    pick.message = "model '" + q.model + "' has no window" + (q.as_of.empty() ? "" : " on or before " + q.as_of) + " yet";
+    return pick;
+  }
+  pick.outcome = WindowLookup::found;
+  pick.stamp = std::move(*stamp);
+  return pick;
+}
+
+SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick, const WindowQuery& q) {
+  SelectedWindow s;
+  s.model = pick.model;
+  auto window = storage::read_window(db, pick.model.id, pick.stamp.as_of, false);
+  if (!window) throw std::runtime_error("the window of " + pick.stamp.as_of + " was replaced while being read; ask again");
+  s.window = std::move(*window);
+  if (!q.as_of.empty() && s.window.as_of != q.as_of)
+    s.note = "no window ends on " + q.as_of + "; showing the latest before it, as of " + s.window.as_of;
+  const engine::FactorFit& fit = s.window.fit;
+  if (q.assets.empty()) {
+    s.rows.resize(fit.assets.size());
+    for (std::size_t i = 0; i < fit.assets.size(); ++i) s.rows[i] = i;
+    return s;
+  }
+  std::unordered_map<std::string, std::size_t> row_of;
+  for (std::size_t i = 0; i < fit.assets.size(); ++i) row_of.emplace(fit.assets[i], i);
+  std::unordered_map<std::string, std::string> excluded;
+  for (const auto& e : fit.excluded) excluded.emplace(e.asset, e.reason);
+  for (const std::string& name : q.assets) {
+    if (auto r = row_of.find(name); r != row_of.end()) {
+      s.rows.push_back(r->second);
+    } else if (auto e = excluded.find(name); e != excluded.end()) {
+      s.missing.push_back({name, "excluded from the fit: " + e->second});
+    } else if (storage::has_asset(db, name)) {
+      s.missing.push_back({name, "no returns in this window, or outside the model's universe"});
+    } else {
+      s.missing.push_back({name, "unknown asset (no returns stored)"});
+    }
+  }
+  return s;
+}
+
+}  // namespace factorwatch::server

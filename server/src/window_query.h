@@ -1,0 +1,63 @@
+// Finding the window a one-window request is about, for the CLI and the daemon alike:
+// the model, the window (the latest, or the latest at or before an as-of date) and the
+// assets (all, or a list in the order given, with a reason for each one the window does
+// not hold). Failures are values with a plain message; each surface adds its own hint.
+#pragma once
+
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "factorwatch/storage/database.h"
+#include "factorwatch/storage/models.h"
+#include "factorwatch/storage/windows.h"
+
+namespace factorwatch::server {
+
+struct WindowQuery {
+  std::string model;
+  std::string as_of;                // "" = the latest window
+  std::vector<std::string> assets;  // empty = every fitted asset
+};
+
+enum class WindowLookup {
+  found,
+  no_model,   // no model by that name
+  bad_as_of,  // the as-of date is not a date
+  no_window,  // the model has no window (at or before the date) yet
+};
+
+// Which window, without reading its matrices: enough to key a cache.
+struct WindowPick {
+  WindowLookup outcome = WindowLookup::no_model;
+  std::string message;  // why, when not found
+  storage::ModelVersion model;
+  storage::WindowStamp stamp;
+};
+
+struct MissingAsset {
+  std::string asset;
+  std::string reason;
+};
+
+struct SelectedWindow {
+  storage::ModelVersion model;
+  storage::WindowRecord window;
+  std::vector<std::size_t> rows;  // into window.fit.assets, in output order
+  std::vector<MissingAsset> missing;
+  std::string note;               // e.g. the as-of date asked for has no window of its own
+};
+
+WindowPick pick_window(storage::Database& db, const WindowQuery& query);
+
+// Reads the picked window and selects the assets. Throws std::runtime_error when the
+// window vanished in between (replaced by a refit under a new model version).
+SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick, const WindowQuery& query);
+
+// JSON list of the assets asked for that the window does not hold, with the reason.
+nlohmann::ordered_json missing_json(const SelectedWindow& s);
+
+// "f1", "f2", ...
+std::string factor_name(Eigen::Index j);
+
+}  // namespace factorwatch::server
