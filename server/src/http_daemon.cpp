@@ -204,6 +204,14 @@ void Daemon::configure() {
         return httplib::Server::HandlerResponse::Handled;
       }
       send(problem(404, "no such route: " + req.method + " " + req.path + " (GET /v1 lists the routes)", req.path), res);
+    } else if (res.status == 413 && req.get_header_value("Content-Type") == "application/x-www-form-urlencoded") {
+      // The HTTP library caps form-encoded bodies at 8 KiB whatever the upload limit;
+      // curl --data-binary sends that type unless told otherwise.
+      send(problem(413,
+                   "header 'Content-Type': a form-encoded body is limited to 8 KiB; send a returns file as "
+                   "'Content-Type: text/csv' (curl: -H 'Content-Type: text/csv' --data-binary @FILE)",
+                   req.path, "Content-Type"),
+           res);
     } else if (res.status == 413) {
       send(problem(413,
                    "request body larger than the limit of " + std::to_string(options_.max_upload_mb) +

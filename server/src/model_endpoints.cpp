@@ -162,7 +162,7 @@ ApiResponse show_job_endpoint(const ApiContext& context, const ApiRequest& r) {
     return problem(400, "job id '" + text + "': must be a whole number", r.path, "id");
   }
   const auto job = context.jobs->job_json(id);
-  if (!job) return problem(404, "no job " + text + " (GET /v1/jobs lists this daemon's jobs)", r.path, "id");
+  if (!job) return problem(404, "job id " + text + ": no such job (GET /v1/jobs lists this daemon's jobs)", r.path, "id");
   return json_response(*job);
 }
 

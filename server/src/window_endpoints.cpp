@@ -50,7 +50,10 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
     case WindowLookup::bad_as_of:
       return problem(400, "query parameter 'as_of': " + pick.message, r.path, "as_of");
     case WindowLookup::no_window:
-      return problem(404, pick.message + "; start one with POST /v1/models/" + query.model + "/refresh", r.path, "as_of");
+      return problem(404,
+                     (query.as_of.empty() ? "" : "query parameter 'as_of': ") + pick.message +
+                         "; start one with POST /v1/models/" + query.model + "/refresh",
+                     r.path, query.as_of.empty() ? "" : "as_of");
     case WindowLookup::found: break;
   }
   // Lists of assets are not cached: their reasons for missing assets follow the returns

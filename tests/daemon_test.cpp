@@ -1,0 +1,401 @@
+// The HTTP daemon end to end: the real `factorwatch serve` binary on a free loopback port
+// with a temporary data directory, driven by real HTTP clients (curl, and the Python
+// example of docs/examples). Returns are planted-structure data (invented, for tests).
+#include <gtest/gtest.h>
+#include <sys/stat.h>
+
+#include <atomic>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <regex>
+#include <set>
+#include <sstream>
+#include <thread>
+
+#include "daemon_fixture.h"
+#include "factorwatch/engine/caution.h"
+#include "simulated_model.h"
+#include "storage_fixtures.h"
+
+namespace {
+
+namespace fw = factorwatch::testing;
+using nlohmann::json;
+
+// 40 assets x `dates` business days from a 2-factor planted model, as a long CSV.
+std::string write_returns(const fw::TempDir& dir, int dates, const std::string& name = "returns.csv") {
+  auto planted = fw::simulate_planted_model(dates, 40, 2, 20261202u);
+  planted.panel.dates = fw::business_dates(dates);
+  const std::string path = dir.file(name);
+  fw::write_long_csv(path, planted.panel);
+  return path;
+}
+
+std::string token_of(const std::string& data_dir) {
+  std::string t = fw::run_factorwatch(data_dir, "token").out;
+  while (!t.empty() && (t.back() == '\n' || t.back() == ' ')) t.pop_back();
+  return t;
+}
+
+std::string bearer(const std::string& token) { return "-H 'Authorization: Bearer " + token + "'"; }
+
+// Upload with the token, define a model, refresh it with the CLI (fast and synchronous).
+void load_and_fit(const fw::TempDir& dir, const fw::DaemonProcess& daemon, const std::string& token, int dates,
+                  const std::string& model_json) {
+  const std::string file = write_returns(dir, dates);
+  auto up = fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" + file + "'",
+                     daemon.url("/v1/returns?file=returns.csv"));
+  ASSERT_EQ(up.status, 200) << up.body;
+  auto put = fw::curl(dir.path(), bearer(token) + " -X PUT -d '" + model_json + "'", daemon.url("/v1/models/m"));
+  ASSERT_EQ(put.status, 201) << put.body;
+  ASSERT_EQ(fw::run_factorwatch(dir.path(), "refresh m").status, 0);
+}
+
+TEST(Daemon, BecomesReadyAndPrintsAddressTokenCommandAndAnExample) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_NE(daemon.port(), 0) << daemon.log();
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const json health = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/health")).body);
+  EXPECT_EQ(health["status"], "ready");
+  EXPECT_EQ(health["schema_version"], 3);
+  const json version = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/version")).body);
+  EXPECT_EQ(version["api"], "v1");
+  const std::string banner = daemon.banner();
+  EXPECT_NE(banner.find("factorwatch token --data"), std::string::npos) << banner;
+  EXPECT_NE(banner.find("try:     curl 'http://127.0.0.1:"), std::string::npos) << banner;
+  EXPECT_NE(banner.find(factorwatch::engine::kCaution), std::string::npos);
+  // The token file was created owner-only on this first start.
+  struct stat info {};
+  ASSERT_EQ(::stat(dir.file("access-token").c_str(), &info), 0);
+  EXPECT_EQ(info.st_mode & 0777, 0600u);
+  EXPECT_EQ(token_of(dir.path()).size(), 64u);
+  EXPECT_EQ(daemon.stop(), 0);
+  // One log line per request: method, path, status, milliseconds.
+  EXPECT_TRUE(std::regex_search(daemon.log(), std::regex(R"(GET /v1/version 200 [0-9.]+ ms)"))) << daemon.log();
+}
+
+// Every route the server has (GET /v1 lists its route table) appears in
+// docs/openapi.yaml with its method, and the document lists no route the server lacks.
+TEST(Daemon, EveryRouteIsInTheOpenApiDocument) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const json index = json::parse(fw::curl(dir.path(), "", daemon.url("/v1")).body);
+  std::set<std::string> served;
+  for (const auto& r : index["routes"]) served.insert(r["method"].get<std::string>() + " " + r["path"].get<std::string>());
+  ASSERT_GE(served.size(), 14u);
+
+  std::ifstream yaml(std::string(FACTORWATCH_SOURCE_DIR) + "/docs/openapi.yaml");
+  ASSERT_TRUE(yaml.good());
+  std::set<std::string> documented;
+  const std::regex path_line(R"(^  (/v1[^:\s]*):\s*$)"), method_line(R"(^    (get|put|post|patch|delete):\s*$)");
+  std::string line, path;
+  bool in_paths = false;
+  while (std::getline(yaml, line)) {
+    if (line == "paths:") in_paths = true;
+    else if (!line.empty() && line[0] != ' ' && line[0] != '#') in_paths = false;
+    std::smatch m;
+    if (!in_paths) continue;
+    if (std::regex_match(line, m, path_line)) path = m[1];
+    else if (std::regex_match(line, m, method_line)) {
+      std::string method = m[1];
+      for (char& c : method) c = static_cast<char>(std::toupper(static_cast<unsigned char>(c)));
+      documented.insert(method + " " + path);
+    }
+  }
+  for (const auto& r : served) EXPECT_TRUE(documented.count(r)) << r << " is served but not in docs/openapi.yaml";
+  for (const auto& r : documented) EXPECT_TRUE(served.count(r)) << r << " is documented but not served";
+}
+
+TEST(Daemon, WritesNeedTheTokenAndAWrongTokenChangesNothing) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  const std::string file = write_returns(dir, 80);
+  const std::string upload = "-H 'Content-Type: text/csv' --data-binary @'" + file + "'";
+
+  for (const std::string& auth : {std::string(), bearer("0123456789abcdef0123456789abcdef0123456789abcdef0123456789abcdef"),
+                                  bearer(token.substr(0, 63) + "x"), std::string("-H 'Authorization: Basic abc'")}) {
+    auto r = fw::curl(dir.path(), auth + " " + upload, daemon.url("/v1/returns"));
+    EXPECT_EQ(r.status, 401) << auth;
+    EXPECT_EQ(r.header("content-type"), "application/problem+json");
+    EXPECT_EQ(r.header("www-authenticate"), "Bearer realm=\"factorwatch\"");
+    EXPECT_EQ(json::parse(r.body)["field"], "Authorization");
+    EXPECT_EQ(fw::curl(dir.path(), auth + " -X PUT -d '{}'", daemon.url("/v1/models/m")).status, 401);
+    EXPECT_EQ(fw::curl(dir.path(), auth + " -X POST -d ''", daemon.url("/v1/models/m/refresh")).status, 401);
+  }
+  // Nothing changed: no assets, no models, no ingest run.
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/assets")).body)["assets"].size(), 0u);
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models")).body)["models"].size(), 0u);
+
+  // The right token (scheme name in any case, RFC 9110 section 11.1) writes.
+  auto ok = fw::curl(dir.path(), "-H 'Authorization: bearer " + token + "' " + upload, daemon.url("/v1/returns"));
+  EXPECT_EQ(ok.status, 200) << ok.body;
+  EXPECT_EQ(json::parse(ok.body)["assets"], 40);
+
+  // A renewed token takes effect without a restart; the old one stops working.
+  const std::string renewed = fw::run_factorwatch(dir.path(), "token --renew").out.substr(0, 64);
+  EXPECT_NE(renewed, token);
+  EXPECT_EQ(fw::curl(dir.path(), bearer(token) + " -X PUT -d '{}'", daemon.url("/v1/models/m")).status, 401);
+  EXPECT_EQ(fw::curl(dir.path(), bearer(renewed) + " -X PUT -d '{}'", daemon.url("/v1/models/m")).status, 201);
+}
+
+TEST(Daemon, ReadsNeedTheTokenWhenAskedButHealthDoesNot) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path(), "--reads-need-token");
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  EXPECT_EQ(fw::curl(dir.path(), "", daemon.url("/v1/models")).status, 401);
+  EXPECT_EQ(fw::curl(dir.path(), "", daemon.url("/v1/assets?format=csv")).status, 401);
+  EXPECT_EQ(fw::curl(dir.path(), bearer(token), daemon.url("/v1/models")).status, 200);
+  EXPECT_EQ(fw::curl(dir.path(), "", daemon.url("/v1/health")).status, 200);
+  EXPECT_EQ(fw::curl(dir.path(), "", daemon.url("/v1/version")).status, 200);
+}
+
+// The same files the CLI rejects, with the same messages, and the database file and its
+// write-ahead log byte for byte as they were.
+TEST(Daemon, RejectedUploadsGiveTheLoadMessageAndLeaveTheDatabaseUnchanged) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  load_and_fit(dir, daemon, token, 120, R"({"factors":2,"window":100,"step":5,"method":"pca"})");
+  const std::string db_before = fw::read_bytes(dir.database()), wal_before = fw::read_bytes(dir.database() + "-wal");
+
+  const std::string catalogue = FACTORWATCH_CATALOGUE_DIR;
+  std::ifstream list(catalogue + "/catalogue.csv");
+  std::string line;
+  int checked = 0;
+  while (std::getline(list, line)) {
+    if (line.empty() || line[0] == '#' || line.rfind("file,", 0) == 0) continue;
+    std::stringstream fields(line);
+    std::string name, values;
+    std::getline(fields, name, ',');
+    std::getline(fields, values, ',');
+    if (values != "returns") continue;
+    const std::string path = catalogue + "/" + name;
+    auto r = fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" + path + "'",
+                      daemon.url("/v1/returns?file=" + name));
+    ASSERT_EQ(r.status, 422) << name << ": " << r.body;
+    EXPECT_EQ(r.header("content-type"), "application/problem+json");
+    const json p = json::parse(r.body);
+    EXPECT_EQ(p["database"], "unchanged");
+    // `factorwatch load` on the same file (reached by the same name) prints the same message.
+    const auto cli = fw::run_factorwatch(dir.path(), "load '" + path + "'");
+    EXPECT_EQ(cli.status, 2) << name;
+    const std::string detail = p["detail"];
+    const std::string cli_message = detail.substr(detail.find(':'));  // the path differs: upload name vs file path
+    EXPECT_NE(cli.err.find(cli_message), std::string::npos) << name << "\nHTTP: " << detail << "\nCLI:  " << cli.err;
+    ++checked;
+  }
+  EXPECT_GE(checked, 30);
+  EXPECT_EQ(fw::read_bytes(dir.database()), db_before);
+  EXPECT_EQ(fw::read_bytes(dir.database() + "-wal"), wal_before);
+}
+
+TEST(Daemon, BodiesOverTheLimitAre413AndChangeNothing) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path(), "--max-upload-mb 1");
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string file = write_returns(dir, 1200);  // about 2.5 MB
+  auto r = fw::curl(dir.path(), bearer(token_of(dir.path())) + " -H 'Content-Type: text/csv' --data-binary @'" + file + "'",
+                    daemon.url("/v1/returns"));
+  EXPECT_EQ(r.status, 413);
+  EXPECT_EQ(r.header("content-type"), "application/problem+json");
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/assets")).body)["assets"].size(), 0u);
+}
+
+// The daemon's CSV is the CLI's CSV byte for byte; the caution rides in a header and in
+// the first line; JSON carries it as its first member.
+TEST(Daemon, CsvAndJsonMatchTheCommandLineAndCarryTheCaution) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  load_and_fit(dir, daemon, token_of(dir.path()), 150, R"({"factors":2,"window":120,"step":10,"method":"ml"})");
+  const std::string caution = factorwatch::engine::kCaution;
+  for (const std::string what : {"exposures", "specific-risk", "windows"}) {
+    const auto csv = fw::curl(dir.path(), "", daemon.url("/v1/models/m/" + what + "?format=csv"));
+    ASSERT_EQ(csv.status, 200) << csv.body;
+    EXPECT_EQ(csv.header("content-type"), "text/csv; charset=utf-8");
+    EXPECT_EQ(csv.header("factorwatch-caution"), caution);
+    EXPECT_EQ(csv.body.rfind("# caution: " + caution + "\n", 0), 0u);
+    EXPECT_EQ(csv.body, fw::run_factorwatch(dir.path(), what + " m --format csv").out) << what;
+    // Accept: text/csv asks for the same.
+    EXPECT_EQ(fw::curl(dir.path(), "-H 'Accept: text/csv'", daemon.url("/v1/models/m/" + what)).body, csv.body);
+    const auto js = fw::curl(dir.path(), "", daemon.url("/v1/models/m/" + what));
+    EXPECT_EQ(js.header("content-type"), "application/json");
+    const json j = json::parse(js.body);
+    EXPECT_EQ(nlohmann::ordered_json::parse(js.body).begin().key(), "caution");
+    EXPECT_EQ(j["caution"], caution);
+    EXPECT_EQ(j, json::parse(fw::run_factorwatch(dir.path(), what + " m --format json").out)) << what;
+  }
+  // A list of assets, in the order given, with a reason for the ones not in the window.
+  const json some = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m/exposures?assets=P1003,P1001,NOPE")).body);
+  ASSERT_EQ(some["assets"].size(), 2u);
+  EXPECT_EQ(some["assets"][0]["asset"], "P1003");
+  EXPECT_EQ(some["not_in_window"][0]["asset"], "NOPE");
+  // An earlier as-of date gives the window at or before it, and says so.
+  const json windows = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m/windows")).body)["windows"];
+  ASSERT_GE(windows.size(), 3u);
+  const json older = json::parse(
+      fw::curl(dir.path(), "", daemon.url("/v1/models/m/exposures?as_of=" + windows[1]["as_of"].get<std::string>())).body);
+  EXPECT_EQ(older["as_of"], windows[1]["as_of"]);
+}
+
+TEST(Daemon, ErrorsAreProblemDetailsNamingTheField) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  load_and_fit(dir, daemon, token, 120, R"({"factors":2,"window":100,"step":20,"method":"pca"})");
+  struct Case {
+    std::string arguments, path;
+    int status;
+    std::string field;
+  };
+  const std::vector<Case> cases = {
+      {"", "/v1/models/m/exposures?as_of=2021-02-30", 400, "as_of"},
+      {"", "/v1/models/m/exposures?format=xml", 400, "format"},
+      {"", "/v1/models/nope/exposures", 404, "name"},
+      {"", "/v1/models/m/exposures?as_of=1999-01-01", 404, "as_of"},
+      {"", "/v1/jobs/77", 404, "id"},
+      {"", "/v1/nothing-here", 404, ""},
+      {"-X DELETE", "/v1/models/m", 405, ""},
+      {bearer(token) + " -X PUT -d '{\"factors\":\"two\"}'", "/v1/models/m", 400, "factors"},
+      {bearer(token) + " -X PUT -d '{\"min_coverage\":3}'", "/v1/models/m", 400, "min_coverage"},
+      {bearer(token) + " -X PUT -d '{\"colour\":1}'", "/v1/models/m", 400, "colour"},
+      {bearer(token) + " -X PUT -d 'not json'", "/v1/models/m", 400, "body"},
+      {bearer(token) + " --data-binary @'" + write_returns(dir, 300, "form.csv") + "'", "/v1/returns", 413,
+       "Content-Type"},
+      {bearer(token) + " --data-binary x", "/v1/returns?prices=maybe", 400, "prices"},
+  };
+  for (const Case& c : cases) {
+    const auto r = fw::curl(dir.path(), c.arguments, daemon.url(c.path));
+    EXPECT_EQ(r.status, c.status) << c.path << " " << r.body;
+    EXPECT_EQ(r.header("content-type"), "application/problem+json") << c.path;
+    const json p = json::parse(r.body);
+    EXPECT_EQ(p["status"], c.status);
+    EXPECT_EQ(p["type"], "about:blank");
+    EXPECT_FALSE(p["detail"].get<std::string>().empty());
+    if (!c.field.empty()) {
+      EXPECT_EQ(p["field"], c.field) << c.path << " " << r.body;
+      EXPECT_NE(p["detail"].get<std::string>().find(c.field), std::string::npos) << r.body;
+    }
+  }
+}
+
+// Readers never wait for the refresh: while a background refresh writes window after
+// window, parallel clients read exposures and the window list, all answered in full.
+TEST(Daemon, ReadsAreAnsweredWhileARefreshRuns) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  load_and_fit(dir, daemon, token, 140, R"({"factors":2,"window":100,"step":20,"method":"pca"})");
+  const std::string more = write_returns(dir, 700, "more.csv");
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" + more + "'", daemon.url("/v1/returns")).status, 200);
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -X PUT -d '{\"factors\":2,\"window\":100,\"step\":1,\"method\":\"ml\"}'",
+                     daemon.url("/v1/models/busy")).status,
+            201);
+  const auto started = fw::curl(dir.path(), bearer(token) + " -X POST -d ''", daemon.url("/v1/models/busy/refresh"));
+  ASSERT_EQ(started.status, 202) << started.body;
+  const std::string job_path = started.header("location");
+  ASSERT_EQ(job_path.rfind("/v1/jobs/", 0), 0u);
+
+  std::atomic<int> answered{0}, wrong{0}, during{0};
+  auto reader = [&](int seed) {
+    for (int i = 0; i < 15; ++i) {
+      const json job = json::parse(fw::curl(dir.path(), "", daemon.url(job_path)).body);
+      if (job["state"] == "running") during++;
+      const bool csv = (i + seed) % 2 == 0;
+      const auto r = fw::curl(dir.path(), "", daemon.url(std::string("/v1/models/m/exposures") + (csv ? "?format=csv" : "")));
+      const bool complete = r.status == 200 && (csv ? r.body.find("\nP1039,") != std::string::npos
+                                                    : json::parse(r.body)["assets"].size() == 40u);
+      (complete ? answered : wrong)++;
+      const auto w = fw::curl(dir.path(), "", daemon.url("/v1/models/busy/windows"));
+      (w.status == 200 ? answered : wrong)++;
+    }
+  };
+  std::vector<std::thread> readers;
+  for (int t = 0; t < 4; ++t) readers.emplace_back(reader, t);
+  for (auto& t : readers) t.join();
+  EXPECT_EQ(wrong, 0);
+  EXPECT_EQ(answered, 4 * 15 * 2);
+  EXPECT_GT(during, 0) << "the refresh finished before the reads: make it longer";
+
+  // Submitting again while it runs returns the same job; then it finishes.
+  json job;
+  const auto deadline = std::chrono::steady_clock::now() + std::chrono::seconds(120);
+  do {
+    std::this_thread::sleep_for(std::chrono::milliseconds(200));
+    job = json::parse(fw::curl(dir.path(), "", daemon.url(job_path)).body);
+  } while (job["state"] == "running" && std::chrono::steady_clock::now() < deadline);
+  EXPECT_EQ(job["state"], "finished") << job.dump();
+  EXPECT_EQ(job["summary"]["fitted"], job["progress"]["total"]);
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/busy/windows")).body)["windows"].size(),
+            job["summary"]["grid_windows"].get<std::size_t>());
+}
+
+// SIGTERM during a refresh: the daemon exits 0, the window being fitted is written whole,
+// and a later refresh carries on from the windows stored.
+TEST(Daemon, StopsCleanlyDuringARefresh) {
+  fw::TempDir dir;
+  auto daemon = std::make_unique<fw::DaemonProcess>(dir.path());
+  ASSERT_TRUE(daemon->ready()) << daemon->log();
+  const std::string token = token_of(dir.path());
+  const std::string file = write_returns(dir, 800);
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" + file + "'", daemon->url("/v1/returns")).status, 200);
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -X PUT -d '{\"factors\":2,\"window\":100,\"step\":1,\"method\":\"ml\"}'",
+                     daemon->url("/v1/models/m")).status,
+            201);
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -X POST -d ''", daemon->url("/v1/models/m/refresh")).status, 202);
+  json job;
+  for (int i = 0; i < 200; ++i) {
+    job = json::parse(fw::curl(dir.path(), "", daemon->url("/v1/jobs/1")).body);
+    if (job["progress"]["done"].get<int>() >= 5) break;
+    std::this_thread::sleep_for(std::chrono::milliseconds(20));
+  }
+  ASSERT_EQ(job["state"], "running") << job.dump();
+  EXPECT_EQ(daemon->stop(), 0) << daemon->log();
+  EXPECT_NE(daemon->log().find("SIGTERM: stopping"), std::string::npos);
+
+  const auto windows = json::parse(fw::run_factorwatch(dir.path(), "windows m --format json").out)["windows"];
+  const std::size_t stored = windows.size();
+  EXPECT_GT(stored, 0u);
+  EXPECT_LT(stored, 701u);
+  const auto resumed = fw::run_factorwatch(dir.path(), "refresh m");
+  ASSERT_EQ(resumed.status, 0) << resumed.err;
+  EXPECT_NE(resumed.out.find(std::to_string(stored) + " already current"), std::string::npos) << resumed.out;
+  EXPECT_EQ(json::parse(fw::run_factorwatch(dir.path(), "windows m --format json").out)["windows"].size(), 701u);
+}
+
+// The stdlib-only Python example: upload, define, refresh, print the exposure table.
+TEST(Daemon, PythonExampleUploadsRefreshesAndPrintsExposures) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string file = write_returns(dir, 130);
+  const std::string command = "python3 '" + std::string(FACTORWATCH_SOURCE_DIR) +
+                              "/docs/examples/refresh_and_show.py' --url " + daemon.url("") + " --token-file '" +
+                              dir.file("access-token") + "' --model ex --file '" + file +
+                              "' --factors 2 --window 120 --limit 0 2>&1";
+  std::string out;
+  FILE* pipe = ::popen(command.c_str(), "r");
+  ASSERT_NE(pipe, nullptr);
+  char buffer[4096];
+  std::size_t n = 0;
+  while ((n = std::fread(buffer, 1, sizeof buffer, pipe)) > 0) out.append(buffer, n);
+  const int status = ::pclose(pipe);
+  ASSERT_TRUE(WIFEXITED(status));
+  EXPECT_EQ(WEXITSTATUS(status), 0) << out;
+  EXPECT_NE(out.find(factorwatch::engine::kCaution), std::string::npos) << out;
+  for (int i = 0; i < 40; ++i) EXPECT_NE(out.find("P" + std::to_string(1000 + i)), std::string::npos) << out;
+  // What it printed is the model the daemon stored: the CLI sees the same window.
+  const json stored = json::parse(fw::run_factorwatch(dir.path(), "exposures ex --format json").out);
+  EXPECT_EQ(stored["assets"].size(), 40u);
+  EXPECT_NE(out.find(stored["as_of"].get<std::string>()), std::string::npos) << out;
+}
+
+}  // namespace
