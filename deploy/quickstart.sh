@@ -1,14 +1,21 @@
 #!/usr/bin/env bash
 # The main job on the demo universe, from a fresh Debian/Ubuntu machine: install the
 # dependencies, build, generate the fictional demo universe, load it into the database,
-# define a demo model, refresh it (fit its rolling windows) and print the latest
-# exposures. Run it again and it finds everything current: the load changes nothing and
-# the refresh fits nothing.
+# define a demo model, refresh it (fit its rolling windows), print the latest exposures,
+# then start the HTTP daemon on it (Ctrl-C or SIGTERM stops it). Run it again and it
+# finds everything current: the load changes nothing and the refresh fits nothing.
+#
+#   ./deploy/quickstart.sh [--no-serve] [factorwatch serve options, e.g. --port 9000]
 #
 # The database goes to the data directory: $FACTORWATCH_DATA if set, else
 # ~/.local/share/factorwatch (see README.md).
 set -euo pipefail
 cd "$(dirname "$0")/.."
+serve=1
+serve_options=()
+for argument in "$@"; do
+  if [ "$argument" = --no-serve ]; then serve=0; else serve_options+=("$argument"); fi
+done
 ./deploy/install-deps.sh
 ./deploy/build.sh -DFACTORWATCH_TESTS=OFF -DFACTORWATCH_BENCH=OFF
 if [ ! -f demo-universe/out/returns_long.csv ]; then
@@ -20,4 +27,9 @@ fw=./build/server/factorwatch
 # from June 2023 on (about 670 windows, spanning the demo's planted change of August 2023).
 "$fw" model set demo --method ml --factors 4 --window 504 --step 1 --first-as-of 2023-06-01
 "$fw" refresh demo
-"$fw" exposures demo --limit 12 "$@"
+"$fw" exposures demo --limit 12
+if [ "$serve" = 1 ]; then
+  echo
+  echo "Starting the HTTP daemon on this database (Ctrl-C stops it; docs/api.md lists the routes)."
+  exec "$fw" serve "${serve_options[@]}"
+fi

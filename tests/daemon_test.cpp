@@ -62,7 +62,7 @@ TEST(Daemon, BecomesReadyAndPrintsAddressTokenCommandAndAnExample) {
   const json version = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/version")).body);
   EXPECT_EQ(version["api"], "v1");
   const std::string banner = daemon.banner();
-  EXPECT_NE(banner.find("factorwatch token --data"), std::string::npos) << banner;
+  EXPECT_NE(banner.find(std::string(FACTORWATCH_COMMAND) + " token --data"), std::string::npos) << banner;
   EXPECT_NE(banner.find("try:     curl 'http://127.0.0.1:"), std::string::npos) << banner;
   EXPECT_NE(banner.find(factorwatch::engine::kCaution), std::string::npos);
   // The token file was created owner-only on this first start.

@@ -273,7 +273,7 @@ void Daemon::print_banner(int port) {
   } catch (const std::exception&) {
   }
   const std::string token_command =
-      "factorwatch token" + (options_.data_dir.empty() ? std::string() : " --data " + options_.data_dir);
+      options_.program + " token" + (options_.data_dir.empty() ? std::string() : " --data " + options_.data_dir);
   std::printf("ready:   %s\n", base.c_str());
   std::printf("data:    %s\n", context_.database_path.c_str());
   std::printf("token:   %s   (writes need 'Authorization: Bearer <token>'%s)\n", token_command.c_str(),

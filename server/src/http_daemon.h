@@ -17,6 +17,7 @@ struct DaemonOptions {
   int read_timeout_seconds = 30;     // per socket read while receiving a request
   int write_timeout_seconds = 30;    // per socket write while sending a response
   std::size_t cache_mb = 256;        // rendered response bodies kept in memory, MiB
+  std::string program = "factorwatch";  // as invoked, for the commands the banner suggests
 
   // True when usable; otherwise *error names the option and the rule.
   bool IsValid(std::string* error) const;

@@ -27,6 +27,7 @@ int main(int argc, char** argv) {
   WindowsArguments windows_arguments;
   WindowArguments exposures_arguments, specific_arguments;
   DaemonOptions serve_options;
+  serve_options.program = argv[0];
   TokenArguments token_arguments;
   CLI::App* load = add_load_command(app, load_arguments);
   CLI::App* model = add_model_command(app, model_arguments);

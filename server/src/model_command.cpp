@@ -83,17 +83,15 @@ int run_show(const ModelArguments& a, storage::Database& db) {
     std::fprintf(stderr, "factorwatch model show: no model named '%s'\n", a.name.c_str());
     return kExitBadInput;
   }
-  const auto windows = storage::list_windows(db, m->id);
+  const storage::WindowCounts counts = storage::count_windows(db, m->id);
   if (a.format == "json") {
-    std::cout << model_json(*m, windows).dump(2) << "\n";
+    std::cout << model_json(*m, counts).dump(2) << "\n";
     return kExitOk;
   }
-  std::size_t stale = 0;
-  for (const auto& w : windows) stale += w.stale;
   std::printf("model %s, version %d (since %s, configuration %s)\n%s", m->name.c_str(), m->version,
               m->created_at.c_str(), m->configuration_hash.c_str(), describe(m->config).c_str());
-  std::printf("  windows:       %zu stored (%zu stale)%s%s\n", windows.size(), stale,
-              windows.empty() ? "" : ", latest as of ", windows.empty() ? "" : windows.back().as_of.c_str());
+  std::printf("  windows:       %zu stored (%zu stale)%s%s\n", counts.windows, counts.stale,
+              counts.windows == 0 ? "" : ", latest as of ", counts.latest_as_of.c_str());
   return kExitOk;
 }
 
@@ -106,10 +104,10 @@ int run_list(storage::Database& db) {
   std::printf("%-20s %7s %-14s %7s %6s %5s %8s  %s\n", "model", "version", "method", "factors", "window", "step",
               "windows", "latest as-of");
   for (const auto& m : models) {
-    const auto windows = storage::list_windows(db, m.id);
+    const storage::WindowCounts counts = storage::count_windows(db, m.id);
     std::printf("%-20s %7d %-14s %7d %6d %5d %8zu  %s\n", m.name.c_str(), m.version, engine::to_string(m.config.method),
-                m.config.factors, m.config.window, m.config.step, windows.size(),
-                windows.empty() ? "-" : windows.back().as_of.c_str());
+                m.config.factors, m.config.window, m.config.step, counts.windows,
+                counts.windows == 0 ? "-" : counts.latest_as_of.c_str());
   }
   return kExitOk;
 }

@@ -105,7 +105,7 @@ ApiResponse show_model_endpoint(const ApiContext& context, const ApiRequest& r) 
   storage::Database& db = context.database();
   const auto model = storage::find_model(db, name);
   if (!model) return no_model(r, name);
-  return json_response(model_json(*model, storage::list_windows(db, model->id)));
+  return json_response(model_json(*model, storage::count_windows(db, model->id)));
 }
 
 ApiResponse define_model_endpoint(const ApiContext& context, const ApiRequest& r) {

@@ -17,8 +17,8 @@ struct ModelLine {
 std::vector<ModelLine> model_lines(storage::Database& db) {
   std::vector<ModelLine> out;
   for (auto& m : storage::list_models(db)) {
-    const auto windows = storage::list_windows(db, m.id);
-    out.push_back({m, windows.size(), windows.empty() ? std::string() : windows.back().as_of});
+    const storage::WindowCounts counts = storage::count_windows(db, m.id);
+    out.push_back({m, counts.windows, counts.latest_as_of});
   }
   return out;
 }
@@ -67,18 +67,16 @@ std::string windows_csv(const std::vector<storage::WindowSummary>& windows) {
   return out;
 }
 
-nlohmann::ordered_json model_json(const storage::ModelVersion& m, const std::vector<storage::WindowSummary>& windows) {
-  std::size_t stale = 0;
-  for (const auto& w : windows) stale += w.stale;
+nlohmann::ordered_json model_json(const storage::ModelVersion& m, const storage::WindowCounts& counts) {
   nlohmann::ordered_json j;
   j["model"] = m.name;
   j["version"] = m.version;
   j["created_at"] = m.created_at;
   j["configuration_hash"] = m.configuration_hash;
   j["configuration"] = m.config.to_json();
-  j["windows"] = windows.size();
-  j["stale_windows"] = stale;
-  j["latest_as_of"] = windows.empty() ? nlohmann::ordered_json() : nlohmann::ordered_json(windows.back().as_of);
+  j["windows"] = counts.windows;
+  j["stale_windows"] = counts.stale;
+  j["latest_as_of"] = counts.latest_as_of.empty() ? nlohmann::ordered_json() : nlohmann::ordered_json(counts.latest_as_of);
   return j;
 }
 

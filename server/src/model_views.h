@@ -17,7 +17,7 @@ nlohmann::ordered_json windows_json(const storage::ModelVersion& model, const st
 std::string windows_csv(const std::vector<storage::WindowSummary>& windows);
 
 // One model: configuration, window count, stale count, latest as-of.
-nlohmann::ordered_json model_json(const storage::ModelVersion& model, const std::vector<storage::WindowSummary>& windows);
+nlohmann::ordered_json model_json(const storage::ModelVersion& model, const storage::WindowCounts& counts);
 
 // Every model, one line each (name, version, method, factors, window, step, windows,
 // latest as-of).

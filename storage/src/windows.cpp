@@ -214,6 +214,18 @@ std::vector<WindowSummary> list_windows(Database& db, long model_version_id) {
   return out;
 }
 
+WindowCounts count_windows(Database& db, long model_version_id) {
+  SQLite::Statement q(db.sql(), "SELECT COUNT(*), TOTAL(stale), MAX(as_of) FROM windows WHERE model_version_id = ?");
+  q.bind(1, static_cast<std::int64_t>(model_version_id));
+  WindowCounts counts;
+  if (q.executeStep()) {
+    counts.windows = static_cast<std::size_t>(q.getColumn(0).getInt64());
+    counts.stale = static_cast<std::size_t>(q.getColumn(1).getDouble());
+    if (!q.getColumn(2).isNull()) counts.latest_as_of = detail::iso_date(q.getColumn(2).getInt());
+  }
+  return counts;
+}
+
 std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
                                         bool at_or_before) {
   std::string where = "WHERE model_version_id = ?1";

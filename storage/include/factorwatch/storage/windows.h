@@ -60,6 +60,15 @@ void save_window(Database& db, long model_version_id, const WindowRecord& window
 
 std::vector<WindowSummary> list_windows(Database& db, long model_version_id);
 
+// How many windows a model version has, how many are stale, and the latest as-of date
+// ("" when none): one aggregate query, no statistics parsed.
+struct WindowCounts {
+  std::size_t windows = 0;
+  std::size_t stale = 0;
+  std::string latest_as_of;
+};
+WindowCounts count_windows(Database& db, long model_version_id);
+
 // The window with this as-of date, or with `at_or_before` the latest one at or before it;
 // as_of "" means the latest window. nullopt when there is none.
 std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
