@@ -58,7 +58,7 @@ TEST(Daemon, BecomesReadyAndPrintsAddressTokenCommandAndAnExample) {
   ASSERT_TRUE(daemon.ready()) << daemon.log();
   const json health = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/health")).body);
   EXPECT_EQ(health["status"], "ready");
-  EXPECT_EQ(health["schema_version"], 3);
+  EXPECT_EQ(health["schema_version"], 4);
   const json version = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/version")).body);
   EXPECT_EQ(version["api"], "v1");
   const std::string banner = daemon.banner();

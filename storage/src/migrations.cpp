@@ -99,6 +99,12 @@ CREATE TABLE corrections (
 CREATE INDEX corrections_by_run ON corrections (run_id);
 CREATE INDEX windows_by_date ON windows (first_date, as_of);
 )sql"},
+      // The daemon asks "which fit is the window at or before this date" on every read,
+      // and lists count windows: a covering index answers both without walking the
+      // overflow pages of a row's matrices (the stamp columns come after them).
+      {4, "covering index for window stamps and counts", R"sql(
+CREATE INDEX windows_stamp ON windows (model_version_id, as_of, id, fitted_at, input_hash, total_seconds, stale);
+)sql"},
   };
   return steps;
 }
