@@ -33,21 +33,6 @@ void print_caution(std::ostream& out) { out << "\nCaution: " << engine::kCaution
 
 void print_csv_caution(std::ostream& out) { out << csv_caution_line(); }
 
-std::vector<std::string> split_list(const std::string& text) {
-  std::vector<std::string> out;
-  std::size_t start = 0;
-  while (start <= text.size()) {
-    std::size_t end = text.find(',', start);
-    if (end == std::string::npos) end = text.size();
-    std::string item = text.substr(start, end - start);
-    const auto b = item.find_first_not_of(" \t");
-    const auto e = item.find_last_not_of(" \t");
-    if (b != std::string::npos) out.push_back(item.substr(b, e - b + 1));
-    start = end + 1;
-  }
-  return out;
-}
-
 double seconds_since(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }

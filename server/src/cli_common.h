@@ -34,9 +34,6 @@ void print_caution(std::ostream& out);
 // The caution as the first line of a CSV file (a '#' comment line).
 void print_csv_caution(std::ostream& out);
 
-// "--assets A,B,C" into names (spaces around names are ignored).
-std::vector<std::string> split_list(const std::string& text);
-
 // Wall seconds since `start`, for the timings commands print.
 double seconds_since(std::chrono::steady_clock::time_point start);
 

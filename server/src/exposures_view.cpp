@@ -1,7 +1,7 @@
 #include "exposures_view.h"
 
-#include "factorwatch/engine/caution.h"
 #include "text_format.h"
+#include "window_heading.h"
 
 namespace factorwatch::server {
 
@@ -9,8 +9,7 @@ std::string exposures_csv(const SelectedWindow& s) {
   const engine::FactorFit& f = s.window.fit;
   const Eigen::Index k = f.loadings.cols();
   std::string out = csv_caution_line();
-  out += "# model " + s.model.name + " version " + std::to_string(s.model.version) + ", window " +
-         s.window.first_date + " .. " + s.window.as_of + ", " + engine::to_string(f.method) + "\n";
+  out += window_csv_heading(s) + ", " + engine::to_string(f.method) + "\n";
   out += "asset";
   for (Eigen::Index j = 0; j < k; ++j) out += "," + factor_name(j);
   out += ",communality,specific_variance,uniqueness,heywood\n";
@@ -32,12 +31,7 @@ std::string exposures_csv(const SelectedWindow& s) {
 
 nlohmann::ordered_json exposures_json(const SelectedWindow& s) {
   const engine::FactorFit& f = s.window.fit;
-  nlohmann::ordered_json j;
-  j["caution"] = engine::kCaution;
-  j["model"] = s.model.name;
-  j["version"] = s.model.version;
-  j["as_of"] = s.window.as_of;
-  j["first_date"] = s.window.first_date;
+  nlohmann::ordered_json j = window_json_heading(s);
   j["periods"] = f.periods;
   j["method"] = engine::to_string(f.method);
   j["basis"] = engine::to_string(f.basis);

@@ -15,6 +15,7 @@
 #include "api_context.h"
 #include "factorwatch/engine/caution.h"
 #include "factorwatch/storage/data_directory.h"
+#include "factorwatch/storage/timestamps.h"
 #include "factorwatch/storage/models.h"
 #include "routes.h"
 
@@ -38,15 +39,6 @@ thread_local bool request_timed = false;
 
 bool is_loopback(const std::string& address) {
   return address == "localhost" || address == "::1" || address.rfind("127.", 0) == 0;
-}
-
-std::string utc_now() {
-  const std::time_t now = std::time(nullptr);
-  std::tm parts{};
-  gmtime_r(&now, &parts);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &parts);
-  return text;
 }
 
 // "/v1/models/{name}/exposures" -> "/v1/models/([^/]+)/exposures" and the names in order.
@@ -157,7 +149,7 @@ void Daemon::handle(const Route& route, const std::vector<std::string>& names, c
   try {
     response = route.handler(context_, to_api_request(req, names));
   } catch (const std::exception& e) {
-    std::fprintf(stderr, "%s error in %s %s: %s\n", utc_now().c_str(), req.method.c_str(), req.path.c_str(), e.what());
+    std::fprintf(stderr, "%s error in %s %s: %s\n", storage::utc_timestamp().c_str(), req.method.c_str(), req.path.c_str(), e.what());
     response = problem(500, std::string("internal error: ") + e.what(), req.path);
   }
   send(response, res);
@@ -244,16 +236,16 @@ void Daemon::configure() {
     if (request_timed) ms = std::chrono::duration<double, std::milli>(Clock::now() - request_start).count();
     request_timed = false;
     if (ms >= 0)
-      std::fprintf(stderr, "%s %s %s %d %.1f ms\n", utc_now().c_str(), req.method.c_str(), req.path.c_str(), res.status, ms);
+      std::fprintf(stderr, "%s %s %s %d %.1f ms\n", storage::utc_timestamp().c_str(), req.method.c_str(), req.path.c_str(), res.status, ms);
     else
-      std::fprintf(stderr, "%s %s %s %d - ms\n", utc_now().c_str(), req.method.c_str(), req.path.c_str(), res.status);
+      std::fprintf(stderr, "%s %s %s %d - ms\n", storage::utc_timestamp().c_str(), req.method.c_str(), req.path.c_str(), res.status);
   });
 }
 
 bool Daemon::open_database() {
   try {
     const storage::Database& db = context_.database();  // creates and migrates on this thread
-    std::fprintf(stderr, "%s database %s ready (schema version %d)\n", utc_now().c_str(), db.path().c_str(),
+    std::fprintf(stderr, "%s database %s ready (schema version %d)\n", storage::utc_timestamp().c_str(), db.path().c_str(),
                  db.schema_version());
     return true;
   } catch (const std::exception& e) {
@@ -313,7 +305,7 @@ int Daemon::run() {
     int signal_number = 0;
     sigwait(&stop_signals, &signal_number);
     std::fprintf(stderr, "%s %s: stopping (in-flight requests finish; a running refresh stops after its window)\n",
-                 utc_now().c_str(), signal_number == SIGINT ? "SIGINT" : "SIGTERM");
+                 storage::utc_timestamp().c_str(), signal_number == SIGINT ? "SIGINT" : "SIGTERM");
   } else {
     code = 1;
   }
@@ -321,7 +313,7 @@ int Daemon::run() {
   http_.stop();      // no new connections; the worker pool finishes what it holds
   listener.join();
   jobs_.stop();      // the refresh writes its current window, then ends
-  std::fprintf(stderr, "%s stopped\n", utc_now().c_str());
+  std::fprintf(stderr, "%s stopped\n", storage::utc_timestamp().c_str());
   return code;
 }
 

@@ -4,22 +4,13 @@
 #include <sys/syscall.h>
 #include <unistd.h>
 
-#include <ctime>
 #include <memory>
 
 #include "factorwatch/storage/database.h"
+#include "factorwatch/storage/timestamps.h"
 
 namespace factorwatch::server {
 namespace {
-
-std::string utc_now() {
-  const std::time_t now = std::time(nullptr);
-  std::tm parts{};
-  gmtime_r(&now, &parts);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &parts);
-  return text;
-}
 
 nlohmann::ordered_json text_or_null(const std::string& s) {
   return s.empty() ? nlohmann::ordered_json() : nlohmann::ordered_json(s);
@@ -51,7 +42,7 @@ RefreshJobs::Submitted RefreshJobs::submit(const std::string& model) {
   Job job;
   job.id = next_id_++;
   job.model = model;
-  job.submitted_at = utc_now();
+  job.submitted_at = storage::utc_timestamp();
   if (stopping_) {
     job.state = State::stopped;
     job.error = "the daemon is shutting down";
@@ -122,7 +113,7 @@ void RefreshJobs::stop() {
       Job& job = jobs_.at(id);
       job.state = State::stopped;
       job.error = "the daemon shut down before this refresh started";
-      job.finished_at = utc_now();
+      job.finished_at = storage::utc_timestamp();
     }
     queue_.clear();
   }
@@ -146,7 +137,7 @@ void RefreshJobs::run() {
       queue_.pop_front();
       Job& job = jobs_.at(id);
       job.state = State::running;
-      job.started_at = utc_now();
+      job.started_at = storage::utc_timestamp();
       model = job.model;
     }
     State outcome = State::finished;
@@ -175,7 +166,7 @@ void RefreshJobs::run() {
     job.state = outcome;
     job.summary = std::move(summary);
     job.error = error;
-    job.finished_at = utc_now();
+    job.finished_at = storage::utc_timestamp();
   }
 }
 

@@ -2,8 +2,8 @@
 
 #include <cmath>
 
-#include "factorwatch/engine/caution.h"
 #include "text_format.h"
+#include "window_heading.h"
 
 namespace factorwatch::server {
 
@@ -32,8 +32,7 @@ std::vector<SpecificRiskRow> specific_risk_rows(const SelectedWindow& s, const e
 std::string specific_risk_csv(const SelectedWindow& s) {
   const engine::Frequency frequency = window_frequency(s);
   std::string out = csv_caution_line();
-  out += "# model " + s.model.name + " version " + std::to_string(s.model.version) + ", window " +
-         s.window.first_date + " .. " + s.window.as_of + ", " + frequency.name + " data, annualised by sqrt(" +
+  out += window_csv_heading(s) + ", " + frequency.name + " data, annualised by sqrt(" +
          std::to_string(frequency.periods_per_year) + ")\n";
   out += "asset,specific_variance,specific_volatility,specific_volatility_annual,total_variance,"
          "total_volatility_annual,specific_share,heywood\n";
@@ -51,12 +50,7 @@ std::string specific_risk_csv(const SelectedWindow& s) {
 
 nlohmann::ordered_json specific_risk_json(const SelectedWindow& s) {
   const engine::Frequency frequency = window_frequency(s);
-  nlohmann::ordered_json j;
-  j["caution"] = engine::kCaution;
-  j["model"] = s.model.name;
-  j["version"] = s.model.version;
-  j["as_of"] = s.window.as_of;
-  j["first_date"] = s.window.first_date;
+  nlohmann::ordered_json j = window_json_heading(s);
   j["frequency"] = frequency.name;
   j["periods_per_year"] = frequency.periods_per_year;
   j["stale"] = s.window.stale;

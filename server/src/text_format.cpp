@@ -28,6 +28,21 @@ std::string exact_number(double x) {
   return out;
 }
 
+std::vector<std::string> split_list(const std::string& text) {
+  std::vector<std::string> out;
+  std::size_t start = 0;
+  while (start <= text.size()) {
+    std::size_t end = text.find(',', start);
+    if (end == std::string::npos) end = text.size();
+    const std::string item = text.substr(start, end - start);
+    const auto b = item.find_first_not_of(" \t");
+    const auto e = item.find_last_not_of(" \t");
+    if (b != std::string::npos) out.push_back(item.substr(b, e - b + 1));
+    start = end + 1;
+  }
+  return out;
+}
+
 std::string csv_caution_line() { return std::string("# caution: ") + engine::kCaution + "\n"; }
 
 }  // namespace factorwatch::server

@@ -2,6 +2,7 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 namespace factorwatch::server {
 
@@ -12,6 +13,10 @@ std::string csv_field(const std::string& text);
 // same double (std::to_chars), so nothing is lost between the database and a script.
 std::string exact_number(double x);
 void append_exact_number(std::string& out, double x);
+
+// "A, B,C" into names: comma-separated, spaces around names ignored, empty items dropped
+// (--assets on the command line, ?assets= over HTTP).
+std::vector<std::string> split_list(const std::string& text);
 
 // "# caution: ...\n", the first line of every CSV that carries risk numbers.
 std::string csv_caution_line();

@@ -15,21 +15,6 @@ ApiResponse no_model(const ApiRequest& r, const std::string& name) {
   return problem(404, "no model named '" + name + "' (GET /v1/models lists them)", r.path, "name");
 }
 
-std::vector<std::string> split_assets(const std::string& text) {
-  std::vector<std::string> out;
-  std::size_t start = 0;
-  while (start <= text.size()) {
-    std::size_t end = text.find(',', start);
-    if (end == std::string::npos) end = text.size();
-    const std::string item = text.substr(start, end - start);
-    const auto b = item.find_first_not_of(" \t");
-    const auto e = item.find_last_not_of(" \t");
-    if (b != std::string::npos) out.push_back(item.substr(b, e - b + 1));
-    start = end + 1;
-  }
-  return out;
-}
-
 using Render = std::string (*)(const SelectedWindow&, Format);
 
 // The path every one-window endpoint takes: pick the window from its stamp, serve a
@@ -39,7 +24,7 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
   const std::string assets = r.parameter("assets").value_or("");
-  const WindowQuery query{r.path_values.at("name"), r.parameter("as_of").value_or(""), split_assets(assets)};
+  const WindowQuery query{r.path_values.at("name"), r.parameter("as_of").value_or(""), split_list(assets)};
   if (!assets.empty() && query.assets.empty())
     return problem(400, "query parameter 'assets': no asset names (give them comma-separated)", r.path, "assets");
 

@@ -5,6 +5,7 @@
 #include <stdexcept>
 
 #include "cell_parse.h"
+#include "factorwatch/storage/timestamps.h"
 
 namespace factorwatch::storage::detail {
 
@@ -31,3 +32,9 @@ std::string utc_now() {
 }
 
 }  // namespace factorwatch::storage::detail
+
+namespace factorwatch::storage {
+
+std::string utc_timestamp() { return detail::utc_now(); }
+
+}  // namespace factorwatch::storage

@@ -1,0 +1,22 @@
+#include "window_heading.h"
+
+#include "factorwatch/engine/caution.h"
+
+namespace factorwatch::server {
+
+nlohmann::ordered_json window_json_heading(const SelectedWindow& s) {
+  nlohmann::ordered_json j;
+  j["caution"] = engine::kCaution;
+  j["model"] = s.model.name;
+  j["version"] = s.model.version;
+  j["as_of"] = s.window.as_of;
+  j["first_date"] = s.window.first_date;
+  return j;
+}
+
+std::string window_csv_heading(const SelectedWindow& s) {
+  return "# model " + s.model.name + " version " + std::to_string(s.model.version) + ", window " +
+         s.window.first_date + " .. " + s.window.as_of;
+}
+
+}  // namespace factorwatch::server
