@@ -5,7 +5,7 @@ set -euo pipefail
 
 packages=(
   cmake g++ make pkgconf
-  curl python3
+  curl python3 zlib1g-dev
   libeigen3-dev libspectra-dev
   libcpp-httplib-dev nlohmann-json3-dev libsqlitecpp-dev libsqlite3-dev
   libgtest-dev libcli11-dev libfast-float-dev

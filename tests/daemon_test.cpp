@@ -22,9 +22,9 @@ namespace {
 namespace fw = factorwatch::testing;
 using nlohmann::json;
 
-// 40 assets x `dates` business days from a 2-factor planted model, as a long CSV.
-std::string write_returns(const fw::TempDir& dir, int dates, const std::string& name = "returns.csv") {
-  auto planted = fw::simulate_planted_model(dates, 40, 2, 20261202u);
+// `assets` x `dates` business days from a 2-factor planted model, as a long CSV.
+std::string write_returns(const fw::TempDir& dir, int dates, const std::string& name = "returns.csv", int assets = 40) {
+  auto planted = fw::simulate_planted_model(dates, assets, 2, 20261202u);
   planted.panel.dates = fw::business_dates(dates);
   const std::string path = dir.file(name);
   fw::write_long_csv(path, planted.panel);
@@ -41,8 +41,8 @@ std::string bearer(const std::string& token) { return "-H 'Authorization: Bearer
 
 // Upload with the token, define a model, refresh it with the CLI (fast and synchronous).
 void load_and_fit(const fw::TempDir& dir, const fw::DaemonProcess& daemon, const std::string& token, int dates,
-                  const std::string& model_json) {
-  const std::string file = write_returns(dir, dates);
+                  const std::string& model_json, int assets = 40) {
+  const std::string file = write_returns(dir, dates, "returns.csv", assets);
   auto up = fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" + file + "'",
                      daemon.url("/v1/returns?file=returns.csv"));
   ASSERT_EQ(up.status, 200) << up.body;
@@ -242,6 +242,34 @@ TEST(Daemon, CsvAndJsonMatchTheCommandLineAndCarryTheCaution) {
   const json older = json::parse(
       fw::curl(dir.path(), "", daemon.url("/v1/models/m/exposures?as_of=" + windows[1]["as_of"].get<std::string>())).body);
   EXPECT_EQ(older["as_of"], windows[1]["as_of"]);
+}
+
+// A whole window to a client that accepts gzip (RFC 9110 section 12.5.3): compressed once,
+// labelled once, and the same bytes as the plain body once decompressed.
+TEST(Daemon, LargeBodiesAreGzippedForClientsThatAcceptIt) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  load_and_fit(dir, daemon, token_of(dir.path()), 130, R"({"factors":3,"window":120,"step":10,"method":"pca"})", 600);
+  for (const std::string query : {"?format=csv", ""}) {
+    const std::string url = daemon.url("/v1/models/m/exposures" + query);
+    const auto plain = fw::curl(dir.path(), "", url);
+    ASSERT_EQ(plain.status, 200);
+    ASSERT_GT(plain.body.size(), 64u << 10) << "the window must be large enough to be compressed";
+    EXPECT_EQ(plain.header("content-encoding"), "");
+    const auto packed = fw::curl(dir.path(), "-H 'Accept-Encoding: gzip'", url);
+    EXPECT_EQ(packed.header("content-encoding"), "gzip");
+    ASSERT_GE(packed.body.size(), 2u);
+    EXPECT_EQ(static_cast<unsigned char>(packed.body[0]), 0x1f);  // the gzip magic (RFC 1952)
+    EXPECT_EQ(static_cast<unsigned char>(packed.body[1]), 0x8b);
+    EXPECT_LT(packed.body.size(), plain.body.size() / 2);
+    // curl asks for every coding it knows and decodes what comes back.
+    const auto decoded = fw::curl(dir.path(), "--compressed", url);
+    EXPECT_EQ(decoded.body, plain.body);
+    EXPECT_EQ(decoded.header("content-encoding"), "gzip");
+    // gzip;q=0 refuses it.
+    EXPECT_EQ(fw::curl(dir.path(), "-H 'Accept-Encoding: gzip;q=0'", url).body, plain.body);
+  }
 }
 
 TEST(Daemon, ErrorsAreProblemDetailsNamingTheField) {

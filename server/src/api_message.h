@@ -20,6 +20,7 @@ struct ApiRequest {
   std::map<std::string, std::string> query;        // first value of each parameter
   std::map<std::string, std::string> path_values;  // {name}, {id} of the route's path
   std::string accept;                              // the Accept header
+  std::string accept_encoding;                     // the Accept-Encoding header
   std::string content_type;
   std::string_view body;     // raw body, or the multipart part "file"
   std::string upload_name;   // the filename of a multipart part, if any
@@ -27,6 +28,10 @@ struct ApiRequest {
   // Query parameter or nullopt.
   std::optional<std::string> parameter(const std::string& name) const;
 };
+
+// Bodies larger than this are sent from their shared buffer as they are (the daemon's
+// own gzip, if any, already applied); smaller ones may be compressed by the HTTP library.
+inline constexpr std::size_t kLargeBody = 64 << 10;
 
 struct ApiResponse {
   int status = 200;

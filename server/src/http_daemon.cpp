@@ -54,8 +54,11 @@ void send(const ApiResponse& api, httplib::Response& res) {
   res.status = api.status;
   for (const auto& [name, value] : api.headers) res.set_header(name.c_str(), value);
   if (!api.body) return;
-  // Large bodies (a whole window) go out from the shared buffer without a copy.
-  if (api.body->size() > (64 << 10)) {
+  // Large bodies (a whole window) go out from the shared buffer without a copy, and so
+  // does a body the handler compressed: the library compresses only set_content bodies.
+  bool encoded = false;
+  for (const auto& header : api.headers) encoded = encoded || header.first == "Content-Encoding";
+  if (api.body->size() > kLargeBody || encoded) {
     std::shared_ptr<const std::string> body = api.body;
     res.set_content_provider(body->size(), api.content_type, [body](std::size_t offset, std::size_t length, httplib::DataSink& sink) {
       return sink.write(body->data() + offset, length);
@@ -72,6 +75,7 @@ ApiRequest to_api_request(const httplib::Request& req, const std::vector<std::st
   for (const auto& [name, value] : req.params) a.query.emplace(name, value);  // first of each
   for (std::size_t i = 0; i < names.size() && i + 1 < req.matches.size(); ++i) a.path_values[names[i]] = req.matches[i + 1];
   a.accept = req.get_header_value("Accept");
+  a.accept_encoding = req.get_header_value("Accept-Encoding");
   a.content_type = req.get_header_value("Content-Type");
   if (req.is_multipart_form_data()) {
     if (req.has_file("file")) {

@@ -2,6 +2,7 @@
 
 #include "endpoint_helpers.h"
 #include "exposures_view.h"
+#include "gzip_body.h"
 #include "factorwatch/storage/models.h"
 #include "model_views.h"
 #include "specific_risk_view.h"
@@ -51,10 +52,27 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
     body = std::make_shared<const std::string>(render(read_picked_window(db, pick, query), f));
     if (cacheable) context.cache->put(key, body);
   }
-  if (f == Format::csv)
-    return csv_response(std::move(body), query.model + "-" + what + "-" + pick.stamp.as_of + ".csv", true);
+  // A whole window is 1-2 MB of digits; gzip takes it to about 40%, compressed once and
+  // then served from the cache like the plain body.
+  bool gzipped = false;
+  if (body->size() > kLargeBody && accepts_gzip(r.accept_encoding)) {
+    const std::string gzip_key = key + "|gzip";
+    std::shared_ptr<const std::string> packed = cacheable ? context.cache->find(gzip_key) : nullptr;
+    if (!packed) {
+      packed = std::make_shared<const std::string>(gzip_compress(*body));
+      if (cacheable) context.cache->put(gzip_key, packed);
+    }
+    body = std::move(packed);
+    gzipped = true;
+  }
   ApiResponse response;
-  response.body = std::move(body);
+  if (f == Format::csv) {
+    response = csv_response(std::move(body), query.model + "-" + what + "-" + pick.stamp.as_of + ".csv", true);
+  } else {
+    response.body = std::move(body);
+  }
+  response.headers.emplace_back("Vary", "Accept, Accept-Encoding");
+  if (gzipped) response.headers.emplace_back("Content-Encoding", "gzip");
   return response;
 }
 
