@@ -164,8 +164,12 @@ void Daemon::configure() {
   http_.new_task_queue = [threads] { return new httplib::ThreadPool(threads); };
   http_.set_read_timeout(options_.read_timeout_seconds, 0);
   http_.set_write_timeout(options_.write_timeout_seconds, 0);
-  http_.set_keep_alive_timeout(5);
-  http_.set_keep_alive_max_count(1000);
+  // A kept-alive connection holds a worker thread while it waits for its next request,
+  // so more clients than threads would queue behind idle ones: an idle connection is
+  // closed after 2 s, and a busy one after 10 requests (the client reconnects, which
+  // costs tens of microseconds on loopback), letting queued connections in.
+  http_.set_keep_alive_timeout(2);
+  http_.set_keep_alive_max_count(10);
   http_.set_payload_max_length(options_.max_upload_mb << 20);
 
   for (const Route& route : api_routes()) {
