@@ -53,7 +53,14 @@ def read_token(args):
             return f.read().strip()
     if os.environ.get("FACTORWATCH_TOKEN"):
         return os.environ["FACTORWATCH_TOKEN"]
-    # Same data directory as the daemon is assumed (FACTORWATCH_DATA or the default).
+    # Same data directory as the daemon is assumed (FACTORWATCH_DATA or the default):
+    # its token file when readable, else ask the command.
+    data = os.environ.get("FACTORWATCH_DATA") or os.path.join(
+        os.environ.get("XDG_DATA_HOME") or os.path.expanduser("~/.local/share"), "factorwatch")
+    path = os.path.join(data, "access-token")
+    if os.path.exists(path):
+        with open(path, encoding="utf-8") as f:
+            return f.read().strip()
     return subprocess.run(["factorwatch", "token"], check=True, capture_output=True, text=True).stdout.strip()
 
 
@@ -150,7 +157,7 @@ def show_exposures(client, model, assets, limit):
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--url", default="http://127.0.0.1:8750")
-    parser.add_argument("--token", help="default: $FACTORWATCH_TOKEN, else `factorwatch token`")
+    parser.add_argument("--token", help="default: $FACTORWATCH_TOKEN, else the data directory's access-token file, else `factorwatch token`")
     parser.add_argument("--token-file", help="file holding the token, e.g. DATA/access-token")
     parser.add_argument("--model", default="demo")
     parser.add_argument("--file", help="returns CSV to upload first (skipped when absent)")
