@@ -5,9 +5,13 @@
 # comparison. Prints the summary table; the raw JSON lines are kept. About 10 minutes,
 # plus about 10 for the storage benchmark (bench/storage_bench.py: `factorwatch load` and
 # `factorwatch refresh` against sqlite3 and scikit-learn; it builds build-storagebench/
-# and writes build-storagebench/results/storage_bench.txt; --no-storage skips it).
+# and writes build-storagebench/results/storage_bench.txt; --no-storage skips it), plus
+# about 25 for the HTTP benchmark (bench/serve_bench.py: `factorwatch serve` under wrk
+# against nginx and Python's http.server; it builds build-servebench/ and writes
+# build-servebench/results/serve_bench.txt; --no-serve skips it).
 #
 #   bench/run_all.sh [--sizes "500 2000 5000 10000"] [--rounds 4] [--out DIR] [--no-flags] [--no-storage]
+#                    [--no-serve]
 #
 # Round 1 covers every size; rounds 2..R repeat N = 5000 (the size the targets are set
 # at), ours and the peers alternating; the report uses medians over rounds.
@@ -22,6 +26,7 @@ SIZES="500 2000 5000 10000"
 OUT="$ROOT/build-bench/results"
 FLAGS=1
 STORAGE=1
+SERVE=1
 ROUNDS=4
 while [ $# -gt 0 ]; do
   case "$1" in
@@ -29,8 +34,9 @@ while [ $# -gt 0 ]; do
     --out) OUT="$2"; shift 2 ;;
     --no-flags) FLAGS=0; shift ;;
     --no-storage) STORAGE=0; shift ;;
+    --no-serve) SERVE=0; shift ;;
     --rounds) ROUNDS="$2"; shift 2 ;;
-    *) echo "usage: $0 [--sizes \"N ...\"] [--rounds R] [--out DIR] [--no-flags] [--no-storage]" >&2; exit 2 ;;
+    *) echo "usage: $0 [--sizes \"N ...\"] [--rounds R] [--out DIR] [--no-flags] [--no-storage] [--no-serve]" >&2; exit 2 ;;
   esac
 done
 
@@ -163,4 +169,9 @@ log "raw lines: $RAW; table: $OUT/table.txt"
 if [ "$STORAGE" = 1 ]; then
   log "storage benchmark: ingest and refresh against sqlite3 and scikit-learn"
   "$PY" "$ROOT/bench/storage_bench.py" --rounds 3
+fi
+
+if [ "$SERVE" = 1 ]; then
+  log "HTTP benchmark: factorwatch serve under wrk against nginx and Python's http.server"
+  "$PY" "$ROOT/bench/serve_bench.py" --rounds 3
 fi
