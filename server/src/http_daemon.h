@@ -11,7 +11,7 @@ struct DaemonOptions {
   std::string data_dir;              // --data ("" = FACTORWATCH_DATA or the default)
   std::string address = "127.0.0.1";
   int port = 8750;                   // 0 = any free port (printed)
-  int threads = 32;                  // request worker threads (each serves one connection at a time)
+  int threads = 64;                  // request worker threads (each serves one connection at a time)
   std::size_t max_upload_mb = 1024;  // largest request body, MiB
   bool reads_need_token = false;     // forced on for non-loopback addresses
   int read_timeout_seconds = 30;     // per socket read while receiving a request
