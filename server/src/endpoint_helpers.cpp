@@ -42,4 +42,8 @@ std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& r, const std::s
   return problem(400, "query parameter '" + name + "' = '" + *value + "': must be true or false", r.path, name);
 }
 
+ApiResponse unknown_model(const ApiRequest& r, const std::string& name) {
+  return problem(404, "no model named '" + name + "' (GET /v1/models lists them)", r.path, "name");
+}
+
 }  // namespace factorwatch::server

@@ -26,6 +26,9 @@ ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::str
 // A true/false query parameter (true, false, 1, 0, yes, no); a 400 naming it otherwise.
 std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& request, const std::string& name);
 
+// 404 for a model name the database does not hold, naming the path's {name}.
+ApiResponse unknown_model(const ApiRequest& request, const std::string& name);
+
 // The name of the response header that carries the caution on CSV responses.
 inline constexpr const char* kCautionHeader = "Factorwatch-Caution";
 

@@ -12,10 +12,6 @@ namespace {
 
 using nlohmann::json;
 
-ApiResponse no_model(const ApiRequest& r, const std::string& name) {
-  return problem(404, "no model named '" + name + "' (GET /v1/models lists them)", r.path, "name");
-}
-
 // The configuration's own messages name CLI options ("option '--min-coverage' = ...");
 // over HTTP the same rule is about a JSON member ("member 'min_coverage' = ...").
 std::pair<std::string, std::string> as_member_message(const std::string& message) {
@@ -104,7 +100,7 @@ ApiResponse show_model_endpoint(const ApiContext& context, const ApiRequest& r) 
   const std::string& name = r.path_values.at("name");
   storage::Database& db = context.database();
   const auto model = storage::find_model(db, name);
-  if (!model) return no_model(r, name);
+  if (!model) return unknown_model(r, name);
   return json_response(model_json(*model, storage::count_windows(db, model->id)));
 }
 
@@ -140,7 +136,7 @@ ApiResponse define_model_endpoint(const ApiContext& context, const ApiRequest& r
 
 ApiResponse start_refresh_endpoint(const ApiContext& context, const ApiRequest& r) {
   const std::string& name = r.path_values.at("name");
-  if (!storage::find_model(context.database(), name)) return no_model(r, name);
+  if (!storage::find_model(context.database(), name)) return unknown_model(r, name);
   const RefreshJobs::Submitted job = context.jobs->submit(name);
   ApiResponse response = json_response(*context.jobs->job_json(job.id), 202);
   response.headers.emplace_back("Location", "/v1/jobs/" + std::to_string(job.id));

@@ -12,10 +12,6 @@
 namespace factorwatch::server {
 namespace {
 
-ApiResponse no_model(const ApiRequest& r, const std::string& name) {
-  return problem(404, "no model named '" + name + "' (GET /v1/models lists them)", r.path, "name");
-}
-
 using Render = std::string (*)(const SelectedWindow&, Format);
 
 // The path every one-window endpoint takes: pick the window from its stamp, serve a
@@ -32,7 +28,7 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
   storage::Database& db = context.database();
   const WindowPick pick = pick_window(db, query);
   switch (pick.outcome) {
-    case WindowLookup::no_model: return no_model(r, query.model);
+    case WindowLookup::no_model: return unknown_model(r, query.model);
     case WindowLookup::bad_as_of:
       return problem(400, "query parameter 'as_of': " + pick.message, r.path, "as_of");
     case WindowLookup::no_window:
@@ -100,7 +96,7 @@ ApiResponse list_windows_endpoint(const ApiContext& context, const ApiRequest& r
   const std::string& name = r.path_values.at("name");
   storage::Database& db = context.database();
   const auto model = storage::find_model(db, name);
-  if (!model) return no_model(r, name);
+  if (!model) return unknown_model(r, name);
   const auto windows = storage::list_windows(db, model->id);
   if (std::get<Format>(format) == Format::csv)
     return csv_response(std::make_shared<const std::string>(windows_csv(windows)), name + "-windows.csv", true);
