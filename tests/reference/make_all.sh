@@ -4,8 +4,10 @@
 set -eu
 cd "$(dirname "$0")"
 /usr/bin/Rscript make_harman74.R
+/usr/bin/Rscript make_harman74_rotation.R
 /usr/bin/Rscript make_eustock.R
 /usr/bin/python3 make_eustock_pca.py
 /usr/bin/Rscript make_chi_square_sf.R
 /usr/bin/python3 make_chi_square_sf.py
+/usr/bin/python3 make_procrustes.py
 echo "reference files regenerated; review 'git diff' (only the 'generated:' dates should change)"
