@@ -65,6 +65,25 @@ std::vector<std::string> window_rows(storage::Database& db) {
   return rows;
 }
 
+// Alignments and drift as stored, bytes included (the aligned_at time left out).
+std::vector<std::string> alignment_rows(storage::Database& db) {
+  std::vector<std::string> rows;
+  SQLite::Statement q(db.sql(), "SELECT w.as_of, a.status, a.reference_as_of, a.alignment, a.factor_fit, "
+                                "quote(a.residual), d.against, d.congruence, d.movers FROM windows w "
+                                "JOIN window_alignments a ON a.window_id = w.id "
+                                "LEFT JOIN window_drift d ON d.window_id = w.id ORDER BY w.as_of, d.against");
+  while (q.executeStep()) {
+    std::string row;
+    for (int c = 0; c < 9; ++c) {
+      const SQLite::Column column = q.getColumn(c);
+      row.append(static_cast<const char*>(column.getBlob()), static_cast<std::size_t>(column.getBytes()));
+      row += "|";
+    }
+    rows.push_back(row);
+  }
+  return rows;
+}
+
 TEST(Refresh, GridIsAnchoredOnTheFirstDateAndASecondRunDoesNothing) {
   TempDir dir;
   const engine::ReturnsPanel p = planted();
@@ -116,7 +135,9 @@ TEST(Refresh, WindowThroughTheDatabaseEqualsTheEngineOnTheFile) {
     engine::FitOptions options = config.fit_options();
     if (previous) options.warm_start = engine::WarmStart{previous->assets, previous->loadings, previous->specific_variance};
     const engine::FactorFit direct = engine::fit(w, options);
-    const auto stored = storage::read_window(db, model->id, file.dates[static_cast<std::size_t>(end)], false);
+    // As fitted: the served form is also rotated and aligned (tests/alignment_refresh_test.cpp).
+    const auto stored = storage::read_window(db, model->id, file.dates[static_cast<std::size_t>(end)], false,
+                                             storage::WindowForm::as_fitted);
     ASSERT_TRUE(stored) << file.dates[static_cast<std::size_t>(end)];
     const engine::FactorFit& s = stored->fit;
     EXPECT_EQ(s.assets, direct.assets);
@@ -149,11 +170,14 @@ TEST(Refresh, ResumedRefreshEqualsAnUninterruptedOne) {
   storage::set_model(db_b, "m", ml_config(100, 3));
   storage::refresh_model(db_a, "m");
   storage::refresh_model(db_b, "m");
-  db_b.sql().exec("DELETE FROM windows WHERE rowid > 6");  // rows are written in as-of order
+  // Rows are written in as-of order; a window's alignment and drift refer to it.
+  db_b.sql().exec("DELETE FROM window_alignments WHERE window_id > 6; DELETE FROM window_drift WHERE window_id > 6; "
+                  "DELETE FROM drift_alerts WHERE window_id > 6; DELETE FROM windows WHERE rowid > 6");
   ASSERT_LT(window_rows(db_b).size(), window_rows(db_a).size());
   const auto resumed = storage::refresh_model(db_b, "m");
   EXPECT_GT(resumed.fitted, 0u);
   EXPECT_EQ(window_rows(db_b), window_rows(db_a));
+  EXPECT_EQ(alignment_rows(db_b), alignment_rows(db_a));
 }
 
 TEST(Refresh, ChangedConfigurationIsANewVersionAndOldWindowsStay) {

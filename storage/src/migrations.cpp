@@ -105,6 +105,48 @@ CREATE INDEX windows_by_date ON windows (first_date, as_of);
       {4, "covering index for window stamps and counts", R"sql(
 CREATE INDEX windows_stamp ON windows (model_version_id, as_of, id, fitted_at, input_hash, total_seconds, stale);
 )sql"},
+      // Rotation, alignment between windows and drift. A window's row keeps the fit as the
+      // engine returned it; the served factors are that fit times the rotation T and the
+      // alignment R, so a window can be realigned (when an earlier one is refitted) without
+      // refitting it.
+      {5, "rotation, alignment and drift of windows", R"sql(
+ALTER TABLE windows ADD COLUMN rotation BLOB;  -- k x k T of the model's rotation; NULL = none
+CREATE TABLE window_alignments (
+  window_id       INTEGER PRIMARY KEY REFERENCES windows(id),
+  status          TEXT NOT NULL,     -- aligned | no reference | too few shared assets | ...
+  message         TEXT NOT NULL,
+  reference       TEXT NOT NULL,     -- previous | pinned | smoothed
+  reference_as_of INTEGER,           -- the reference window; NULL for smoothed or none
+  shared          INTEGER NOT NULL,  -- assets both windows have
+  alignment       BLOB NOT NULL,     -- k x k orthogonal R (identity unless aligned)
+  residual        REAL,              -- ||A R - B|| / ||B|| on the shared assets; NULL unless aligned
+  factor_fit      BLOB NOT NULL,     -- per factor congruence with the reference after alignment
+  aligned_at      TEXT NOT NULL
+);
+CREATE TABLE window_drift (
+  window_id            INTEGER NOT NULL REFERENCES windows(id),
+  against              TEXT NOT NULL,     -- previous | pinned
+  against_as_of        INTEGER NOT NULL,
+  status               TEXT NOT NULL,
+  shared               INTEGER NOT NULL,
+  congruence           BLOB NOT NULL,     -- per factor (Tucker)
+  principal_angles     BLOB NOT NULL,     -- degrees, ascending
+  factor_variance_change BLOB NOT NULL,
+  explained_share_change BLOB NOT NULL,
+  mean_exposure_change REAL NOT NULL,     -- mean over shared assets of |standardized row change|
+  communality_change   REAL NOT NULL,     -- mean absolute change, return units
+  movers               TEXT NOT NULL,     -- JSON: per factor, the assets that moved most
+  PRIMARY KEY (window_id, against)
+);
+CREATE TABLE drift_alerts (
+  window_id  INTEGER NOT NULL REFERENCES windows(id),
+  against    TEXT NOT NULL,
+  factor     INTEGER NOT NULL,  -- 1-based
+  congruence REAL NOT NULL,
+  threshold  REAL NOT NULL,
+  PRIMARY KEY (window_id, against, factor)
+);
+)sql"},
   };
   return steps;
 }

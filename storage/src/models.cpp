@@ -36,6 +36,21 @@ constexpr const char* kSelectVersion =
 
 }  // namespace
 
+const char* to_string(AlignTo a) {
+  switch (a) {
+    case AlignTo::previous: return "previous";
+    case AlignTo::pinned: return "pinned";
+    case AlignTo::smoothed: return "smoothed";
+  }
+  return "previous";
+}
+
+std::optional<AlignTo> parse_align_to(const std::string& s) {
+  for (AlignTo a : {AlignTo::previous, AlignTo::pinned, AlignTo::smoothed})
+    if (s == to_string(a)) return a;
+  return std::nullopt;
+}
+
 bool ModelConfig::IsValid(std::string* error) const {
   auto fail = [error](const std::string& message) {
     *error = message;
@@ -53,6 +68,18 @@ bool ModelConfig::IsValid(std::string* error) const {
     return fail("option '--min-coverage' = " + std::to_string(min_coverage) + ": must be in (0, 1]");
   if (!first_as_of.empty() && !detail::parse_iso_date(first_as_of))
     return fail("option '--first-as-of' = '" + first_as_of + "': not a date in the form yyyy-mm-dd");
+  if (!pinned_window.empty() && !detail::parse_iso_date(pinned_window))
+    return fail("option '--pinned-window' = '" + pinned_window + "': not a date in the form yyyy-mm-dd");
+  if (!(smoothing_half_life > 0 && std::isfinite(smoothing_half_life)))
+    return fail("option '--smoothing-half-life' = " + std::to_string(smoothing_half_life) +
+                ": must be above 0 windows");
+  if (min_shared_assets < 1)
+    return fail("option '--min-shared-assets' = " + std::to_string(min_shared_assets) + ": must be at least 1");
+  if (!(alert_below >= 0 && alert_below <= 1))
+    return fail("option '--alert-below' = " + std::to_string(alert_below) + ": must be in [0, 1] (0: no alert)");
+  if (!(alert_below_pinned >= 0 && alert_below_pinned <= 1))
+    return fail("option '--alert-below-pinned' = " + std::to_string(alert_below_pinned) +
+                ": must be in [0, 1] (0: no alert)");
   std::set<std::string> seen;
   for (const std::string& a : universe) {
     if (a.empty()) return fail("universe: an asset name is empty");
@@ -60,7 +87,17 @@ bool ModelConfig::IsValid(std::string* error) const {
   }
   engine::FitOptions options = fit_options();
   if (!options.IsValid(error)) return false;
-  return true;
+  return rotation_options().IsValid(error);
+}
+
+engine::RotationOptions ModelConfig::rotation_options() const {
+  engine::RotationOptions o;
+  o.method = rotation;
+  o.kaiser_normalize = kaiser_normalize;
+  // Tighter than R's default 1e-5: the rotation of a window should not depend on where
+  // the criterion's slow tail happened to stop (the alignment would see that as drift).
+  o.tolerance = 1e-10;
+  return o;
 }
 
 engine::FitOptions ModelConfig::fit_options() const {
@@ -86,6 +123,14 @@ nlohmann::ordered_json ModelConfig::to_json() const {
   j["half_life"] = half_life;
   j["min_coverage"] = min_coverage;
   j["first_as_of"] = first_as_of;
+  j["rotation"] = engine::to_string(rotation);
+  j["kaiser_normalize"] = kaiser_normalize;
+  j["align_to"] = to_string(align_to);
+  j["pinned_window"] = pinned_window;
+  j["smoothing_half_life"] = smoothing_half_life;
+  j["min_shared_assets"] = min_shared_assets;
+  j["alert_below"] = alert_below;
+  j["alert_below_pinned"] = alert_below_pinned;
   return j;
 }
 
@@ -105,6 +150,23 @@ ModelConfig ModelConfig::from_json(const nlohmann::json& j) {
     c.half_life = j.at("half_life").get<double>();
     c.min_coverage = j.at("min_coverage").get<double>();
     c.first_as_of = j.at("first_as_of").get<std::string>();
+    // Members from schema 5 on: absent in configurations stored before, which had these defaults.
+    if (j.contains("rotation")) {
+      const auto rotation = engine::parse_rotation(j.at("rotation").get<std::string>());
+      if (!rotation) throw std::runtime_error("unknown rotation");
+      c.rotation = *rotation;
+    }
+    if (j.contains("kaiser_normalize")) c.kaiser_normalize = j.at("kaiser_normalize").get<bool>();
+    if (j.contains("align_to")) {
+      const auto align_to = parse_align_to(j.at("align_to").get<std::string>());
+      if (!align_to) throw std::runtime_error("unknown alignment reference");
+      c.align_to = *align_to;
+    }
+    if (j.contains("pinned_window")) c.pinned_window = j.at("pinned_window").get<std::string>();
+    if (j.contains("smoothing_half_life")) c.smoothing_half_life = j.at("smoothing_half_life").get<double>();
+    if (j.contains("min_shared_assets")) c.min_shared_assets = j.at("min_shared_assets").get<int>();
+    if (j.contains("alert_below")) c.alert_below = j.at("alert_below").get<double>();
+    if (j.contains("alert_below_pinned")) c.alert_below_pinned = j.at("alert_below_pinned").get<double>();
   } catch (const nlohmann::json::exception& e) {
     throw std::runtime_error(std::string("stored model configuration is not readable: ") + e.what());
   }
@@ -112,8 +174,14 @@ ModelConfig ModelConfig::from_json(const nlohmann::json& j) {
 }
 
 std::string ModelConfig::hash() const {
+  nlohmann::ordered_json j = to_json();
+  const ModelConfig defaults;
+  const nlohmann::ordered_json d = defaults.to_json();
+  for (const char* member : {"rotation", "kaiser_normalize", "align_to", "pinned_window", "smoothing_half_life",
+                             "min_shared_assets", "alert_below", "alert_below_pinned"})
+    if (j[member] == d[member]) j.erase(member);
   detail::Fingerprint f;
-  f.add(to_json().dump());
+  f.add(j.dump());
   return f.hex();
 }
 

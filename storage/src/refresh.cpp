@@ -8,8 +8,10 @@
 #include <set>
 #include <stdexcept>
 
+#include "align_windows.h"
 #include "asset_directory.h"
 #include "date_key.h"
+#include "factorwatch/engine/rotation.h"
 #include "factorwatch/storage/windows.h"
 #include "returns_span.h"
 
@@ -83,9 +85,11 @@ std::vector<std::string> pending_windows(Database& db, const ModelVersion& model
   return out;
 }
 
-RefreshSummary refresh_model(Database& db, const std::string& name, const RefreshCallback& progress,
-                             const std::atomic<bool>* stop) {
-  const auto start = Clock::now();
+namespace {
+
+// The first pass: fit the pending windows (see refresh.h).
+RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshCallback& progress,
+                           const std::atomic<bool>* stop, Clock::time_point start) {
   const std::optional<ModelVersion> model = find_model(db, name);
   if (!model) throw std::invalid_argument("no model named '" + name + "' (define it with: factorwatch model set " + name + ")");
   const ModelConfig& config = model->config;
@@ -112,6 +116,7 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
   }
 
   const engine::FitOptions base = config.fit_options();
+  const engine::RotationOptions rotation = config.rotation_options();
   const std::vector<std::int32_t> universe = universe_ids(db, config);
   if (!config.universe.empty() && universe.empty())
     throw std::invalid_argument("model '" + name + "': none of its " + std::to_string(config.universe.size()) +
@@ -145,7 +150,8 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
       if (p > 0) {
         if (previous_point != p - 1) {
           previous.reset();
-          if (auto stored = read_window(db, model->id, detail::iso_date(points[p - 1].as_of), false))
+          if (auto stored = read_window(db, model->id, detail::iso_date(points[p - 1].as_of), false,
+                                        WindowForm::as_fitted))
             previous = std::move(stored->fit);
         }
         if (previous && previous->IsSolutionUsable()) options.warm_start = warm_from(*previous);
@@ -160,6 +166,8 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
       record.configuration_hash = model->configuration_hash;
       const auto t_fit = Clock::now();
       record.fit = engine::fit(panel, options);
+      if (config.rotation != engine::RotationMethod::none && record.fit.IsSolutionUsable())
+        record.rotation = engine::rotate_fit_loadings(record.fit.standardized_loadings(), rotation).matrix;
       summary.fit_seconds += since(t_fit);
       if (!record.fit.IsSolutionUsable()) ++summary.unusable;
       if (plan.stale.count(point.as_of)) ++summary.refitted_stale;
@@ -176,6 +184,28 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
       previous_point = p;
       if (progress) progress({summary.fitted, pending.size(), summary.last_as_of, since(start)});
     }
+  }
+  summary.seconds = since(start);
+  return summary;
+}
+
+}  // namespace
+
+RefreshSummary refresh_model(Database& db, const std::string& name, const RefreshCallback& progress,
+                             const std::atomic<bool>* stop) {
+  const auto start = Clock::now();
+  RefreshSummary summary = fit_windows(db, name, progress, stop, start);
+  if (summary.stopped) return summary;
+  // The second pass: alignment and drift of every window that needs it (the new ones, and
+  // all after a refitted one), also when no window needed a fit.
+  const detail::AlignmentRun run = detail::align_windows(db, *find_model(db, name), stop);
+  summary.aligned = run.aligned;
+  summary.alerts = run.alerts;
+  summary.align_seconds = run.seconds;
+  if (run.stopped) {
+    summary.stopped = true;
+    summary.note = "stopped on request after aligning " + std::to_string(run.aligned) +
+                   " windows; the next refresh carries on";
   }
   summary.seconds = since(start);
   return summary;

@@ -4,13 +4,16 @@
 
 #include <cmath>
 #include <cstdio>
+#include <functional>
 #include <limits>
 #include <nlohmann/json.hpp>
 #include <stdexcept>
+#include <string_view>
 
 #include "asset_directory.h"
 #include "blob_codec.h"
 #include "date_key.h"
+#include "factorwatch/engine/factor_basis.h"
 
 namespace factorwatch::storage {
 namespace {
@@ -130,6 +133,7 @@ WindowRecord read_record(Database& db, SQLite::Statement& q) {
   fit.factor_covariance = matrix_column(q, "factor_covariance");
   fit.eigenvalues = vector_column(q, "eigenvalues");
   fit.explained_share = vector_column(q, "explained_share");
+  if (!q.getColumn("rotation").isNull()) w.rotation = matrix_column(q, "rotation");
   const auto n = static_cast<Eigen::Index>(fit.assets.size());
   if (fit.loadings.rows() != n || fit.specific_variance.size() != n || fit.heywood.size() != fit.assets.size())
     throw std::runtime_error("stored window " + w.as_of + ": the asset list and the loadings disagree in length");
@@ -149,12 +153,20 @@ void save_window(Database& db, long model_version_id, const WindowRecord& w) {
   }
   SQLite::Database& sql = db.sql();
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
+  // The replaced row's alignment and drift described other numbers.
+  for (const char* table : {"window_alignments", "window_drift", "drift_alerts"}) {
+    SQLite::Statement forget(sql, std::string("DELETE FROM ") + table +
+                                      " WHERE window_id IN (SELECT id FROM windows WHERE model_version_id = ? AND as_of = ?)");
+    forget.bind(1, static_cast<std::int64_t>(model_version_id));
+    forget.bind(2, detail::date_key(w.as_of, "as-of date"));
+    forget.exec();
+  }
   SQLite::Statement q(sql,
                       "INSERT OR REPLACE INTO windows (model_version_id, as_of, first_date, configuration_hash, "
                       "input_hash, asset_count, factors, usable, termination, assets, mean, scale, loadings, "
                       "specific_variance, communality, uniqueness, heywood, factor_covariance, eigenvalues, "
-                      "explained_share, statistics, fit_seconds, total_seconds, fitted_at, stale) VALUES "
-                      "(?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, 0)");
+                      "explained_share, statistics, fit_seconds, total_seconds, fitted_at, rotation, stale) VALUES "
+                      "(?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, 0)");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   q.bind(2, detail::date_key(w.as_of, "as-of date"));
   q.bind(3, detail::date_key(w.first_date, "first date"));
@@ -180,14 +192,17 @@ void save_window(Database& db, long model_version_id, const WindowRecord& w) {
   q.bind(22, fit.fit_seconds);
   q.bind(23, w.total_seconds);
   q.bind(24, w.fitted_at.empty() ? detail::utc_now() : w.fitted_at);
+  if (w.rotation.size() > 0) bind_blob(q, 25, detail::encode_doubles(w.rotation));
+  else q.bind(25);  // NULL: no rotation
   q.exec();
   transaction.commit();
 }
 
 std::vector<WindowSummary> list_windows(Database& db, long model_version_id) {
   SQLite::Statement q(db.sql(),
-                      "SELECT as_of, first_date, asset_count, factors, termination, usable, statistics, "
-                      "fit_seconds, total_seconds, stale FROM windows WHERE model_version_id = ? ORDER BY as_of");
+                      "SELECT w.as_of, w.first_date, w.asset_count, w.factors, w.termination, w.usable, w.statistics, "
+                      "w.fit_seconds, w.total_seconds, w.stale, a.status, a.residual FROM windows w "
+                      "LEFT JOIN window_alignments a ON a.window_id = w.id WHERE w.model_version_id = ? ORDER BY w.as_of");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   std::vector<WindowSummary> out;
   while (q.executeStep()) {
@@ -209,6 +224,8 @@ std::vector<WindowSummary> list_windows(Database& db, long model_version_id) {
     s.fit_seconds = q.getColumn(7).getDouble();
     s.total_seconds = q.getColumn(8).getDouble();
     s.stale = q.getColumn(9).getInt() != 0;
+    if (!q.getColumn(10).isNull()) s.alignment = q.getColumn(10).getString();
+    if (!q.getColumn(11).isNull()) s.alignment_residual = q.getColumn(11).getDouble();
     out.push_back(std::move(s));
   }
   return out;
@@ -227,29 +244,59 @@ WindowCounts count_windows(Database& db, long model_version_id) {
 }
 
 std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
-                                        bool at_or_before) {
+                                        bool at_or_before, WindowForm form) {
   std::string where = "WHERE model_version_id = ?1";
   if (!as_of.empty()) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
   SQLite::Statement q(db.sql(), "SELECT * FROM windows " + where + " ORDER BY as_of DESC LIMIT 1");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   if (!as_of.empty()) q.bind(2, detail::date_key(as_of, "as-of date"));
   if (!q.executeStep()) return std::nullopt;
-  return read_record(db, q);
+  WindowRecord record = read_record(db, q);
+  record.alignment = read_alignment(db, q.getColumn("id").getInt64());
+  if (form == WindowForm::served) serve_factors(record.fit, record.rotation, record.alignment ? &*record.alignment : nullptr);
+  return record;
+}
+
+void serve_factors(engine::FactorFit& fit, const Eigen::MatrixXd& rotation, const WindowAlignment* alignment) {
+  if (rotation.size() > 0) engine::change_factor_basis(fit, rotation);
+  if (alignment && alignment->matrix.size() > 0 && !alignment->matrix.isIdentity(0))
+    engine::change_factor_basis(fit, alignment->matrix);
+}
+
+std::optional<WindowAlignment> read_alignment(Database& db, long long window_id) {
+  SQLite::Statement q(db.sql(),
+                      "SELECT status, message, reference, reference_as_of, shared, alignment, residual, factor_fit, "
+                      "aligned_at FROM window_alignments WHERE window_id = ?");
+  q.bind(1, static_cast<std::int64_t>(window_id));
+  if (!q.executeStep()) return std::nullopt;
+  WindowAlignment a;
+  a.status = q.getColumn(0).getString();
+  a.message = q.getColumn(1).getString();
+  a.reference = q.getColumn(2).getString();
+  if (!q.getColumn(3).isNull()) a.reference_as_of = detail::iso_date(q.getColumn(3).getInt());
+  a.shared = q.getColumn(4).getInt64();
+  a.matrix = matrix_column(q, "alignment");
+  a.residual = q.getColumn(6).isNull() ? std::numeric_limits<double>::quiet_NaN() : q.getColumn(6).getDouble();
+  a.factor_fit = vector_column(q, "factor_fit");
+  a.aligned_at = q.getColumn(8).getString();
+  return a;
 }
 
 std::string WindowStamp::key() const {
   char seconds[32];
   std::snprintf(seconds, sizeof seconds, "%a", total_seconds);  // every bit of the timing
   return as_of + "|" + std::to_string(row_id) + "|" + fitted_at + "|" + input_hash + "|" + seconds + "|" +
-         (stale ? "stale" : "current");
+         (stale ? "stale" : "current") + "|" + alignment;
 }
 
 std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, const std::string& as_of,
                                              bool at_or_before) {
   std::string where = "WHERE model_version_id = ?1";
   if (!as_of.empty()) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
-  SQLite::Statement q(db.sql(), "SELECT as_of, id, fitted_at, input_hash, total_seconds, stale FROM windows " +
-                                    where + " ORDER BY as_of DESC LIMIT 1");
+  SQLite::Statement q(db.sql(),
+                      "SELECT w.as_of, w.id, w.fitted_at, w.input_hash, w.total_seconds, w.stale, "
+                      "(SELECT a.alignment FROM window_alignments a WHERE a.window_id = w.id) FROM windows w " +
+                          where + " ORDER BY as_of DESC LIMIT 1");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   if (!as_of.empty()) q.bind(2, detail::date_key(as_of, "as-of date"));
   if (!q.executeStep()) return std::nullopt;
@@ -260,6 +307,14 @@ std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id
   stamp.input_hash = q.getColumn(3).getString();
   stamp.total_seconds = q.getColumn(4).getDouble();
   stamp.stale = q.getColumn(5).getInt() != 0;
+  if (!q.getColumn(6).isNull()) {
+    // The alignment matrix itself: a realignment within the same second still changes the key.
+    const SQLite::Column r = q.getColumn(6);
+    const std::string_view bytes(static_cast<const char*>(r.getBlob()), static_cast<std::size_t>(r.getBytes()));
+    char text[32];
+    std::snprintf(text, sizeof text, "R%016zx", std::hash<std::string_view>{}(bytes));
+    stamp.alignment = text;
+  }
   return stamp;
 }
 

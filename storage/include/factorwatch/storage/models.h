@@ -9,9 +9,14 @@
 #include <vector>
 
 #include "factorwatch/engine/fit.h"
+#include "factorwatch/engine/rotation.h"
 #include "factorwatch/storage/database.h"
 
 namespace factorwatch::storage {
+
+enum class AlignTo { previous, pinned, smoothed };
+const char* to_string(AlignTo a);  // "previous", "pinned", "smoothed"
+std::optional<AlignTo> parse_align_to(const std::string& s);
 
 struct ModelConfig {
   std::vector<std::string> universe;  // assets to fit; empty = every stored asset
@@ -25,6 +30,31 @@ struct ModelConfig {
   double min_coverage = 0.8;          // share of a window's dates an asset needs
   std::string first_as_of;            // earliest as-of date to fit; "" = as early as the data allow
 
+  // Rotation of every window's loadings (none, varimax, promax), with or without Kaiser
+  // normalisation of the rows.
+  engine::RotationMethod rotation = engine::RotationMethod::none;
+  bool kaiser_normalize = true;
+  // What each window is aligned onto (orthogonal Procrustes on the shared assets): the
+  // previous window (chained), one pinned window, or an exponentially weighted average of
+  // the past aligned windows with this half-life in windows.
+  AlignTo align_to = AlignTo::previous;
+  std::string pinned_window;          // as-of date of the pinned window; "" = the model's first window
+  double smoothing_half_life = 20;    // windows; only with align_to smoothed
+  // Fewer shared assets than this (or than the number of factors, whichever is larger) and
+  // a window is left as fitted, with a status saying why.
+  int min_shared_assets = 20;
+  // Drift alerts; 0 turns one off. Bands of Lorenzo-Seva and ten Berge (2006): congruence
+  // 0.95 or more, the same factor; 0.85 to 0.95, fair similarity; below 0.85, not the same.
+  // Against the previous window, which shares all but `step` dates, every window where a
+  // factor's congruence is below alert_below is flagged: an abrupt break. Against the
+  // pinned window, a factor is flagged when its congruence falls below alert_below_pinned
+  // (once, not again in each later window that stays below): a gradual change, which is
+  // what a rolling window makes even of a sudden change in the data, shows there. Its
+  // default sits at the lower band because windows far apart differ by sampling noise
+  // alone (docs/methodology.md, "Drift alerts", has the demo's figures).
+  double alert_below = 0.95;
+  double alert_below_pinned = 0.85;
+
   // True when usable; otherwise *error names the field (as the CLI spells it) and the rule.
   bool IsValid(std::string* error) const;
   // The engine options of every window of this configuration (no warm start).
@@ -32,7 +62,12 @@ struct ModelConfig {
   nlohmann::ordered_json to_json() const;
   // Throws std::runtime_error on a configuration that is not one of ours.
   static ModelConfig from_json(const nlohmann::json& j);
-  std::string hash() const;  // fingerprint of the canonical JSON
+  // The rotation options of every window of this configuration.
+  engine::RotationOptions rotation_options() const;
+  // Fingerprint of the canonical JSON. Members added after schema 4 (rotation onwards)
+  // enter it only when they differ from their defaults, so a model defined before they
+  // existed keeps its hash, its version and its windows.
+  std::string hash() const;
 };
 
 struct ModelVersion {

@@ -12,6 +12,13 @@
 // whole windows, and the next refresh carries on from them. A resumed run warm-starts
 // from the stored window, which holds the very numbers the uninterrupted run would have
 // used, so both give the same windows.
+//
+// Each window is rotated by the model's rotation when it is fitted (the matrix T is
+// stored with it). A second pass then aligns every window that needs it onto its
+// reference (the previous window, a pinned window or a smoothed reference; orthogonal
+// Procrustes on the shared assets) and stores its drift against the previous and the
+// pinned window, with alerts. The fit itself is stored as the engine returned it; what
+// every surface serves is that fit times T and the alignment R (see windows.h).
 #pragma once
 
 #include <atomic>
@@ -44,6 +51,11 @@ struct RefreshSummary {
   double seconds = 0;
   // Reading: the stored returns, each window cut from them and its input fingerprint.
   double read_seconds = 0, fit_seconds = 0, write_seconds = 0;
+  // The second pass: windows aligned onto their reference and compared (drift), the
+  // alerts that raised, and its time (reading the windows included).
+  std::size_t aligned = 0;
+  std::size_t alerts = 0;
+  double align_seconds = 0;
   std::string note;  // e.g. why there is nothing to fit
   bool stopped = false;  // asked to stop: the windows written so far are whole and kept
 };

@@ -2,6 +2,7 @@
 // produced it (configuration hash, input fingerprint, as-of date, timing).
 #pragma once
 
+#include <limits>
 #include <optional>
 #include <string>
 #include <vector>
@@ -10,6 +11,24 @@
 #include "factorwatch/storage/database.h"
 
 namespace factorwatch::storage {
+
+// How a window's factors were aligned onto its reference (see refresh.h).
+struct WindowAlignment {
+  std::string status;        // engine::to_string(AlignmentStatus), or "not usable"
+  std::string message;       // in words
+  std::string reference;     // previous | pinned | smoothed
+  std::string reference_as_of;  // the reference window; "" for smoothed or none
+  long long shared = 0;      // assets both windows have
+  Eigen::MatrixXd matrix;    // R (k x k, orthogonal); identity unless aligned
+  double residual = 0;       // relative Procrustes residual; NaN unless aligned
+  Eigen::VectorXd factor_fit;  // congruence of each aligned factor with the reference
+  std::string aligned_at;    // UTC
+};
+
+// Which factors read_window returns: as the engine fitted them (canonical form; what the
+// next window warm-starts from), or as served: rotated by the model's rotation and
+// aligned onto the reference (what every surface shows; the same model L Phi L').
+enum class WindowForm { as_fitted, served };
 
 struct WindowRecord {
   std::string as_of;       // the window's last date
@@ -20,6 +39,11 @@ struct WindowRecord {
   double total_seconds = 0;  // reading, fitting and writing the window
   std::string fitted_at;     // UTC
   bool stale = false;        // returns inside the window changed after the fit
+  // T (k x k) of the model's rotation, computed when the window was fitted; empty = none.
+  Eigen::MatrixXd rotation;
+  // How the window was aligned; nullopt until the refresh has aligned it (read only:
+  // save_window ignores it and removes the old row's alignment and drift).
+  std::optional<WindowAlignment> alignment;
 };
 
 // One line of `factorwatch windows`.
@@ -39,6 +63,10 @@ struct WindowSummary {
   double fit_seconds = 0;
   double total_seconds = 0;
   bool stale = false;
+  // The window's alignment status (WindowAlignment::status), "not aligned yet" before the
+  // refresh aligned it, and its relative Procrustes residual (NaN unless aligned).
+  std::string alignment = "not aligned yet";
+  double alignment_residual = std::numeric_limits<double>::quiet_NaN();
 };
 
 // What tells one stored fit from another without reading its matrices: a key for the
@@ -51,11 +79,13 @@ struct WindowStamp {
   std::string input_hash;
   double total_seconds = 0;
   bool stale = false;
+  std::string alignment;  // fingerprint of the alignment R; "" until aligned (a realignment changes what is served)
 
   std::string key() const;  // all of the above in one string
 };
 
-// Inserts or replaces the window (model version, as-of) in its own transaction.
+// Inserts or replaces the window (model version, as-of) in its own transaction. A
+// replaced window's alignment, drift and alerts go with it (the refresh realigns).
 void save_window(Database& db, long model_version_id, const WindowRecord& window);
 
 std::vector<WindowSummary> list_windows(Database& db, long model_version_id);
@@ -72,7 +102,14 @@ WindowCounts count_windows(Database& db, long model_version_id);
 // The window with this as-of date, or with `at_or_before` the latest one at or before it;
 // as_of "" means the latest window. nullopt when there is none.
 std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
-                                        bool at_or_before = true);
+                                        bool at_or_before = true, WindowForm form = WindowForm::served);
+
+// The alignment row of a window (by its row id); nullopt until the refresh aligned it.
+std::optional<WindowAlignment> read_alignment(Database& db, long long window_id);
+
+// The fit's served form: rotation T, then alignment R (when given), applied to the loadings
+// and the factor covariance (engine::change_factor_basis).
+void serve_factors(engine::FactorFit& fit, const Eigen::MatrixXd& rotation, const WindowAlignment* alignment);
 
 // The stamp of the window read_window would return, from one indexed row, no BLOBs.
 // Throws std::invalid_argument for a malformed as-of date.

@@ -1,0 +1,69 @@
+// Drift between windows as the refresh stored it: per window, the comparison with the
+// previous usable window and with the pinned window (congruence per factor, principal
+// angles, changes of factor variances and explained shares, the assets that moved most),
+// and the alerts the model's thresholds raised. Also an asset's exposures across windows.
+#pragma once
+
+#include <Eigen/Dense>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "factorwatch/engine/drift.h"
+#include "factorwatch/storage/database.h"
+
+namespace factorwatch::storage {
+
+// How many of the assets that moved most are kept per factor and window.
+inline constexpr std::size_t kMoversKept = 10;
+
+struct DriftRecord {
+  std::string as_of;          // the window
+  std::string against;        // "previous" or "pinned"
+  std::string against_as_of;  // the window compared with
+  std::string status;         // engine::to_string(DriftStatus)
+  long long shared = 0;
+  Eigen::VectorXd congruence;                // per factor; empty unless compared
+  Eigen::VectorXd principal_angles_degrees;  // ascending
+  Eigen::VectorXd factor_variance_change;
+  Eigen::VectorXd explained_share_change;
+  double mean_exposure_change = 0;  // mean over shared assets of the standardized row change's norm
+  double communality_change = 0;    // mean absolute change, return units squared
+  // movers[j]: the assets whose standardized exposure to factor j + 1 changed most.
+  std::vector<std::vector<engine::AssetMove>> movers;
+};
+
+struct DriftAlert {
+  std::string as_of, against, against_as_of;
+  int factor = 0;  // 1-based
+  double congruence = 0, threshold = 0;
+  std::vector<engine::AssetMove> movers;  // of that factor
+};
+
+// Dates "" mean open ends; against "" means both comparisons. Ascending by as-of date.
+std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const std::string& from,
+                                    const std::string& to, const std::string& against = "");
+std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const std::string& from,
+                                    const std::string& to);
+
+// One window in an asset's history: its served exposures (rotated and aligned), specific
+// variance and communality, or absent (not in that window's fitted assets).
+struct ExposurePoint {
+  std::string as_of;
+  bool present = false;
+  Eigen::VectorXd exposures;  // k, return units
+  double specific_variance = 0, communality = 0;
+  std::string alignment;  // the window's alignment status
+};
+std::vector<ExposurePoint> read_exposure_history(Database& db, long model_version_id, const std::string& asset,
+                                                 const std::string& from, const std::string& to);
+
+// The whole comparison of one window with another, computed from the stored (served)
+// factors: every shared asset's change, not only the movers kept. nullopt when either
+// window is missing.
+std::optional<engine::DriftComparison> compare_stored_windows(Database& db, long model_version_id,
+                                                              const std::string& as_of,
+                                                              const std::string& against_as_of,
+                                                              int min_shared);
+
+}  // namespace factorwatch::storage

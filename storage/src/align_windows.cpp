@@ -1,0 +1,371 @@
+#include "align_windows.h"
+
+#include <SQLiteCpp/SQLiteCpp.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "blob_codec.h"
+#include "date_key.h"
+#include "factorwatch/engine/alignment.h"
+#include "factorwatch/engine/drift.h"
+#include "factorwatch/engine/factor_basis.h"
+#include "factorwatch/storage/drift.h"
+#include "factorwatch/storage/windows.h"
+
+namespace factorwatch::storage::detail {
+namespace {
+
+using Clock = std::chrono::steady_clock;
+constexpr std::size_t kNone = static_cast<std::size_t>(-1);
+// Windows written per transaction: one commit (and WAL sync) per window would cost more
+// than the alignment itself; a stop still leaves whole windows.
+constexpr std::size_t kWindowsPerCommit = 32;
+
+struct Row {
+  long long id = 0;
+  std::int32_t as_of = 0;
+  bool usable = false;
+  bool aligned = false;
+};
+
+std::vector<Row> rows_of(Database& db, long model_version_id) {
+  SQLite::Statement q(db.sql(),
+                      "SELECT w.id, w.as_of, w.usable, a.window_id IS NOT NULL FROM windows w "
+                      "LEFT JOIN window_alignments a ON a.window_id = w.id WHERE w.model_version_id = ? ORDER BY w.as_of");
+  q.bind(1, static_cast<std::int64_t>(model_version_id));
+  std::vector<Row> rows;
+  while (q.executeStep())
+    rows.push_back({q.getColumn(0).getInt64(), q.getColumn(1).getInt(), q.getColumn(2).getInt() != 0,
+                    q.getColumn(3).getInt() != 0});
+  return rows;
+}
+
+engine::NamedLoadings standardized(const engine::FactorFit& fit) { return {fit.assets, fit.standardized_loadings()}; }
+
+engine::WindowFactors factors_of(const engine::FactorFit& fit) {
+  return {fit.assets, fit.loadings, fit.scale, fit.factor_covariance, fit.explained_share};
+}
+
+// A stored window as served (its rotation and its stored alignment applied); nullopt when
+// it is missing or its fit is not usable.
+std::optional<engine::FactorFit> served_window(Database& db, long model_version_id, std::int32_t as_of) {
+  auto w = read_window(db, model_version_id, iso_date(as_of), false, WindowForm::served);
+  if (!w || !w->fit.IsSolutionUsable()) return std::nullopt;
+  return std::move(w->fit);
+}
+
+void bind_blob(SQLite::Statement& q, int index, const std::string& bytes) {
+  q.bind(index, bytes.data(), static_cast<int>(bytes.size()));
+}
+
+void forget_drift(SQLite::Database& sql, long long window_id, const char* against) {
+  for (const char* table : {"window_drift", "drift_alerts"}) {
+    SQLite::Statement q(sql, std::string("DELETE FROM ") + table + " WHERE window_id = ?" +
+                                 (against ? " AND against = ?" : ""));
+    q.bind(1, static_cast<std::int64_t>(window_id));
+    if (against) q.bind(2, against);
+    q.exec();
+  }
+}
+
+struct AlignmentRow {
+  std::string status, message, reference;
+  std::optional<std::int32_t> reference_as_of;
+  long long shared = 0;
+  Eigen::MatrixXd matrix;
+  double residual = std::nan("");
+  Eigen::VectorXd factor_fit;
+};
+
+void write_alignment(SQLite::Database& sql, long long window_id, const AlignmentRow& a) {
+  SQLite::Statement q(sql,
+                      "INSERT OR REPLACE INTO window_alignments (window_id, status, message, reference, "
+                      "reference_as_of, shared, alignment, residual, factor_fit, aligned_at) "
+                      "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
+  q.bind(1, static_cast<std::int64_t>(window_id));
+  q.bind(2, a.status);
+  q.bind(3, a.message);
+  q.bind(4, a.reference);
+  if (a.reference_as_of) q.bind(5, *a.reference_as_of);
+  else q.bind(5);
+  q.bind(6, static_cast<std::int64_t>(a.shared));
+  bind_blob(q, 7, encode_doubles(a.matrix));
+  if (std::isfinite(a.residual)) q.bind(8, a.residual);
+  else q.bind(8);
+  bind_blob(q, 9, encode_doubles(a.factor_fit));
+  q.bind(10, utc_now());
+  q.exec();
+}
+
+bool below(double congruence, double threshold) {
+  return !(std::isfinite(congruence) && congruence >= threshold);  // a NaN congruence (a vanished factor) is below
+}
+
+// Stores one comparison and the alerts its congruences raise; returns the alert count.
+// With `prior` (the previous window's congruences against the same pinned window), a
+// factor is flagged only when it falls below the threshold, not again in every later
+// window that stays below: a change since the pinned window is news once.
+std::size_t write_drift(SQLite::Database& sql, long long window_id, const char* against, std::int32_t against_as_of,
+                        const engine::DriftComparison& d, double threshold, const Eigen::VectorXd* prior = nullptr) {
+  nlohmann::json movers = nlohmann::json::array();
+  const auto k = static_cast<int>(d.congruence.size());
+  for (int j = 0; j < k; ++j) {
+    nlohmann::json factor = nlohmann::json::array();
+    for (const engine::AssetMove& m : engine::largest_moves(d, j, kMoversKept))
+      factor.push_back({{"asset", m.asset}, {"standardized_change", m.standardized_change},
+                        {"exposure_change", m.exposure_change}});
+    movers.push_back(std::move(factor));
+  }
+  const bool compared = d.status == engine::DriftStatus::compared && d.standardized_change.rows() > 0;
+  double mean_change = 0;  // a plain loop: Eigen's vectorised rowwise().norm() trips GCC 12's AVX-512 warnings
+  if (compared) {
+    const Eigen::VectorXd squares = d.standardized_change.rowwise().squaredNorm();
+    for (Eigen::Index i = 0; i < squares.size(); ++i) mean_change += std::sqrt(squares(i));
+    mean_change /= static_cast<double>(squares.size());
+  }
+  const double communality_change = compared ? d.communality_change.cwiseAbs().mean() : 0.0;
+  SQLite::Statement q(sql,
+                      "INSERT OR REPLACE INTO window_drift (window_id, against, against_as_of, status, shared, "
+                      "congruence, principal_angles, factor_variance_change, explained_share_change, "
+                      "mean_exposure_change, communality_change, movers) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
+  q.bind(1, static_cast<std::int64_t>(window_id));
+  q.bind(2, against);
+  q.bind(3, against_as_of);
+  q.bind(4, engine::to_string(d.status));
+  q.bind(5, static_cast<std::int64_t>(d.assets.size()));
+  bind_blob(q, 6, encode_doubles(d.congruence));
+  bind_blob(q, 7, encode_doubles(d.principal_angles_degrees));
+  bind_blob(q, 8, encode_doubles(d.factor_variance_change));
+  bind_blob(q, 9, encode_doubles(d.explained_share_change));
+  q.bind(10, mean_change);
+  q.bind(11, communality_change);
+  q.bind(12, movers.dump());
+  q.exec();
+  std::size_t alerts = 0;
+  if (!(threshold > 0) || !compared) return alerts;
+  for (int j = 0; j < k; ++j) {
+    const double c = d.congruence(j);
+    if (!below(c, threshold)) continue;
+    if (prior && prior->size() == k && below((*prior)(j), threshold)) continue;  // already below: flagged before
+    SQLite::Statement alert(sql, "INSERT OR REPLACE INTO drift_alerts (window_id, against, factor, congruence, threshold) "
+                                 "VALUES (?, ?, ?, ?, ?)");
+    alert.bind(1, static_cast<std::int64_t>(window_id));
+    alert.bind(2, against);
+    alert.bind(3, j + 1);
+    alert.bind(4, std::isfinite(c) ? c : -2.0);  // below any congruence: stored as -2, read back as NaN
+    alert.bind(5, threshold);
+    alert.exec();
+    ++alerts;
+  }
+  return alerts;
+}
+
+}  // namespace
+
+AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::atomic<bool>* stop) {
+  const auto start_time = Clock::now();
+  AlignmentRun run;
+  const ModelConfig& c = model.config;
+  const std::vector<Row> rows = rows_of(db, model.id);
+  const auto missing = std::find_if(rows.begin(), rows.end(), [](const Row& r) { return !r.aligned; });
+  if (missing == rows.end()) return run;
+
+  std::size_t pinned = kNone;
+  if (!rows.empty()) {
+    if (c.pinned_window.empty()) {
+      pinned = 0;
+    } else {
+      const std::int32_t key = date_key(c.pinned_window, "pinned window");
+      for (std::size_t i = 0; i < rows.size() && pinned == kNone; ++i)
+        if (rows[i].as_of >= key) pinned = i;
+    }
+  }
+  std::size_t start = static_cast<std::size_t>(missing - rows.begin());
+  if (pinned != kNone && start <= pinned) start = 0;  // every window is compared with the pinned one
+
+  const engine::AlignmentOptions options{std::max(c.min_shared_assets, c.factors)};
+  const Eigen::Index min_shared = options.min_shared_assets;
+  const std::string kind = to_string(c.align_to);
+
+  std::optional<engine::FactorFit> previous;  // served, the last usable window before the current one
+  std::int32_t previous_as_of = 0;
+  std::optional<engine::FactorFit> pinned_fit;  // served
+  bool pinned_known = false;
+  std::unique_ptr<engine::SmoothedReference> smooth;
+  if (c.align_to == AlignTo::smoothed) smooth = std::make_unique<engine::SmoothedReference>(c.smoothing_half_life);
+
+  // What the windows before `start` contribute: they keep their alignment.
+  for (std::size_t j = start; j-- > 0;)
+    if (rows[j].usable) {
+      previous = served_window(db, model.id, rows[j].as_of);
+      previous_as_of = rows[j].as_of;
+      break;
+    }
+  if (smooth)
+    for (std::size_t j = 0; j < start; ++j)
+      if (rows[j].usable)
+        if (auto fit = served_window(db, model.id, rows[j].as_of)) smooth->add(standardized(*fit));
+  if (pinned != kNone && pinned < start) {
+    pinned_fit = served_window(db, model.id, rows[pinned].as_of);
+    pinned_known = true;
+  }
+  // Aligned onto the pinned window, that window's frame is its own (rotated) fit.
+  if (c.align_to == AlignTo::pinned && pinned != kNone && !pinned_known) {
+    if (auto w = read_window(db, model.id, iso_date(rows[pinned].as_of), false, WindowForm::as_fitted);
+        w && w->fit.IsSolutionUsable()) {
+      engine::change_factor_basis(w->fit, w->rotation);
+      pinned_fit = std::move(w->fit);
+    }
+    pinned_known = true;
+  }
+
+  SQLite::Database& sql = db.sql();
+  std::optional<SQLite::Transaction> transaction;
+  std::size_t in_transaction = 0;
+  const auto commit = [&] {
+    if (transaction) transaction->commit();
+    transaction.reset();
+    in_transaction = 0;
+  };
+  std::vector<std::size_t> deferred;  // compared with the pinned window once it is aligned
+  // The previous usable window's congruences with the pinned window: an alert against the
+  // pinned window is raised when a factor falls below the threshold, moving away from it.
+  const Eigen::VectorXd at_pinned = Eigen::VectorXd::Ones(c.factors);
+  std::optional<Eigen::VectorXd> prior_pinned;
+  if (pinned != kNone && start > pinned) {
+    for (std::size_t j = start; j-- > pinned && !prior_pinned;) {
+      if (!rows[j].usable) continue;
+      if (j == pinned) {
+        prior_pinned = at_pinned;
+      } else {
+        const std::string date = iso_date(rows[j].as_of);
+        const auto stored = read_drift(db, model.id, date, date, "pinned");
+        prior_pinned = stored.empty() ? at_pinned : stored.front().congruence;
+      }
+    }
+  }
+
+  for (std::size_t i = start; i < rows.size(); ++i) {
+    if (stop && stop->load()) {
+      // Windows still waiting for their comparison with the pinned window lose their
+      // alignment too, so the next run (which starts at the first unaligned window) redoes them.
+      if (!deferred.empty() && !transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
+      for (std::size_t d : deferred) {
+        SQLite::Statement forget(sql, "DELETE FROM window_alignments WHERE window_id = ?");
+        forget.bind(1, static_cast<std::int64_t>(rows[d].id));
+        forget.exec();
+      }
+      commit();
+      run.stopped = true;
+      run.seconds = std::chrono::duration<double>(Clock::now() - start_time).count();
+      return run;
+    }
+    std::optional<WindowRecord> record = read_window(db, model.id, iso_date(rows[i].as_of), false, WindowForm::as_fitted);
+    if (!transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
+    forget_drift(sql, rows[i].id, nullptr);
+    AlignmentRow row;
+    row.reference = kind;
+    if (!record || !record->fit.IsSolutionUsable()) {
+      row.status = "not usable";
+      row.message = "the fit of this window is not usable: nothing to align or compare";
+      row.matrix = Eigen::MatrixXd::Identity(c.factors, c.factors);
+      write_alignment(sql, rows[i].id, row);
+      ++run.aligned;
+      if (++in_transaction == kWindowsPerCommit) commit();
+      continue;
+    }
+    engine::FactorFit fit = std::move(record->fit);
+    engine::change_factor_basis(fit, record->rotation);
+
+    engine::NamedLoadings reference;
+    std::string no_reference;
+    switch (c.align_to) {
+      case AlignTo::previous:
+        if (previous) {
+          reference = standardized(*previous);
+          row.reference_as_of = previous_as_of;
+        } else {
+          no_reference = "the first usable window: the frame later windows are chained to";
+        }
+        break;
+      case AlignTo::pinned:
+        if (i == pinned) {
+          no_reference = "the pinned window: the frame the other windows are aligned to";
+        } else if (pinned_fit) {
+          reference = standardized(*pinned_fit);
+          row.reference_as_of = rows[pinned].as_of;
+        } else {
+          no_reference = pinned == kNone ? "the pinned window " + c.pinned_window + " is not fitted yet"
+                                         : "the pinned window's fit is not usable";
+        }
+        break;
+      case AlignTo::smoothed:
+        if (smooth && !smooth->empty()) reference = smooth->reference();
+        else no_reference = "the first usable window: the smoothed reference starts from it";
+        break;
+    }
+    const engine::Alignment alignment = engine::align_to_reference(standardized(fit), reference, options);
+    row.status = engine::to_string(alignment.status);
+    row.message = no_reference.empty() ? alignment.message : no_reference;
+    row.shared = alignment.shared;
+    row.matrix = alignment.rotation;
+    row.residual = alignment.residual;
+    row.factor_fit = alignment.factor_fit;
+    if (alignment.status == engine::AlignmentStatus::aligned) engine::change_factor_basis(fit, alignment.rotation);
+    write_alignment(sql, rows[i].id, row);
+    if (i == pinned && !pinned_known) {
+      pinned_fit = fit;
+      pinned_known = true;
+    }
+
+    const engine::WindowFactors now = factors_of(fit);
+    if (previous)
+      run.alerts += write_drift(sql, rows[i].id, "previous", previous_as_of,
+                                engine::compare_factors(now, factors_of(*previous), min_shared), c.alert_below);
+    if (i == pinned) prior_pinned = at_pinned;
+    if (pinned != kNone && i != pinned) {
+      if (i < pinned) {
+        deferred.push_back(i);  // compared after the loop, walking back from the pinned window
+      } else if (pinned_fit) {
+        const engine::DriftComparison d = engine::compare_factors(now, factors_of(*pinned_fit), min_shared);
+        run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned,
+                                  prior_pinned ? &*prior_pinned : nullptr);
+        if (d.status == engine::DriftStatus::compared) prior_pinned = d.congruence;
+      }
+    }
+    if (smooth) smooth->add(standardized(fit));
+    previous = std::move(fit);
+    previous_as_of = rows[i].as_of;
+    ++run.aligned;
+    if (++in_transaction == kWindowsPerCommit) commit();
+  }
+  commit();
+
+  // Windows before the pinned one, from the nearest back: "falls below" moving away from it.
+  if (pinned_fit) {
+    std::optional<Eigen::VectorXd> prior = at_pinned;
+    for (auto it = deferred.rbegin(); it != deferred.rend(); ++it) {
+      const std::size_t i = *it;
+      const std::optional<engine::FactorFit> fit = served_window(db, model.id, rows[i].as_of);
+      if (!fit) continue;
+      if (!transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
+      forget_drift(sql, rows[i].id, "pinned");
+      const engine::DriftComparison d = engine::compare_factors(factors_of(*fit), factors_of(*pinned_fit), min_shared);
+      run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned, &*prior);
+      if (d.status == engine::DriftStatus::compared) prior = d.congruence;
+      if (++in_transaction == kWindowsPerCommit) commit();
+    }
+    commit();
+  }
+  run.seconds = std::chrono::duration<double>(Clock::now() - start_time).count();
+  return run;
+}
+
+}  // namespace factorwatch::storage::detail

@@ -1,0 +1,170 @@
+#include "factorwatch/storage/drift.h"
+
+#include <SQLiteCpp/SQLiteCpp.h>
+
+#include <cmath>
+#include <limits>
+#include <map>
+#include <nlohmann/json.hpp>
+
+#include "asset_directory.h"
+#include "blob_codec.h"
+#include "date_key.h"
+#include "factorwatch/storage/windows.h"
+
+namespace factorwatch::storage {
+namespace {
+
+Eigen::VectorXd vector_column(SQLite::Statement& q, int index, const char* name) {
+  const SQLite::Column c = q.getColumn(index);
+  return detail::decode_vector(c.getBlob(), static_cast<std::size_t>(c.getBytes()), name);
+}
+
+Eigen::MatrixXd matrix_column(SQLite::Statement& q, int index, const char* name) {
+  const SQLite::Column c = q.getColumn(index);
+  return detail::decode_matrix(c.getBlob(), static_cast<std::size_t>(c.getBytes()), name);
+}
+
+// " AND <column> >= ?n AND <column> <= ?m" for the given ends, binding from `next`.
+struct DateRange {
+  std::string sql;
+  std::vector<std::int32_t> values;
+};
+DateRange date_range(const std::string& column, const std::string& from, const std::string& to) {
+  DateRange r;
+  if (!from.empty()) {
+    r.sql += " AND " + column + " >= ?";
+    r.values.push_back(detail::date_key(from, "from date"));
+  }
+  if (!to.empty()) {
+    r.sql += " AND " + column + " <= ?";
+    r.values.push_back(detail::date_key(to, "to date"));
+  }
+  return r;
+}
+
+std::vector<engine::AssetMove> parse_moves(const nlohmann::json& j) {
+  std::vector<engine::AssetMove> out;
+  for (const auto& m : j)
+    out.push_back({m.at("asset").get<std::string>(), m.at("standardized_change").get<double>(),
+                   m.at("exposure_change").get<double>()});
+  return out;
+}
+
+}  // namespace
+
+std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const std::string& from,
+                                    const std::string& to, const std::string& against) {
+  const DateRange range = date_range("w.as_of", from, to);
+  SQLite::Statement q(db.sql(),
+                      "SELECT w.as_of, d.against, d.against_as_of, d.status, d.shared, d.congruence, d.principal_angles, "
+                      "d.factor_variance_change, d.explained_share_change, d.mean_exposure_change, d.communality_change, "
+                      "d.movers FROM window_drift d JOIN windows w ON w.id = d.window_id WHERE w.model_version_id = ?" +
+                          range.sql + (against.empty() ? "" : " AND d.against = ?") +
+                          " ORDER BY w.as_of, d.against DESC");
+  int index = 1;
+  q.bind(index++, static_cast<std::int64_t>(model_version_id));
+  for (std::int32_t v : range.values) q.bind(index++, v);
+  if (!against.empty()) q.bind(index++, against);
+  std::vector<DriftRecord> out;
+  while (q.executeStep()) {
+    DriftRecord r;
+    r.as_of = detail::iso_date(q.getColumn(0).getInt());
+    r.against = q.getColumn(1).getString();
+    r.against_as_of = detail::iso_date(q.getColumn(2).getInt());
+    r.status = q.getColumn(3).getString();
+    r.shared = q.getColumn(4).getInt64();
+    r.congruence = vector_column(q, 5, "congruence");
+    r.principal_angles_degrees = vector_column(q, 6, "principal_angles");
+    r.factor_variance_change = vector_column(q, 7, "factor_variance_change");
+    r.explained_share_change = vector_column(q, 8, "explained_share_change");
+    r.mean_exposure_change = q.getColumn(9).getDouble();
+    r.communality_change = q.getColumn(10).getDouble();
+    for (const auto& factor : nlohmann::json::parse(q.getColumn(11).getString())) r.movers.push_back(parse_moves(factor));
+    out.push_back(std::move(r));
+  }
+  return out;
+}
+
+std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const std::string& from,
+                                    const std::string& to) {
+  const DateRange range = date_range("w.as_of", from, to);
+  SQLite::Statement q(db.sql(),
+                      "SELECT w.as_of, a.against, d.against_as_of, a.factor, a.congruence, a.threshold, d.movers "
+                      "FROM drift_alerts a JOIN windows w ON w.id = a.window_id "
+                      "JOIN window_drift d ON d.window_id = a.window_id AND d.against = a.against "
+                      "WHERE w.model_version_id = ?" +
+                          range.sql + " ORDER BY w.as_of, a.against DESC, a.factor");
+  int index = 1;
+  q.bind(index++, static_cast<std::int64_t>(model_version_id));
+  for (std::int32_t v : range.values) q.bind(index++, v);
+  std::vector<DriftAlert> out;
+  while (q.executeStep()) {
+    DriftAlert a;
+    a.as_of = detail::iso_date(q.getColumn(0).getInt());
+    a.against = q.getColumn(1).getString();
+    a.against_as_of = detail::iso_date(q.getColumn(2).getInt());
+    a.factor = q.getColumn(3).getInt();
+    a.congruence = q.getColumn(4).getDouble();
+    if (a.congruence < -1.5) a.congruence = std::numeric_limits<double>::quiet_NaN();  // a vanished factor
+    a.threshold = q.getColumn(5).getDouble();
+    const nlohmann::json movers = nlohmann::json::parse(q.getColumn(6).getString());
+    if (a.factor >= 1 && static_cast<std::size_t>(a.factor) <= movers.size()) a.movers = parse_moves(movers[a.factor - 1]);
+    out.push_back(std::move(a));
+  }
+  return out;
+}
+
+std::vector<ExposurePoint> read_exposure_history(Database& db, long model_version_id, const std::string& asset,
+                                                 const std::string& from, const std::string& to) {
+  const std::int32_t id = db.assets().id(asset);
+  const DateRange range = date_range("w.as_of", from, to);
+  // Only the columns an asset's row needs: not the statistics, means or eigenvalues.
+  SQLite::Statement q(db.sql(),
+                      "SELECT w.as_of, w.usable, w.assets, w.loadings, w.specific_variance, w.communality, "
+                      "w.factor_covariance, w.rotation, a.alignment, a.status FROM windows w "
+                      "LEFT JOIN window_alignments a ON a.window_id = w.id WHERE w.model_version_id = ?" +
+                          range.sql + " ORDER BY w.as_of");
+  int index = 1;
+  q.bind(index++, static_cast<std::int64_t>(model_version_id));
+  for (std::int32_t v : range.values) q.bind(index++, v);
+  std::vector<ExposurePoint> out;
+  while (q.executeStep()) {
+    ExposurePoint p;
+    p.as_of = detail::iso_date(q.getColumn(0).getInt());
+    p.alignment = q.getColumn(9).isNull() ? "not aligned yet" : q.getColumn(9).getString();
+    const SQLite::Column ids = q.getColumn(2);
+    const std::vector<std::int32_t> assets =
+        detail::decode_int32s(ids.getBlob(), static_cast<std::size_t>(ids.getBytes()), "assets");
+    std::size_t row = assets.size();
+    for (std::size_t i = 0; i < assets.size() && id >= 0; ++i)
+      if (assets[i] == id) row = i;
+    if (row < assets.size() && q.getColumn(1).getInt() != 0) {
+      const Eigen::MatrixXd loadings = matrix_column(q, 3, "loadings");
+      Eigen::RowVectorXd exposures = loadings.row(static_cast<Eigen::Index>(row));
+      // The served basis: rotation T, then alignment R (orthogonal, or a change of basis).
+      if (!q.getColumn(7).isNull()) exposures = exposures * matrix_column(q, 7, "rotation");
+      if (!q.getColumn(8).isNull()) exposures = exposures * matrix_column(q, 8, "alignment");
+      p.present = true;
+      p.exposures = exposures.transpose();
+      p.specific_variance = vector_column(q, 4, "specific_variance")(static_cast<Eigen::Index>(row));
+      p.communality = vector_column(q, 5, "communality")(static_cast<Eigen::Index>(row));
+    }
+    out.push_back(std::move(p));
+  }
+  return out;
+}
+
+std::optional<engine::DriftComparison> compare_stored_windows(Database& db, long model_version_id,
+                                                              const std::string& as_of,
+                                                              const std::string& against_as_of, int min_shared) {
+  const auto now = read_window(db, model_version_id, as_of, false);
+  const auto then = read_window(db, model_version_id, against_as_of, false);
+  if (!now || !then || !now->fit.IsSolutionUsable() || !then->fit.IsSolutionUsable()) return std::nullopt;
+  const auto factors = [](const engine::FactorFit& f) {
+    return engine::WindowFactors{f.assets, f.loadings, f.scale, f.factor_covariance, f.explained_share};
+  };
+  return engine::compare_factors(factors(now->fit), factors(then->fit), min_shared);
+}
+
+}  // namespace factorwatch::storage
