@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # The main job on the demo universe, from a fresh Debian/Ubuntu machine: install the
 # dependencies, build, generate the fictional demo universe, load it into the database,
-# define a demo model, refresh it (fit its rolling windows), print the latest exposures,
+# define a demo model, refresh it (fit, align and compare its rolling windows), print the
+# latest exposures and the drift alerts,
 # then start the HTTP daemon on it (Ctrl-C or SIGTERM stops it). Run it again and it
 # finds everything current: the load changes nothing and the refresh fits nothing.
 #
@@ -28,6 +29,9 @@ fw=./build/server/factorwatch
 "$fw" model set demo --method ml --factors 4 --window 504 --step 1 --first-as-of 2023-06-01
 "$fw" refresh demo
 "$fw" exposures demo --limit 12
+# How the factor structure drifted: the windows where a factor stopped matching the first
+# window (the demo's planted change shows here), with the assets that moved most.
+"$fw" alerts demo
 if [ "$serve" = 1 ]; then
   echo
   echo "Starting the HTTP daemon on this database (Ctrl-C stops it; docs/api.md lists the routes)."

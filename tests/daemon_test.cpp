@@ -13,6 +13,7 @@
 #include <thread>
 
 #include "daemon_fixture.h"
+#include "factorwatch/storage/database.h"
 #include "factorwatch/engine/caution.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
@@ -58,7 +59,7 @@ TEST(Daemon, BecomesReadyAndPrintsAddressTokenCommandAndAnExample) {
   ASSERT_TRUE(daemon.ready()) << daemon.log();
   const json health = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/health")).body);
   EXPECT_EQ(health["status"], "ready");
-  EXPECT_EQ(health["schema_version"], 4);
+  EXPECT_EQ(health["schema_version"], factorwatch::storage::current_schema_version());
   const json version = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/version")).body);
   EXPECT_EQ(version["api"], "v1");
   const std::string banner = daemon.banner();
@@ -427,3 +428,175 @@ TEST(Daemon, PythonExampleUploadsRefreshesAndPrintsExposures) {
 }
 
 }  // namespace
+
+// The rotation, alignment and alert members of PUT /v1/models/{name} round-trip through
+// GET and the CLI's `model show`; bad values are problems naming the member.
+TEST(Daemon, ModelAlignmentOptionsRoundTripThroughPutAndShow) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  const std::string definition =
+      R"({"factors":2,"window":60,"step":10,"method":"pca","rotation":"promax","kaiser_normalize":false,)"
+      R"("align_to":"pinned","pinned_window":"2021-04-01","smoothing_half_life":7.5,"min_shared_assets":30,)"
+      R"("alert_below":0.9,"alert_below_pinned":0.85})";
+  auto put = fw::curl(dir.path(), bearer(token) + " -X PUT -d '" + definition + "'", daemon.url("/v1/models/m"));
+  ASSERT_EQ(put.status, 201) << put.body;
+  const json shown = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m")).body)["configuration"];
+  EXPECT_EQ(shown["rotation"], "promax");
+  EXPECT_EQ(shown["kaiser_normalize"], false);
+  EXPECT_EQ(shown["align_to"], "pinned");
+  EXPECT_EQ(shown["pinned_window"], "2021-04-01");
+  EXPECT_EQ(shown["smoothing_half_life"], 7.5);
+  EXPECT_EQ(shown["min_shared_assets"], 30);
+  EXPECT_EQ(shown["alert_below"], 0.9);
+  EXPECT_EQ(shown["alert_below_pinned"], 0.85);
+  // The command line reads the same configuration.
+  EXPECT_EQ(json::parse(fw::run_factorwatch(dir.path(), "model show m --format json").out)["configuration"], shown);
+  // null pins the first window again; members left out keep their values.
+  put = fw::curl(dir.path(), bearer(token) + " -X PUT -d '{\"pinned_window\":null,\"rotation\":\"varimax\"}'",
+                 daemon.url("/v1/models/m"));
+  ASSERT_EQ(put.status, 200) << put.body;
+  const json changed = json::parse(put.body);
+  EXPECT_EQ(changed["version"], 2);
+  EXPECT_EQ(changed["configuration"]["pinned_window"], "");
+  EXPECT_EQ(changed["configuration"]["rotation"], "varimax");
+  EXPECT_EQ(changed["configuration"]["align_to"], "pinned");
+  EXPECT_NE(fw::run_factorwatch(dir.path(), "model show m").out.find("pinned window: the first window"), std::string::npos);
+
+  for (const auto& [body, member] : std::vector<std::pair<std::string, std::string>>{
+           {R"({"rotation":"sideways"})", "rotation"},
+           {R"({"kaiser_normalize":"yes"})", "kaiser_normalize"},
+           {R"({"align_to":3})", "align_to"},
+           {R"({"pinned_window":"2021-02-30"})", "pinned_window"},
+           {R"({"pinned_window":5})", "pinned_window"},
+           {R"({"smoothing_half_life":0})", "smoothing_half_life"},
+           {R"({"min_shared_assets":1.5})", "min_shared_assets"},
+           {R"({"alert_below":2})", "alert_below"},
+           {R"({"alert_below_pinned":"off"})", "alert_below_pinned"}}) {
+    const auto r = fw::curl(dir.path(), bearer(token) + " -X PUT -d '" + body + "'", daemon.url("/v1/models/m"));
+    EXPECT_EQ(r.status, 400) << body << " " << r.body;
+    const json p = json::parse(r.body);
+    EXPECT_EQ(p["field"], member) << body << " " << r.body;
+    EXPECT_NE(p["detail"].get<std::string>().find("member '" + member + "'"), std::string::npos) << r.body;
+  }
+  const auto unknown = fw::curl(dir.path(), bearer(token) + " -X PUT -d '{\"colour\":1}'", daemon.url("/v1/models/m"));
+  EXPECT_NE(json::parse(unknown.body)["detail"].get<std::string>().find("alert_below_pinned"), std::string::npos);
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m")).body)["version"], 2);
+}
+
+// Drift, history and alerts: the daemon's CSV is the CLI's byte for byte and its JSON the
+// CLI's; the caution in the header, the first line and the first member. A refresh run as
+// a job reports the alignment pass. The thresholds are set high (0.999) so that the
+// sampling noise between windows of this planted model (invented data) raises alerts.
+TEST(Daemon, DriftHistoryAndAlertsMatchTheCommandLine) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  load_and_fit(dir, daemon, token, 200,
+               R"({"factors":2,"window":60,"step":10,"method":"pca","rotation":"varimax","alert_below":0.999,)"
+               R"("alert_below_pinned":0.99})");
+  const json windows = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m/windows")).body)["windows"];
+  ASSERT_EQ(windows.size(), 15u);  // (200 - 60) / 10 + 1
+  EXPECT_EQ(windows[1]["alignment"], "aligned");
+  const std::string w5 = windows[5]["as_of"], w9 = windows[9]["as_of"];
+  const std::string caution = factorwatch::engine::kCaution;
+  struct Pair {
+    std::string query, command;
+  };
+  const std::vector<Pair> pairs = {
+      {"/v1/models/m/drift", "drift m"},
+      {"/v1/models/m/drift?against=pinned&from=" + w5 + "&to=" + w9, "drift m --against pinned --from " + w5 + " --to " + w9},
+      {"/v1/models/m/drift?window=" + w9, "drift m --window " + w9},
+      {"/v1/models/m/drift?window=" + w9 + "&against=pinned", "drift m --window " + w9 + " --against pinned"},
+      {"/v1/models/m/history?asset=P1003", "history m P1003"},
+      {"/v1/models/m/history?asset=P1003&from=" + w5, "history m P1003 --from " + w5},
+      {"/v1/models/m/alerts", "alerts m"},
+      {"/v1/models/m/alerts?to=" + w9, "alerts m --to " + w9},
+  };
+  for (const Pair& p : pairs) {
+    const std::string sep = p.query.find('?') == std::string::npos ? "?" : "&";
+    const auto csv = fw::curl(dir.path(), "", daemon.url(p.query + sep + "format=csv"));
+    ASSERT_EQ(csv.status, 200) << p.query << " " << csv.body;
+    EXPECT_EQ(csv.header("content-type"), "text/csv; charset=utf-8");
+    EXPECT_EQ(csv.header("factorwatch-caution"), caution);
+    EXPECT_NE(csv.header("content-disposition").find(".csv\""), std::string::npos);
+    EXPECT_EQ(csv.body.rfind("# caution: " + caution + "\n", 0), 0u);
+    const auto cli_csv = fw::run_factorwatch(dir.path(), p.command + " --format csv");
+    ASSERT_EQ(cli_csv.status, 0) << p.command << ": " << cli_csv.err;
+    EXPECT_EQ(csv.body, cli_csv.out) << p.query;
+    EXPECT_EQ(fw::curl(dir.path(), "-H 'Accept: text/csv'", daemon.url(p.query)).body, csv.body) << p.query;
+    const auto js = fw::curl(dir.path(), "", daemon.url(p.query));
+    ASSERT_EQ(js.status, 200) << p.query << " " << js.body;
+    EXPECT_EQ(js.header("content-type"), "application/json");
+    EXPECT_EQ(nlohmann::ordered_json::parse(js.body).begin().key(), "caution") << p.query;
+    EXPECT_EQ(json::parse(js.body), json::parse(fw::run_factorwatch(dir.path(), p.command + " --format json").out))
+        << p.query;
+  }
+  // Rows were there to compare: every window after the first against the previous and the
+  // pinned window, and alerts at these thresholds.
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m/drift")).body)["rows"].size(), 28u);
+  EXPECT_FALSE(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m/alerts")).body)["alerts"].empty());
+
+  // A refresh run as a job reports windows aligned, alerts raised and the alignment's time.
+  auto put = fw::curl(dir.path(), bearer(token) + " -X PUT -d '{\"factors\":2,\"window\":60,\"step\":10,\"method\":\"pca\"}'",
+                      daemon.url("/v1/models/job"));
+  ASSERT_EQ(put.status, 201) << put.body;
+  const auto started = fw::curl(dir.path(), bearer(token) + " -X POST -d ''", daemon.url("/v1/models/job/refresh"));
+  ASSERT_EQ(started.status, 202) << started.body;
+  json job;
+  const auto deadline = std::chrono::steady_clock::now() + std::chrono::seconds(60);
+  do {
+    std::this_thread::sleep_for(std::chrono::milliseconds(100));
+    job = json::parse(fw::curl(dir.path(), "", daemon.url(started.header("location"))).body);
+  } while (job["state"] != "finished" && job["state"] != "failed" && std::chrono::steady_clock::now() < deadline);
+  ASSERT_EQ(job["state"], "finished") << job.dump();
+  EXPECT_EQ(job["summary"]["aligned"], 15);
+  EXPECT_TRUE(job["summary"]["alerts"].is_number_integer());
+  EXPECT_GE(job["summary"]["align_seconds"].get<double>(), 0.0);
+}
+
+TEST(Daemon, DriftHistoryAndAlertsProblemsNameTheField) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  load_and_fit(dir, daemon, token_of(dir.path()), 120, R"({"factors":2,"window":60,"step":20,"method":"pca"})");
+  const std::string first = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m/windows")).body)["windows"][0]["as_of"];
+  struct Case {
+    std::string path;
+    int status;
+    std::string field;
+  };
+  const std::vector<Case> cases = {
+      {"/v1/models/m/drift?from=2021-02-30", 400, "from"},
+      {"/v1/models/m/drift?to=tomorrow", 400, "to"},
+      {"/v1/models/m/drift?from=2021-06-01&to=2021-05-01", 400, "to"},
+      {"/v1/models/m/drift?against=sideways", 400, "against"},
+      {"/v1/models/m/drift?window=" + first + "&against=both", 400, "against"},
+      {"/v1/models/m/drift?window=2021-13-01", 400, "window"},
+      {"/v1/models/m/drift?window=" + first + "&from=" + first, 400, "window"},
+      {"/v1/models/m/drift?window=2019-01-01", 404, "window"},
+      {"/v1/models/m/drift?window=" + first, 404, "window"},  // the first window: nothing before it
+      {"/v1/models/m/drift?format=xml", 400, "format"},
+      {"/v1/models/nope/drift", 404, "name"},
+      {"/v1/models/m/history", 400, "asset"},
+      {"/v1/models/m/history?asset=NOPE", 404, "asset"},
+      {"/v1/models/m/history?asset=P1001&from=01/02/2021", 400, "from"},
+      {"/v1/models/nope/history?asset=P1001", 404, "name"},
+      {"/v1/models/m/alerts?to=2021-04-31", 400, "to"},
+      {"/v1/models/nope/alerts", 404, "name"},
+  };
+  for (const Case& c : cases) {
+    const auto r = fw::curl(dir.path(), "", daemon.url(c.path));
+    EXPECT_EQ(r.status, c.status) << c.path << " " << r.body;
+    EXPECT_EQ(r.header("content-type"), "application/problem+json") << c.path;
+    const json p = json::parse(r.body);
+    EXPECT_EQ(p["status"], c.status);
+    EXPECT_EQ(p["type"], "about:blank");
+    EXPECT_EQ(p["field"], c.field) << c.path << " " << r.body;
+    EXPECT_NE(p["detail"].get<std::string>().find(c.field), std::string::npos) << r.body;
+  }
+  // The unknown asset is named.
+  EXPECT_NE(fw::curl(dir.path(), "", daemon.url("/v1/models/m/history?asset=NOPE")).body.find("'NOPE'"), std::string::npos);
+}

@@ -2,9 +2,12 @@
 // and turns command-line mistakes into exit code 2, the usual code for a usage error.
 #include <CLI/CLI.hpp>
 
+#include "alerts_command.h"
 #include "cli_common.h"
+#include "drift_command.h"
 #include "exposures_command.h"
 #include "fit_command.h"
+#include "history_command.h"
 #include "load_command.h"
 #include "model_command.h"
 #include "refresh_command.h"
@@ -29,12 +32,18 @@ int main(int argc, char** argv) {
   DaemonOptions serve_options;
   serve_options.program = argv[0];
   TokenArguments token_arguments;
+  DriftArguments drift_arguments;
+  HistoryArguments history_arguments;
+  AlertsArguments alerts_arguments;
   CLI::App* load = add_load_command(app, load_arguments);
   CLI::App* model = add_model_command(app, model_arguments);
   CLI::App* refresh = add_refresh_command(app, refresh_arguments);
   CLI::App* windows = add_windows_command(app, windows_arguments);
   CLI::App* exposures = add_exposures_command(app, exposures_arguments);
   CLI::App* specific = add_specific_risk_command(app, specific_arguments);
+  CLI::App* drift = add_drift_command(app, drift_arguments);
+  CLI::App* history = add_history_command(app, history_arguments);
+  CLI::App* alerts = add_alerts_command(app, alerts_arguments);
   CLI::App* fit = add_fit_command(app, fit_arguments);
   CLI::App* serve = add_serve_command(app, serve_options);
   CLI::App* token = add_token_command(app, token_arguments);
@@ -50,6 +59,9 @@ int main(int argc, char** argv) {
   if (windows->parsed()) return run_windows_command(windows_arguments, global);
   if (exposures->parsed()) return run_exposures_command(exposures_arguments, global);
   if (specific->parsed()) return run_specific_risk_command(specific_arguments, global);
+  if (drift->parsed()) return run_drift_command(drift_arguments, global);
+  if (history->parsed()) return run_history_command(history_arguments, global);
+  if (alerts->parsed()) return run_alerts_command(alerts_arguments, global);
   if (fit->parsed()) return run_fit_command(fit_arguments);
   if (serve->parsed()) return run_serve_command(serve_options, global);
   if (token->parsed()) return run_token_command(token_arguments, global);

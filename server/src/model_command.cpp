@@ -1,5 +1,6 @@
 #include "model_command.h"
 
+#include <algorithm>
 #include <cstdio>
 #include <iostream>
 #include <stdexcept>
@@ -8,6 +9,7 @@
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
+#include "drift_selection.h"
 #include "model_views.h"
 
 namespace factorwatch::server {
@@ -25,6 +27,29 @@ std::string describe(const storage::ModelConfig& c) {
                 c.weighting == engine::Weighting::ewma ? ("exponential, half-life " + std::to_string(c.half_life) + " dates").c_str()
                                                        : "equal",
                 c.min_coverage, c.first_as_of.empty() ? "as early as the data allow" : c.first_as_of.c_str());
+  std::string out = text;
+  out += "  rotation:      " + std::string(engine::to_string(c.rotation));
+  if (c.rotation != engine::RotationMethod::none)
+    out += c.kaiser_normalize ? " (rows Kaiser-normalised)" : " (without Kaiser normalisation)";
+  out += "\n  aligned onto:  ";
+  switch (c.align_to) {
+    case storage::AlignTo::previous: out += "the previous window"; break;
+    case storage::AlignTo::pinned: out += "the pinned window"; break;
+    case storage::AlignTo::smoothed:
+      std::snprintf(text, sizeof text, "a smoothed reference, half-life %g windows", c.smoothing_half_life);
+      out += text;
+      break;
+  }
+  out += ", with at least " + std::to_string(std::max(c.min_shared_assets, c.factors)) + " shared assets\n";
+  out += "  pinned window: " + (c.pinned_window.empty() ? std::string("the first window") : c.pinned_window) + "\n";
+  out += "  drift alerts:  against the previous window " + threshold_text(c.alert_below) +
+         "; against the pinned window " + threshold_text(c.alert_below_pinned) + "\n";
+  return out;
+}
+
+std::string number_text(double x) {
+  char text[32];
+  std::snprintf(text, sizeof text, "%g", x);
   return text;
 }
 
@@ -55,6 +80,14 @@ int run_set(const ModelArguments& a, storage::Database& db) {
   }
   if (a.min_coverage_opt->count()) config.min_coverage = a.min_coverage;
   if (a.first_as_of_opt->count()) config.first_as_of = a.first_as_of == "none" ? "" : a.first_as_of;
+  if (a.rotation_opt->count()) config.rotation = *engine::parse_rotation(a.rotation);
+  if (a.kaiser_opt->count()) config.kaiser_normalize = a.kaiser_normalize == "yes";
+  if (a.align_to_opt->count()) config.align_to = *storage::parse_align_to(a.align_to);
+  if (a.pinned_window_opt->count()) config.pinned_window = a.pinned_window == "first" ? "" : a.pinned_window;
+  if (a.smoothing_opt->count()) config.smoothing_half_life = a.smoothing_half_life;
+  if (a.min_shared_opt->count()) config.min_shared_assets = a.min_shared_assets;
+  if (a.alert_below_opt->count()) config.alert_below = a.alert_below;
+  if (a.alert_below_pinned_opt->count()) config.alert_below_pinned = a.alert_below_pinned;
 
   storage::SetModelOutcome outcome;
   try {
@@ -139,6 +172,41 @@ CLI::App* add_model_command(CLI::App& app, ModelArguments& a) {
   a.first_as_of_opt = a.set->add_option("--first-as-of", a.first_as_of,
                                         "Fit no window ending before this date ('none': no limit)")
                           ->type_name("DATE");
+  const storage::ModelConfig defaults;  // the help states the defaults the storage applies
+  a.rotation_opt = a.set->add_option("--rotation", a.rotation,
+                                     std::string("Rotation of every window's loadings: none, varimax or promax (default ") +
+                                         engine::to_string(defaults.rotation) + ")")
+                       ->check(CLI::IsMember({"none", "varimax", "promax"}));
+  a.kaiser_opt = a.set->add_option("--kaiser-normalize", a.kaiser_normalize,
+                                   std::string("Scale each asset's row to unit length while rotating (default ") +
+                                       (defaults.kaiser_normalize ? "yes" : "no") + ")")
+                     ->check(CLI::IsMember({"yes", "no"}));
+  a.align_to_opt = a.set->add_option("--align-to", a.align_to,
+                                     std::string("Align each window's factors onto the previous window, the pinned "
+                                                 "window or a smoothed reference of past windows (default ") +
+                                         storage::to_string(defaults.align_to) + ")")
+                       ->check(CLI::IsMember({"previous", "pinned", "smoothed"}));
+  a.pinned_window_opt = a.set->add_option("--pinned-window", a.pinned_window,
+                                          "As-of date of the window drift is also measured against (and aligned onto "
+                                          "with --align-to pinned); 'first': the model's first window (default)")
+                            ->type_name("DATE|first");
+  a.smoothing_opt = a.set->add_option("--smoothing-half-life", a.smoothing_half_life,
+                                      "Half-life of the smoothed reference, in windows (default " +
+                                          number_text(defaults.smoothing_half_life) + ")")
+                        ->type_name("N");
+  a.min_shared_opt = a.set->add_option("--min-shared-assets", a.min_shared_assets,
+                                       "Fewer assets shared with the reference and a window is left as fitted "
+                                       "(default " + std::to_string(defaults.min_shared_assets) + ")")
+                         ->type_name("N");
+  a.alert_below_opt = a.set->add_option("--alert-below", a.alert_below,
+                                        "Alert when a factor's congruence with the previous window is below this "
+                                        "(default " + number_text(defaults.alert_below) + "; 0: no alerts)")
+                          ->type_name("X");
+  a.alert_below_pinned_opt = a.set->add_option("--alert-below-pinned", a.alert_below_pinned,
+                                               "Alert when a factor's congruence with the pinned window falls below "
+                                               "this (default " + number_text(defaults.alert_below_pinned) +
+                                                   "; 0: no alerts)")
+                                 ->type_name("X");
   a.show = model->add_subcommand("show", "Show a model's configuration and stored windows");
   a.show->add_option("NAME", a.name, "Model name")->required();
   a.show->add_option("--format", a.format, "table or json")->check(CLI::IsMember({"table", "json"}))->capture_default_str();

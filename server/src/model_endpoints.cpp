@@ -77,9 +77,35 @@ std::optional<std::pair<std::string, std::string>> apply_definition(const json& 
       if (value.is_null()) config.first_as_of.clear();
       else if (value.is_string()) config.first_as_of = value.get<std::string>();
       else return bad(member, "must be a date yyyy-mm-dd, or null");
+    } else if (member == "rotation") {
+      const auto rotation = value.is_string() ? engine::parse_rotation(value.get<std::string>()) : std::nullopt;
+      if (!rotation) return bad(member, "must be \"none\", \"varimax\" or \"promax\"");
+      config.rotation = *rotation;
+    } else if (member == "kaiser_normalize") {
+      if (!value.is_boolean()) return bad(member, "must be true or false");
+      config.kaiser_normalize = value.get<bool>();
+    } else if (member == "align_to") {
+      const auto align_to = value.is_string() ? storage::parse_align_to(value.get<std::string>()) : std::nullopt;
+      if (!align_to) return bad(member, "must be \"previous\", \"pinned\" or \"smoothed\"");
+      config.align_to = *align_to;
+    } else if (member == "pinned_window") {
+      if (value.is_null()) config.pinned_window.clear();
+      else if (value.is_string()) config.pinned_window = value.get<std::string>();
+      else return bad(member, "must be a date yyyy-mm-dd, or null (the model's first window)");
+    } else if (member == "min_shared_assets") {
+      if (!value.is_number_integer()) return bad(member, "must be a whole number");
+      const auto n = value.get<long long>();
+      if (n < -1000000000LL || n > 1000000000LL) return bad(member, "out of range");
+      config.min_shared_assets = static_cast<int>(n);
+    } else if (member == "smoothing_half_life" || member == "alert_below" || member == "alert_below_pinned") {
+      if (!value.is_number()) return bad(member, "must be a number");
+      (member == "smoothing_half_life" ? config.smoothing_half_life
+       : member == "alert_below"       ? config.alert_below
+                                       : config.alert_below_pinned) = value.get<double>();
     } else {
       return bad(member, "unknown member; known: universe, window, step, method, factors, basis, half_life, "
-                         "min_coverage, first_as_of");
+                         "min_coverage, first_as_of, rotation, kaiser_normalize, align_to, pinned_window, "
+                         "smoothing_half_life, min_shared_assets, alert_below, alert_below_pinned");
     }
   }
   return std::nullopt;

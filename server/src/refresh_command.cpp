@@ -35,6 +35,10 @@ int refresh_one(storage::Database& db, const std::string& name, bool progress) {
     std::printf("  %.2f s: reading %.2f s, fitting %.2f s, writing %.2f s (%.1f windows/s)\n", s.seconds,
                 s.read_seconds, s.fit_seconds, s.write_seconds, s.fitted / s.seconds);
   }
+  // The second pass: every window needing it aligned onto its reference and compared.
+  std::printf("  %zu window%s aligned, %zu drift alert%s raised (%.2f s)%s\n", s.aligned, s.aligned == 1 ? "" : "s",
+              s.alerts, s.alerts == 1 ? "" : "s", s.align_seconds,
+              s.alerts > 0 ? "; factorwatch alerts shows them" : "");
   const auto model = storage::find_model(db, name);
   if (const auto latest = storage::read_window(db, model->id, "")) {
     const engine::FactorFit& f = latest->fit;

@@ -83,6 +83,9 @@ nlohmann::ordered_json RefreshJobs::to_json(const Job& job) {
                     {"read_seconds", s.read_seconds},
                     {"fit_seconds", s.fit_seconds},
                     {"write_seconds", s.write_seconds},
+                    {"aligned", s.aligned},
+                    {"alerts", s.alerts},
+                    {"align_seconds", s.align_seconds},
                     {"note", text_or_null(s.note)}};
   } else {
     j["summary"] = nullptr;

@@ -1,6 +1,7 @@
 #include "routes.h"
 
 #include "data_endpoints.h"
+#include "drift_endpoints.h"
 #include "model_endpoints.h"
 #include "service_endpoints.h"
 #include "window_endpoints.h"
@@ -28,6 +29,13 @@ const std::vector<Route>& api_routes() {
        "Loadings, communality and specific variance per asset of a window", exposures_endpoint},
       {"GET", "/v1/models/{name}/specific-risk", false, false, "Specific and total volatility per asset of a window",
        specific_risk_endpoint},
+      {"GET", "/v1/models/{name}/drift", false, false,
+       "Each window's factors compared with the previous and the pinned window, or one window asset by asset",
+       drift_endpoint},
+      {"GET", "/v1/models/{name}/history", false, false, "One asset's exposures and specific risk in every window",
+       history_endpoint},
+      {"GET", "/v1/models/{name}/alerts", false, false, "Windows whose factors drifted past the model's thresholds",
+       alerts_endpoint},
       {"GET", "/v1/jobs", false, false, "Background jobs since the daemon started", list_jobs_endpoint},
       {"GET", "/v1/jobs/{id}", false, false, "One job: state, progress and summary", show_job_endpoint},
   };

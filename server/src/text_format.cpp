@@ -1,6 +1,7 @@
 #include "text_format.h"
 
 #include <charconv>
+#include <cmath>
 
 #include "factorwatch/engine/caution.h"
 
@@ -26,6 +27,12 @@ std::string exact_number(double x) {
   std::string out;
   append_exact_number(out, x);
   return out;
+}
+
+std::string csv_number(double x) { return std::isfinite(x) ? exact_number(x) : std::string(); }
+
+nlohmann::ordered_json json_number(double x) {
+  return std::isfinite(x) ? nlohmann::ordered_json(x) : nlohmann::ordered_json();
 }
 
 std::vector<std::string> split_list(const std::string& text) {

@@ -1,6 +1,7 @@
 // Small pieces of CSV and number output shared by the CLI and the daemon.
 #pragma once
 
+#include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
 
@@ -13,6 +14,11 @@ std::string csv_field(const std::string& text);
 // same double (std::to_chars), so nothing is lost between the database and a script.
 std::string exact_number(double x);
 void append_exact_number(std::string& out, double x);
+
+// A number that may be missing (NaN: not aligned, not compared, a vanished factor): the
+// exact number, else an empty CSV cell / a JSON null.
+std::string csv_number(double x);
+nlohmann::ordered_json json_number(double x);
 
 // "A, B,C" into names: comma-separated, spaces around names ignored, empty items dropped
 // (--assets on the command line, ?assets= over HTTP).

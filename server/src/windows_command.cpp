@@ -1,5 +1,6 @@
 #include "windows_command.h"
 
+#include <cmath>
 #include <cstdio>
 #include <iostream>
 #include <nlohmann/json.hpp>
@@ -39,13 +40,18 @@ int run_windows_command(const WindowsArguments& a, const GlobalArguments& global
       return kExitOk;
     }
     std::printf("model %s, version %d: %zu windows\n\n", model->name.c_str(), model->version, windows.size());
-    std::printf("%-10s  %-10s %6s %6s %5s %8s %-16s %5s %14s %9s %7s %8s\n", "as of", "from", "dates", "assets",
-                "excl", "factors", "termination", "iter", "loglik/obs", "explained", "heywood", "fit ms");
-    for (const auto& w : windows)
-      std::printf("%-10s  %-10s %6lld %6d %5d %8d %-16s %5d %14.4f %8.1f%% %7d %8.1f%s\n", w.as_of.c_str(),
+    std::printf("%-10s  %-10s %6s %6s %5s %8s %-16s %5s %14s %9s %7s %8s  %-22s %9s\n", "as of", "from", "dates",
+                "assets", "excl", "factors", "termination", "iter", "loglik/obs", "explained", "heywood", "fit ms",
+                "alignment", "residual");
+    for (const auto& w : windows) {
+      char residual[32] = "-";
+      if (std::isfinite(w.alignment_residual)) std::snprintf(residual, sizeof residual, "%.4f", w.alignment_residual);
+      std::printf("%-10s  %-10s %6lld %6d %5d %8d %-16s %5d %14.4f %8.1f%% %7d %8.1f  %-22s %9s%s\n", w.as_of.c_str(),
                   w.first_date.c_str(), static_cast<long long>(w.periods), w.asset_count, w.excluded_count, w.factors,
                   w.termination.c_str(), w.iterations, w.log_likelihood, 100 * w.explained_total, w.heywood_count,
-                  1000 * w.fit_seconds, w.stale ? "  stale" : "");
+                  1000 * w.fit_seconds, w.alignment.c_str(), residual, w.stale ? "  stale" : "");
+    }
+    std::printf("\nresidual: ||A R - B|| / ||B|| of the Procrustes alignment onto the reference (0: a perfect fit)\n");
     print_caution(std::cout);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch windows: %s\n", e.what());

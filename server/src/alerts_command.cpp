@@ -1,0 +1,64 @@
+#include "alerts_command.h"
+
+#include <cstdio>
+#include <iostream>
+
+#include "alerts_view.h"
+#include "drift_query.h"
+#include "drift_selection.h"
+#include "window_query.h"
+
+namespace factorwatch::server {
+namespace {
+
+void print_table(const AlertList& a) {
+  const storage::ModelConfig& c = a.model.config;
+  std::printf("model %s, version %d: %zu alert%s\n", a.model.name.c_str(), a.model.version, a.alerts.size(),
+              a.alerts.size() == 1 ? "" : "s");
+  std::printf("alerts: against the previous window %s; against the pinned window %s\n\n",
+              threshold_text(c.alert_below).c_str(), threshold_text(c.alert_below_pinned).c_str());
+  if (a.alerts.empty()) {
+    std::printf("no window in this range raised an alert\n");
+  } else {
+    std::printf("%-10s  %-8s  %-13s %-6s %10s %9s  %s\n", "as of", "against", "compared with", "factor", "congruence",
+                "threshold", "assets that moved most (standardized change)");
+    for (const storage::DriftAlert& x : a.alerts)
+      std::printf("%-10s  %-8s  %-13s %-6s %10.4f %9.3f  %s\n", x.as_of.c_str(), x.against.c_str(),
+                  x.against_as_of.c_str(), factor_name(x.factor - 1).c_str(), x.congruence, x.threshold,
+                  movers_text(x.movers, kMoversShown).c_str());
+  }
+  std::printf("\ncongruence nan: the factor vanished (its loadings are all zero in one window).\n"
+              "factorwatch drift NAME --window DATE compares a window asset by asset.\n");
+  print_caution(std::cout);
+}
+
+}  // namespace
+
+CLI::App* add_alerts_command(CLI::App& app, AlertsArguments& a) {
+  CLI::App* command = app.add_subcommand("alerts", "Windows whose factors drifted past the model's thresholds");
+  command->add_option("NAME", a.model, "Model name")->required();
+  command->add_option("--from", a.from, "First as-of date (default: the first window)")->type_name("DATE");
+  command->add_option("--to", a.to, "Last as-of date (default: the latest window)")->type_name("DATE");
+  command->add_option("--format", a.format, "table, csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}))
+      ->capture_default_str();
+  return command;
+}
+
+int run_alerts_command(const AlertsArguments& a, const GlobalArguments& global) {
+  auto db = open_database(global, "alerts");
+  if (!db) return kExitFailed;
+  try {
+    AlertList list;
+    if (auto f = find_alerts(*db, {a.model, a.from, a.to}, list)) return report_query_failure("alerts", f, a.model);
+    if (a.format == "csv") std::cout << alerts_csv(list);
+    else if (a.format == "json") std::cout << alerts_json(list).dump(2) << "\n";
+    else print_table(list);
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "factorwatch alerts: %s\n", e.what());
+    return kExitFailed;
+  }
+  return kExitOk;
+}
+
+}  // namespace factorwatch::server

@@ -1,0 +1,87 @@
+#include "drift_endpoints.h"
+
+#include <cctype>
+
+#include "alerts_view.h"
+#include "drift_query.h"
+#include "drift_view.h"
+#include "endpoint_helpers.h"
+#include "history_view.h"
+#include "window_drift_view.h"
+
+namespace factorwatch::server {
+namespace {
+
+// A failed lookup as a problem naming the query parameter (the model: the path's {name}).
+ApiResponse query_problem(const ApiRequest& r, const QueryFailure& f) {
+  if (f.outcome == QueryOutcome::no_model) return unknown_model(r, f.value);
+  const std::string detail = "query parameter '" + f.field + "'" + (f.value.empty() ? "" : " = '" + f.value + "'") +
+                             ": " + f.message;
+  if (f.outcome == QueryOutcome::bad_input) return problem(400, detail, r.path, f.field);
+  return problem(404, detail + (f.refresh_helps ? "; start a refresh with POST /v1/models/" + r.path_values.at("name") + "/refresh" : ""),
+                 r.path, f.field);
+}
+
+// A file name part from free text (asset names may hold anything): letters, digits, '.',
+// '_' and '-' kept, anything else '_'.
+std::string file_part(const std::string& text) {
+  std::string out = text;
+  for (char& c : out)
+    if (!std::isalnum(static_cast<unsigned char>(c)) && c != '.' && c != '_' && c != '-') c = '_';
+  return out;
+}
+
+// Every body here carries risk numbers: the caution header too.
+ApiResponse csv_body(std::string body, const std::string& filename) {
+  return csv_response(std::make_shared<const std::string>(std::move(body)), filename, true);
+}
+
+RangeQuery range_of(const ApiRequest& r) {
+  return {r.path_values.at("name"), r.parameter("from").value_or(""), r.parameter("to").value_or("")};
+}
+
+}  // namespace
+
+ApiResponse drift_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  const Format f = std::get<Format>(format);
+  const RangeQuery query = range_of(r);
+  const std::string against = r.parameter("against").value_or("");
+  storage::Database& db = context.database();
+  if (const auto window = r.parameter("window")) {
+    if (!query.from.empty() || !query.to.empty())
+      return problem(400, "query parameter 'window' compares one window; leave out 'from' and 'to'", r.path, "window");
+    WindowDrift d;
+    if (auto failed = find_window_drift(db, query.model, *window, against, d)) return query_problem(r, failed);
+    const std::string filename = query.model + "-drift-" + d.record.as_of + "-" + d.record.against + ".csv";
+    return f == Format::csv ? csv_body(window_drift_csv(d), filename) : json_response(window_drift_json(d));
+  }
+  DriftSeries s;
+  if (auto failed = find_drift_series(db, query, against, s)) return query_problem(r, failed);
+  return f == Format::csv ? csv_body(drift_csv(s), query.model + "-drift.csv") : json_response(drift_json(s));
+}
+
+ApiResponse history_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  const Format f = std::get<Format>(format);
+  const RangeQuery query = range_of(r);
+  AssetHistory h;
+  if (auto failed = find_asset_history(context.database(), query, r.parameter("asset").value_or(""), h))
+    return query_problem(r, failed);
+  return f == Format::csv ? csv_body(history_csv(h), query.model + "-history-" + file_part(h.asset) + ".csv")
+                          : json_response(history_json(h));
+}
+
+ApiResponse alerts_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  const Format f = std::get<Format>(format);
+  const RangeQuery query = range_of(r);
+  AlertList a;
+  if (auto failed = find_alerts(context.database(), query, a)) return query_problem(r, failed);
+  return f == Format::csv ? csv_body(alerts_csv(a), query.model + "-alerts.csv") : json_response(alerts_json(a));
+}
+
+}  // namespace factorwatch::server

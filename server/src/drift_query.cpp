@@ -1,0 +1,164 @@
+#include "drift_query.h"
+
+#include <algorithm>
+#include <cmath>
+#include <numeric>
+#include <stdexcept>
+
+#include "factorwatch/storage/assets.h"
+#include "factorwatch/storage/windows.h"
+#include "window_query.h"
+
+namespace factorwatch::server {
+namespace {
+
+QueryFailure failure(QueryOutcome outcome, std::string field, std::string value, std::string message) {
+  return {outcome, std::move(field), std::move(value), std::move(message)};
+}
+
+// A real calendar date in the form yyyy-mm-dd, the rule the database keys dates by
+// (checked here so that the message can name the option or parameter, not storage's words).
+bool is_iso_date(const std::string& s) {
+  if (s.size() != 10 || s[4] != '-' || s[7] != '-') return false;
+  for (std::size_t i : {0, 1, 2, 3, 5, 6, 8, 9})
+    if (s[i] < '0' || s[i] > '9') return false;
+  const int y = std::stoi(s.substr(0, 4)), m = std::stoi(s.substr(5, 2)), d = std::stoi(s.substr(8, 2));
+  static const int days[] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
+  if (m < 1 || m > 12 || d < 1) return false;
+  const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
+  return d <= days[m - 1] + (m == 2 && leap ? 1 : 0);
+}
+
+QueryFailure check_date(const std::string& field, const std::string& value) {
+  if (value.empty() || is_iso_date(value)) return {};
+  return failure(QueryOutcome::bad_input, field, value, "not a date in the form yyyy-mm-dd");
+}
+
+// The model and the range, checked in the order a reader would fix them.
+QueryFailure check_range(storage::Database& db, const RangeQuery& q, storage::ModelVersion& model) {
+  if (auto f = check_date("from", q.from)) return f;
+  if (auto f = check_date("to", q.to)) return f;
+  if (!q.from.empty() && !q.to.empty() && q.to < q.from)  // ISO dates order as text
+    return failure(QueryOutcome::bad_input, "to", q.to, "before the start of the range, " + q.from);
+  const auto found = storage::find_model(db, q.model);
+  if (!found) return failure(QueryOutcome::no_model, "", q.model, "no model named '" + q.model + "'");
+  model = *found;
+  return {};
+}
+
+}  // namespace
+
+double alert_threshold(const storage::ModelConfig& c, const std::string& against) {
+  return against == "pinned" ? c.alert_below_pinned : c.alert_below;
+}
+
+std::vector<Eigen::Index> flagged_factors(const storage::DriftRecord& r, double threshold) {
+  std::vector<Eigen::Index> out;
+  if (!(threshold > 0) || r.status != engine::to_string(engine::DriftStatus::compared)) return out;
+  for (Eigen::Index j = 0; j < r.congruence.size(); ++j) {
+    const double c = r.congruence(j);
+    if (!std::isfinite(c) || c < threshold) out.push_back(j);
+  }
+  return out;
+}
+
+Eigen::Index factor_columns(const storage::ModelConfig& c, const std::vector<storage::DriftRecord>& rows) {
+  Eigen::Index k = c.factors;
+  for (const auto& r : rows)
+    k = std::max({k, r.congruence.size(), r.principal_angles_degrees.size(), r.factor_variance_change.size(),
+                  r.explained_share_change.size()});
+  return k;
+}
+
+double standardized_norm(const engine::DriftComparison& c, std::size_t row) {
+  return std::sqrt(c.standardized_change.row(static_cast<Eigen::Index>(row)).squaredNorm());
+}
+
+int min_shared_assets(const storage::ModelConfig& c) { return std::max(c.min_shared_assets, c.factors); }
+
+std::string factor_list(const std::vector<Eigen::Index>& factors) {
+  std::string out;
+  for (Eigen::Index j : factors) out += (out.empty() ? "" : "; ") + factor_name(j);
+  return out;
+}
+
+QueryFailure find_drift_series(storage::Database& db, const RangeQuery& q, const std::string& against,
+                               DriftSeries& out) {
+  if (against != "" && against != "both" && against != "previous" && against != "pinned")
+    return failure(QueryOutcome::bad_input, "against", against, "must be previous, pinned or both");
+  if (auto f = check_range(db, q, out.model)) return f;
+  out.rows = storage::read_drift(db, out.model.id, q.from, q.to, against == "both" ? "" : against);
+  return {};
+}
+
+QueryFailure find_window_drift(storage::Database& db, const std::string& model, const std::string& window,
+                               const std::string& against_text, WindowDrift& out) {
+  const std::string against = against_text.empty() ? "previous" : against_text;
+  if (against != "previous" && against != "pinned")
+    return failure(QueryOutcome::bad_input, "against", against_text,
+                   "must be previous or pinned when one window is compared");
+  if (window.empty()) return failure(QueryOutcome::bad_input, "window", window, "give the window's as-of date");
+  if (auto f = check_date("window", window)) return f;
+  const auto found = storage::find_model(db, model);
+  if (!found) return failure(QueryOutcome::no_model, "", model, "no model named '" + model + "'");
+  out.model = *found;
+  const auto stamp = storage::find_window_stamp(db, out.model.id, window, true);
+  if (!stamp) {
+    QueryFailure f = failure(QueryOutcome::not_found, "window", window,
+                             "model '" + model + "' has no window on or before " + window + " yet");
+    f.refresh_helps = true;
+    return f;
+  }
+  if (stamp->as_of != window)
+    out.note = "no window ends on " + window + "; showing the latest before it, as of " + stamp->as_of;
+  auto records = storage::read_drift(db, out.model.id, stamp->as_of, stamp->as_of, against);
+  if (records.empty()) {
+    // Why: not aligned yet (a refresh stores it), not usable, or nothing to compare with.
+    const auto alignment = storage::read_alignment(db, stamp->row_id);
+    std::string why = !alignment ? "it is not aligned yet"
+                      : alignment->status == "not usable"
+                          ? "its fit is not usable"
+                          : "there is no usable " + against + " window to compare it with" +
+                                (against == "pinned" ? " (it may be the pinned window itself)" : "");
+    QueryFailure f = failure(QueryOutcome::not_found, "window", window,
+                             "the window as of " + stamp->as_of + " has no comparison with the " + against +
+                                 " window: " + why);
+    f.refresh_helps = !alignment;
+    return f;
+  }
+  out.record = std::move(records.front());
+  auto comparison = storage::compare_stored_windows(db, out.model.id, out.record.as_of, out.record.against_as_of,
+                                                    min_shared_assets(out.model.config));
+  if (!comparison)
+    return failure(QueryOutcome::not_found, "window", window,
+                   "the window as of " + out.record.as_of + " or the window it was compared with (" +
+                       out.record.against_as_of + ") is no longer stored as a usable fit");
+  out.comparison = std::move(*comparison);
+  // Largest change of the whole standardized row first (the norm over the factors, the
+  // measure the stored mean_exposure_change averages); ties keep the window's asset order.
+  std::vector<double> norm(static_cast<std::size_t>(out.comparison.standardized_change.rows()));
+  for (std::size_t i = 0; i < norm.size(); ++i) norm[i] = standardized_norm(out.comparison, i);
+  out.order.resize(norm.size());
+  std::iota(out.order.begin(), out.order.end(), std::size_t{0});
+  std::stable_sort(out.order.begin(), out.order.end(), [&norm](std::size_t a, std::size_t b) { return norm[a] > norm[b]; });
+  return {};
+}
+
+QueryFailure find_asset_history(storage::Database& db, const RangeQuery& q, const std::string& asset,
+                                AssetHistory& out) {
+  if (asset.empty()) return failure(QueryOutcome::bad_input, "asset", asset, "name the asset");
+  if (auto f = check_range(db, q, out.model)) return f;
+  if (!storage::has_asset(db, asset))
+    return failure(QueryOutcome::unknown_asset, "asset", asset, "unknown asset (no returns stored)");
+  out.asset = asset;
+  out.points = storage::read_exposure_history(db, out.model.id, asset, q.from, q.to);
+  return {};
+}
+
+QueryFailure find_alerts(storage::Database& db, const RangeQuery& q, AlertList& out) {
+  if (auto f = check_range(db, q, out.model)) return f;
+  out.alerts = storage::read_alerts(db, out.model.id, q.from, q.to);
+  return {};
+}
+
+}  // namespace factorwatch::server

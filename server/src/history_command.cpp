@@ -1,0 +1,69 @@
+#include "history_command.h"
+
+#include <cmath>
+#include <cstdio>
+#include <iostream>
+
+#include "drift_query.h"
+#include "drift_selection.h"
+#include "history_view.h"
+#include "window_query.h"
+
+namespace factorwatch::server {
+namespace {
+
+void print_table(const AssetHistory& h) {
+  const Eigen::Index k = h.model.config.factors;
+  std::size_t present = 0;
+  for (const auto& p : h.points) present += p.present;
+  std::printf("model %s, version %d: asset %s in %zu of %zu windows\n\n", h.model.name.c_str(), h.model.version,
+              h.asset.c_str(), present, h.points.size());
+  std::printf("%-10s", "as of");
+  for (Eigen::Index j = 0; j < k; ++j) std::printf(" %11s", factor_name(j).c_str());
+  std::printf(" %12s %12s  %s\n", "communality", "specific vol", "alignment");
+  for (const storage::ExposurePoint& p : h.points) {
+    std::printf("%-10s", p.as_of.c_str());
+    if (!p.present) {
+      std::printf(" not in this window (not fitted, or the fit is not usable)\n");
+      continue;
+    }
+    for (Eigen::Index j = 0; j < k; ++j) std::printf(" %+11.5f", j < p.exposures.size() ? p.exposures(j) : NAN);
+    std::printf(" %12.4e %12.5f  %s\n", p.communality, std::sqrt(p.specific_variance), p.alignment.c_str());
+  }
+  std::printf("\nExposures in return units per factor of unit variance, rotated and aligned as served;\n"
+              "communality in squared return units per period; specific vol per period.\n");
+  print_caution(std::cout);
+}
+
+}  // namespace
+
+CLI::App* add_history_command(CLI::App& app, HistoryArguments& a) {
+  CLI::App* command = app.add_subcommand("history", "One asset's exposures and specific risk in every window");
+  command->add_option("NAME", a.model, "Model name")->required();
+  command->add_option("ASSET", a.asset, "Asset name")->required();
+  command->add_option("--from", a.from, "First as-of date (default: the first window)")->type_name("DATE");
+  command->add_option("--to", a.to, "Last as-of date (default: the latest window)")->type_name("DATE");
+  command->add_option("--format", a.format, "table, csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}))
+      ->capture_default_str();
+  return command;
+}
+
+int run_history_command(const HistoryArguments& a, const GlobalArguments& global) {
+  auto db = open_database(global, "history");
+  if (!db) return kExitFailed;
+  try {
+    AssetHistory h;
+    if (auto f = find_asset_history(*db, {a.model, a.from, a.to}, a.asset, h))
+      return report_query_failure("history", f, a.model);
+    if (a.format == "csv") std::cout << history_csv(h);
+    else if (a.format == "json") std::cout << history_json(h).dump(2) << "\n";
+    else print_table(h);
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "factorwatch history: %s\n", e.what());
+    return kExitFailed;
+  }
+  return kExitOk;
+}
+
+}  // namespace factorwatch::server
