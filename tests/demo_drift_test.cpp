@@ -78,7 +78,7 @@ int cluster_of(const std::string& asset) {  // 1-based, as the generator numbers
 // Measured on 2026-12-02 (default model options: chained alignment, pinned = first window
 // 2021-12-06, alert below 0.85 against it): 213 windows, 88 before the change, 0 alerts
 // before it; 2 after it: 2024-06-24 f4 (congruence 0.848; the 5 assets that moved most all
-// in cluster 4, which the moving factor joined) and 2025-05-26 f3 (0.847; all 5 in cluster
+// in cluster 4, which the moving factor joined) and 2025-05-19 f3 (0.849; all 5 in cluster
 // 2, which it left). The first alert comes 45 windows of 5 dates (225 dates) after the
 // first window holding the change: a 504-date rolling window sees a change only as the new data come to dominate
 // it. Before the change, sampling noise alone takes the weakest factor's congruence with

@@ -1,5 +1,6 @@
 #include "factorwatch/engine/factor_basis.h"
 
+#include "factorwatch/engine/alignment.h"
 #include "factorwatch/engine/rotation.h"
 
 namespace factorwatch::engine {
@@ -15,6 +16,17 @@ void change_factor_basis(FactorFit& fit, const Eigen::MatrixXd& transform) {
   else
     squares = fit.loadings.colwise().squaredNorm().transpose();
   fit.explained_share = fit.factor_covariance.diagonal().cwiseProduct(squares) / fit.trace;
+}
+
+FactorFit rotated_onto(const FactorFit& fit, const FactorFit& reference, int min_shared) {
+  FactorFit out = fit;
+  if (fit.loadings.size() == 0 || reference.loadings.size() == 0) return out;
+  AlignmentOptions options;
+  options.min_shared_assets = min_shared;
+  const Alignment a = align_to_reference({fit.assets, fit.standardized_loadings()},
+                                         {reference.assets, reference.standardized_loadings()}, options);
+  if (a.status == AlignmentStatus::aligned) change_factor_basis(out, a.rotation);
+  return out;
 }
 
 }  // namespace factorwatch::engine

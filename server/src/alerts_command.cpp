@@ -1,5 +1,7 @@
 #include "alerts_command.h"
 
+#include <algorithm>
+#include <cmath>
 #include <cstdio>
 #include <iostream>
 
@@ -27,8 +29,10 @@ void print_table(const AlertList& a) {
                   x.against_as_of.c_str(), factor_name(x.factor - 1).c_str(), x.congruence, x.threshold,
                   movers_text(x.movers, kMoversShown).c_str());
   }
-  std::printf("\ncongruence nan: the factor vanished (its loadings are all zero in one window).\n"
-              "factorwatch drift NAME --window DATE compares a window asset by asset.\n");
+  const bool vanished = std::any_of(a.alerts.begin(), a.alerts.end(),
+                                    [](const storage::DriftAlert& x) { return std::isnan(x.congruence); });
+  if (vanished) std::printf("\ncongruence nan: the factor vanished (its loadings are all zero in one window).");
+  std::printf("\nfactorwatch drift NAME --window DATE compares a window asset by asset.\n");
   print_caution(std::cout);
 }
 
@@ -37,11 +41,8 @@ void print_table(const AlertList& a) {
 CLI::App* add_alerts_command(CLI::App& app, AlertsArguments& a) {
   CLI::App* command = app.add_subcommand("alerts", "Windows whose factors drifted past the model's thresholds");
   command->add_option("NAME", a.model, "Model name")->required();
-  command->add_option("--from", a.from, "First as-of date (default: the first window)")->type_name("DATE");
-  command->add_option("--to", a.to, "Last as-of date (default: the latest window)")->type_name("DATE");
-  command->add_option("--format", a.format, "table, csv or json")
-      ->check(CLI::IsMember({"table", "csv", "json"}))
-      ->capture_default_str();
+  add_date_range_options(command, a.from, a.to);
+  add_format_option(command, a.format);
   return command;
 }
 

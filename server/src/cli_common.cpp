@@ -29,6 +29,17 @@ std::unique_ptr<storage::Database> open_database(const GlobalArguments& global, 
   }
 }
 
+void add_format_option(CLI::App* command, std::string& format) {
+  command->add_option("--format", format, "table, csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}))
+      ->capture_default_str();
+}
+
+void add_date_range_options(CLI::App* command, std::string& from, std::string& to) {
+  command->add_option("--from", from, "First as-of date (default: the first window)")->type_name("DATE");
+  command->add_option("--to", to, "Last as-of date (default: the latest window)")->type_name("DATE");
+}
+
 void print_caution(std::ostream& out) { out << "\nCaution: " << engine::kCaution << "\n"; }
 
 void print_csv_caution(std::ostream& out) { out << csv_caution_line(); }

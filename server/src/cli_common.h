@@ -29,6 +29,11 @@ void add_global_options(CLI::App& app, GlobalArguments& global);
 // Opens (creating and migrating) the database; nullptr after printing the reason.
 std::unique_ptr<storage::Database> open_database(const GlobalArguments& global, const char* command);
 
+// --format table|csv|json (the default is the variable's value), shared by the reading commands.
+void add_format_option(CLI::App* command, std::string& format);
+// --from DATE and --to DATE: a range of as-of dates, open where not given.
+void add_date_range_options(CLI::App* command, std::string& from, std::string& to);
+
 // The caution as the last lines of a table.
 void print_caution(std::ostream& out);
 // The caution as the first line of a CSV file (a '#' comment line).

@@ -96,8 +96,7 @@ void print_window_table(const WindowDrift& d, int limit) {
 CLI::App* add_drift_command(CLI::App& app, DriftArguments& a) {
   CLI::App* command = app.add_subcommand("drift", "How each window's factors differ from the previous and the pinned window's");
   command->add_option("NAME", a.model, "Model name")->required();
-  command->add_option("--from", a.from, "First as-of date (default: the first window)")->type_name("DATE");
-  command->add_option("--to", a.to, "Last as-of date (default: the latest window)")->type_name("DATE");
+  add_date_range_options(command, a.from, a.to);
   command->add_option("--against", a.against,
                       "Compare with the previous usable window, the pinned window, or both (default both; "
                       "previous with --window)")
@@ -105,9 +104,7 @@ CLI::App* add_drift_command(CLI::App& app, DriftArguments& a) {
   command->add_option("--window", a.window,
                       "Compare this window (ending on DATE, or the latest before it) asset by asset")
       ->type_name("DATE");
-  command->add_option("--format", a.format, "table, csv or json")
-      ->check(CLI::IsMember({"table", "csv", "json"}))
-      ->capture_default_str();
+  add_format_option(command, a.format);
   command->add_option("--limit", a.limit, "Table rows of a --window comparison (0: all)")->type_name("N")->capture_default_str();
   return command;
 }

@@ -41,11 +41,8 @@ CLI::App* add_history_command(CLI::App& app, HistoryArguments& a) {
   CLI::App* command = app.add_subcommand("history", "One asset's exposures and specific risk in every window");
   command->add_option("NAME", a.model, "Model name")->required();
   command->add_option("ASSET", a.asset, "Asset name")->required();
-  command->add_option("--from", a.from, "First as-of date (default: the first window)")->type_name("DATE");
-  command->add_option("--to", a.to, "Last as-of date (default: the latest window)")->type_name("DATE");
-  command->add_option("--format", a.format, "table, csv or json")
-      ->check(CLI::IsMember({"table", "csv", "json"}))
-      ->capture_default_str();
+  add_date_range_options(command, a.from, a.to);
+  add_format_option(command, a.format);
   return command;
 }
 

@@ -1,5 +1,7 @@
 // The factorwatch command. Subcommands live in their own files; main only wires them up
 // and turns command-line mistakes into exit code 2, the usual code for a usage error.
+#include <malloc.h>
+
 #include <CLI/CLI.hpp>
 
 #include "alerts_command.h"
@@ -18,6 +20,12 @@
 
 int main(int argc, char** argv) {
   using namespace factorwatch::server;
+  // Keep freed memory in the process: a refresh allocates and frees the same large
+  // matrices (hundreds of KB each) window after window, and glibc's defaults hand each
+  // back to the kernel, so every window paid for fresh zeroed pages (page faults were a
+  // third of the alignment pass's time; docs/performance.md).
+  mallopt(M_MMAP_THRESHOLD, 64 << 20);
+  mallopt(M_TRIM_THRESHOLD, 256 << 20);
   CLI::App app{"factorwatch: statistical factor risk models fitted to asset returns"};
   app.require_subcommand(1);
   GlobalArguments global;

@@ -10,9 +10,7 @@ void add_window_options(CLI::App* command, WindowArguments& a) {
   command->add_option("--as-of", a.as_of, "Window ending on this date, or the latest before it (default: the latest)")
       ->type_name("DATE");
   command->add_option("--assets", a.assets, "Only these assets, comma-separated, in this order")->type_name("LIST");
-  command->add_option("--format", a.format, "table, csv or json")
-      ->check(CLI::IsMember({"table", "csv", "json"}))
-      ->capture_default_str();
+  add_format_option(command, a.format);
   command->add_option("--limit", a.limit, "Table rows to show (0: all)")->type_name("N")->capture_default_str();
 }
 

@@ -14,9 +14,7 @@ namespace factorwatch::server {
 CLI::App* add_windows_command(CLI::App& app, WindowsArguments& a) {
   CLI::App* command = app.add_subcommand("windows", "A model's stored windows with their fit statistics");
   command->add_option("NAME", a.model, "Model name")->required();
-  command->add_option("--format", a.format, "table, csv or json")
-      ->check(CLI::IsMember({"table", "csv", "json"}))
-      ->capture_default_str();
+  add_format_option(command, a.format);
   return command;
 }
 

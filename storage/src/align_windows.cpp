@@ -61,6 +61,13 @@ std::optional<engine::FactorFit> served_window(Database& db, long model_version_
   return std::move(w->fit);
 }
 
+// Drift of a window against another, after rotating it onto that one (see
+// engine::rotated_onto): what the chain of alignments accumulated is not drift.
+engine::DriftComparison compare(const engine::FactorFit& now, const engine::FactorFit& then, Eigen::Index min_shared) {
+  return engine::compare_factors(factors_of(engine::rotated_onto(now, then, static_cast<int>(min_shared))),
+                                 factors_of(then), min_shared);
+}
+
 void bind_blob(SQLite::Statement& q, int index, const std::string& bytes) {
   q.bind(index, bytes.data(), static_cast<int>(bytes.size()));
 }
@@ -169,7 +176,27 @@ std::size_t write_drift(SQLite::Database& sql, long long window_id, const char* 
 
 }  // namespace
 
-AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::atomic<bool>* stop) {
+void FittedWindows::keep(std::int32_t as_of, const WindowRecord& record) {
+  const engine::FactorFit& f = record.fit;
+  // The matrices and the asset names dominate; strings count at a typical 40 bytes.
+  const std::size_t size = sizeof(double) * static_cast<std::size_t>(f.loadings.size() + 8 * f.assets.size() +
+                                                                     f.eigenvalues.size()) +
+                           40 * f.assets.size();
+  if (bytes_ + size > kMaxBytes) return;
+  bytes_ += size;
+  records_[as_of] = record;
+}
+
+std::optional<WindowRecord> FittedWindows::take(std::int32_t as_of) {
+  const auto it = records_.find(as_of);
+  if (it == records_.end()) return std::nullopt;
+  std::optional<WindowRecord> out = std::move(it->second);
+  records_.erase(it);
+  return out;
+}
+
+AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::atomic<bool>* stop,
+                           FittedWindows* fitted) {
   const auto start_time = Clock::now();
   AlignmentRun run;
   const ModelConfig& c = model.config;
@@ -267,7 +294,8 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       run.seconds = std::chrono::duration<double>(Clock::now() - start_time).count();
       return run;
     }
-    std::optional<WindowRecord> record = read_window(db, model.id, iso_date(rows[i].as_of), false, WindowForm::as_fitted);
+    std::optional<WindowRecord> record = fitted ? fitted->take(rows[i].as_of) : std::nullopt;
+    if (!record) record = read_window(db, model.id, iso_date(rows[i].as_of), false, WindowForm::as_fitted);
     if (!transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
     forget_drift(sql, rows[i].id, nullptr);
     AlignmentRow row;
@@ -325,16 +353,15 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       pinned_known = true;
     }
 
-    const engine::WindowFactors now = factors_of(fit);
     if (previous)
-      run.alerts += write_drift(sql, rows[i].id, "previous", previous_as_of,
-                                engine::compare_factors(now, factors_of(*previous), min_shared), c.alert_below);
+      run.alerts += write_drift(sql, rows[i].id, "previous", previous_as_of, compare(fit, *previous, min_shared),
+                                c.alert_below);
     if (i == pinned) prior_pinned = at_pinned;
     if (pinned != kNone && i != pinned) {
       if (i < pinned) {
         deferred.push_back(i);  // compared after the loop, walking back from the pinned window
       } else if (pinned_fit) {
-        const engine::DriftComparison d = engine::compare_factors(now, factors_of(*pinned_fit), min_shared);
+        const engine::DriftComparison d = compare(fit, *pinned_fit, min_shared);
         run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned,
                                   prior_pinned ? &*prior_pinned : nullptr);
         if (d.status == engine::DriftStatus::compared) prior_pinned = d.congruence;
@@ -357,7 +384,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       if (!fit) continue;
       if (!transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
       forget_drift(sql, rows[i].id, "pinned");
-      const engine::DriftComparison d = engine::compare_factors(factors_of(*fit), factors_of(*pinned_fit), min_shared);
+      const engine::DriftComparison d = compare(*fit, *pinned_fit, min_shared);
       run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned, &*prior);
       if (d.status == engine::DriftStatus::compared) prior = d.congruence;
       if (++in_transaction == kWindowsPerCommit) commit();

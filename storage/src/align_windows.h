@@ -11,9 +11,13 @@
 
 #include <atomic>
 #include <cstddef>
+#include <cstdint>
+#include <map>
+#include <optional>
 
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/models.h"
+#include "factorwatch/storage/windows.h"
 
 namespace factorwatch::storage::detail {
 
@@ -24,6 +28,21 @@ struct AlignmentRun {
   bool stopped = false;     // asked to stop: the windows written are whole; the rest wait
 };
 
-AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::atomic<bool>* stop);
+// The windows the first pass just fitted and stored, as fitted (rotation included), so the
+// second pass need not read them back: the stored numbers are these, bit for bit (BLOBs
+// hold the doubles, JSON round-trips them). Bounded in memory; what does not fit is read.
+class FittedWindows {
+ public:
+  void keep(std::int32_t as_of, const WindowRecord& record);
+  std::optional<WindowRecord> take(std::int32_t as_of);  // nullopt when not kept
+
+ private:
+  static constexpr std::size_t kMaxBytes = std::size_t{512} << 20;
+  std::size_t bytes_ = 0;
+  std::map<std::int32_t, WindowRecord> records_;
+};
+
+AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::atomic<bool>* stop,
+                           FittedWindows* fitted = nullptr);
 
 }  // namespace factorwatch::storage::detail

@@ -10,6 +10,7 @@
 #include "asset_directory.h"
 #include "blob_codec.h"
 #include "date_key.h"
+#include "factorwatch/engine/factor_basis.h"
 #include "factorwatch/storage/windows.h"
 
 namespace factorwatch::storage {
@@ -164,7 +165,9 @@ std::optional<engine::DriftComparison> compare_stored_windows(Database& db, long
   const auto factors = [](const engine::FactorFit& f) {
     return engine::WindowFactors{f.assets, f.loadings, f.scale, f.factor_covariance, f.explained_share};
   };
-  return engine::compare_factors(factors(now->fit), factors(then->fit), min_shared);
+  // As the refresh compared them: `now` rotated onto `then` first (engine::rotated_onto).
+  return engine::compare_factors(factors(engine::rotated_onto(now->fit, then->fit, min_shared)), factors(then->fit),
+                                 min_shared);
 }
 
 }  // namespace factorwatch::storage

@@ -89,7 +89,7 @@ namespace {
 
 // The first pass: fit the pending windows (see refresh.h).
 RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshCallback& progress,
-                           const std::atomic<bool>* stop, Clock::time_point start) {
+                           const std::atomic<bool>* stop, Clock::time_point start, detail::FittedWindows& fitted) {
   const std::optional<ModelVersion> model = find_model(db, name);
   if (!model) throw std::invalid_argument("no model named '" + name + "' (define it with: factorwatch model set " + name + ")");
   const ModelConfig& config = model->config;
@@ -180,6 +180,7 @@ RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshC
       ++summary.fitted;
       if (summary.first_as_of.empty()) summary.first_as_of = record.as_of;
       summary.last_as_of = record.as_of;
+      fitted.keep(detail::date_key(record.as_of), record);
       previous = std::move(record.fit);
       previous_point = p;
       if (progress) progress({summary.fitted, pending.size(), summary.last_as_of, since(start)});
@@ -194,11 +195,12 @@ RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshC
 RefreshSummary refresh_model(Database& db, const std::string& name, const RefreshCallback& progress,
                              const std::atomic<bool>* stop) {
   const auto start = Clock::now();
-  RefreshSummary summary = fit_windows(db, name, progress, stop, start);
+  detail::FittedWindows fitted;  // this run's fits, handed to the second pass instead of reading them back
+  RefreshSummary summary = fit_windows(db, name, progress, stop, start, fitted);
   if (summary.stopped) return summary;
   // The second pass: alignment and drift of every window that needs it (the new ones, and
   // all after a refitted one), also when no window needed a fit.
-  const detail::AlignmentRun run = detail::align_windows(db, *find_model(db, name), stop);
+  const detail::AlignmentRun run = detail::align_windows(db, *find_model(db, name), stop, &fitted);
   summary.aligned = run.aligned;
   summary.alerts = run.alerts;
   summary.align_seconds = run.seconds;
