@@ -474,3 +474,46 @@ TEST_F(DriftSurfaces, BadInputNamesTheOptionAndExitsTwo) {
 }
 
 }  // namespace
+
+namespace {
+
+// Rotated models serve their loadings in the rotated and aligned basis and say so; with
+// correlated (promax) factors the factor covariance and the structure matrix come along.
+TEST_F(DriftSurfaces, ExposuresNameTheRotationAndCarryTheFactorCovariance) {
+  for (const std::string rotation : {"varimax", "promax"}) {
+    SCOPED_TRACE(rotation);
+    const std::string model = "rot-" + rotation;
+    ASSERT_EQ(run("model set " + model + " --method ml --factors 2 --window " + std::to_string(kWindow) + " --step " +
+                  std::to_string(kStep) + " --rotation " + rotation).status, 0);
+    ASSERT_EQ(run("refresh " + model).status, 0);
+    const ordered_json e = json_of("exposures " + model + " --format json");
+    EXPECT_EQ(e["rotation"], rotation);
+    EXPECT_EQ(e["alignment"]["status"], "aligned");
+    EXPECT_EQ(e["alignment"]["reference"], "previous");
+    const ordered_json& phi = e["factor_covariance"];
+    ASSERT_EQ(phi.size(), 2u);
+    EXPECT_NEAR(phi[0][1].get<double>(), phi[1][0].get<double>(), 1e-15);
+    const ordered_json& row = e["assets"][0];
+    const auto csv = lines_of(run("exposures " + model + " --format csv").out);
+    ASSERT_GE(csv.size(), 3u);
+    EXPECT_NE(csv[1].find("rotation " + rotation + ", aligned onto "), std::string::npos) << csv[1];
+    if (rotation == "varimax") {
+      // Orthogonal factors stay orthogonal through an orthogonal alignment (to rounding).
+      EXPECT_NEAR(phi[0][1].get<double>(), 0.0, 1e-12);
+      EXPECT_FALSE(row.contains("structure"));
+      EXPECT_EQ(csv[2], "asset,f1,f2,communality,specific_variance,uniqueness,heywood");
+    } else {
+      EXPECT_GT(std::abs(phi[0][1].get<double>()), 1e-6);  // promax factors correlate
+      ASSERT_TRUE(row.contains("structure"));
+      // Structure = pattern x factor covariance, as served.
+      for (int j = 0; j < 2; ++j) {
+        const double expected = row["loadings"][0].get<double>() * phi[0][j].get<double>() +
+                                row["loadings"][1].get<double>() * phi[1][j].get<double>();
+        EXPECT_NEAR(row["structure"][j].get<double>(), expected, 1e-15);
+      }
+      EXPECT_EQ(csv[2], "asset,f1,f2,communality,specific_variance,uniqueness,heywood,structure_f1,structure_f2");
+    }
+  }
+}
+
+}  // namespace

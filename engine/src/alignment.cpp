@@ -99,6 +99,8 @@ Eigen::VectorXd principal_angles(const Eigen::MatrixXd& a, const Eigen::MatrixXd
 SharedRows shared_rows(const NamedLoadings& a, const NamedLoadings& b) {
   require_row_names(a, "shared_rows (first)");
   require_row_names(b, "shared_rows (second)");
+  // Consecutive windows mostly hold the same assets in the same order: no lookup needed.
+  if (a.assets == b.assets) return {a.assets, a.loadings, b.loadings};
   std::unordered_map<std::string, Eigen::Index> in_b;
   in_b.reserve(b.assets.size());
   for (std::size_t i = 0; i < b.assets.size(); ++i) in_b.emplace(b.assets[i], Eigen::Index(i));  // first wins

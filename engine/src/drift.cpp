@@ -64,15 +64,21 @@ DriftComparison compare_factors(const WindowFactors& now, const WindowFactors& t
     return d;
   }
 
-  std::unordered_map<std::string, Eigen::Index> in_then;
-  in_then.reserve(then.assets.size());
-  for (std::size_t i = 0; i < then.assets.size(); ++i) in_then.emplace(then.assets[i], Eigen::Index(i));
   std::vector<Eigen::Index> rows_now, rows_then;
-  for (std::size_t i = 0; i < now.assets.size(); ++i) {
-    const auto it = in_then.find(now.assets[i]);
-    if (it == in_then.end()) continue;
-    rows_now.push_back(Eigen::Index(i));
-    rows_then.push_back(it->second);
+  if (now.assets == then.assets) {  // the usual case between windows: no lookup needed
+    rows_now.resize(now.assets.size());
+    for (std::size_t i = 0; i < now.assets.size(); ++i) rows_now[i] = Eigen::Index(i);
+    rows_then = rows_now;
+  } else {
+    std::unordered_map<std::string, Eigen::Index> in_then;
+    in_then.reserve(then.assets.size());
+    for (std::size_t i = 0; i < then.assets.size(); ++i) in_then.emplace(then.assets[i], Eigen::Index(i));
+    for (std::size_t i = 0; i < now.assets.size(); ++i) {
+      const auto it = in_then.find(now.assets[i]);
+      if (it == in_then.end()) continue;
+      rows_now.push_back(Eigen::Index(i));
+      rows_then.push_back(it->second);
+    }
   }
   const Eigen::Index n = Eigen::Index(rows_now.size());
   // Nothing can be compared on no assets, whatever minimum was asked for.
@@ -120,30 +126,34 @@ std::vector<AssetMove> largest_moves(const DriftComparison& drift, int factor, s
   if (factor < -1 || factor >= k)
     throw std::invalid_argument("largest_moves: factor " + std::to_string(factor) + " is not -1 (all) or in [0, " +
                                 std::to_string(k) + ")");
-  std::vector<AssetMove> moves(drift.assets.size());
-  for (std::size_t r = 0; r < moves.size(); ++r) {
+  // Ranked by index: building every asset's AssetMove (a name copy each) would cost more
+  // than the ranking, and the refresh asks for the top ten of thousands, factor by factor.
+  const std::size_t n = drift.assets.size();
+  std::vector<double> change(n), exposure(n);
+  for (std::size_t r = 0; r < n; ++r) {
     const Eigen::Index i = Eigen::Index(r);
-    moves[r].asset = drift.assets[r];
     if (factor < 0) {
-      moves[r].standardized_change = drift.standardized_change.row(i).norm();
-      moves[r].exposure_change = drift.exposure_change.row(i).norm();
+      change[r] = drift.standardized_change.row(i).norm();
+      exposure[r] = drift.exposure_change.row(i).norm();
     } else {
-      moves[r].standardized_change = drift.standardized_change(i, factor);
-      moves[r].exposure_change = drift.exposure_change(i, factor);
+      change[r] = drift.standardized_change(i, factor);
+      exposure[r] = drift.exposure_change(i, factor);
     }
   }
   // Largest |change| first, ties by asset name so the list does not depend on row order;
   // a NaN ranks last (it must not break the strict weak ordering).
-  const auto size = [](const AssetMove& m) {
-    return std::isnan(m.standardized_change) ? -1.0 : std::abs(m.standardized_change);
-  };
-  const auto before = [&](const AssetMove& x, const AssetMove& y) {
+  const auto size = [&](std::size_t r) { return std::isnan(change[r]) ? -1.0 : std::abs(change[r]); };
+  const auto before = [&](std::size_t x, std::size_t y) {
     const double sx = size(x), sy = size(y);
-    return sx != sy ? sx > sy : x.asset < y.asset;
+    return sx != sy ? sx > sy : drift.assets[x] < drift.assets[y];
   };
-  const std::size_t keep = std::min(count, moves.size());
-  std::partial_sort(moves.begin(), moves.begin() + std::ptrdiff_t(keep), moves.end(), before);
-  moves.resize(keep);
+  std::vector<std::size_t> order(n);
+  for (std::size_t r = 0; r < n; ++r) order[r] = r;
+  const std::size_t keep = std::min(count, n);
+  std::partial_sort(order.begin(), order.begin() + std::ptrdiff_t(keep), order.end(), before);
+  std::vector<AssetMove> moves;
+  moves.reserve(keep);
+  for (std::size_t m = 0; m < keep; ++m) moves.push_back({drift.assets[order[m]], change[order[m]], exposure[order[m]]});
   return moves;
 }
 

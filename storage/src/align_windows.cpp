@@ -62,8 +62,11 @@ std::optional<engine::FactorFit> served_window(Database& db, long model_version_
 }
 
 // Drift of a window against another, after rotating it onto that one (see
-// engine::rotated_onto): what the chain of alignments accumulated is not drift.
-engine::DriftComparison compare(const engine::FactorFit& now, const engine::FactorFit& then, Eigen::Index min_shared) {
+// engine::rotated_onto): what the chain of alignments accumulated is not drift. When the
+// window was just aligned onto that very window, it already is in its basis.
+engine::DriftComparison compare(const engine::FactorFit& now, const engine::FactorFit& then, Eigen::Index min_shared,
+                                bool aligned_onto_then) {
+  if (aligned_onto_then) return engine::compare_factors(factors_of(now), factors_of(then), min_shared);
   return engine::compare_factors(factors_of(engine::rotated_onto(now, then, static_cast<int>(min_shared))),
                                  factors_of(then), min_shared);
 }
@@ -90,6 +93,15 @@ struct AlignmentRow {
   double residual = std::nan("");
   Eigen::VectorXd factor_fit;
 };
+
+// Whether the window was aligned directly onto the window of this as-of date (then it
+// already is in that window's basis; compare_stored_windows follows the same rule).
+bool aligned_onto(const AlignmentRow& a, std::int32_t as_of) {
+  return a.status == engine::to_string(engine::AlignmentStatus::aligned) && a.reference_as_of == as_of;
+}
+bool aligned_onto(const std::optional<WindowAlignment>& a, const std::string& as_of) {
+  return a && a->status == engine::to_string(engine::AlignmentStatus::aligned) && a->reference_as_of == as_of;
+}
 
 void write_alignment(SQLite::Database& sql, long long window_id, const AlignmentRow& a) {
   SQLite::Statement q(sql,
@@ -354,14 +366,14 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     }
 
     if (previous)
-      run.alerts += write_drift(sql, rows[i].id, "previous", previous_as_of, compare(fit, *previous, min_shared),
-                                c.alert_below);
+      run.alerts += write_drift(sql, rows[i].id, "previous", previous_as_of,
+                                compare(fit, *previous, min_shared, aligned_onto(row, previous_as_of)), c.alert_below);
     if (i == pinned) prior_pinned = at_pinned;
     if (pinned != kNone && i != pinned) {
       if (i < pinned) {
         deferred.push_back(i);  // compared after the loop, walking back from the pinned window
       } else if (pinned_fit) {
-        const engine::DriftComparison d = compare(fit, *pinned_fit, min_shared);
+        const engine::DriftComparison d = compare(fit, *pinned_fit, min_shared, aligned_onto(row, rows[pinned].as_of));
         run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned,
                                   prior_pinned ? &*prior_pinned : nullptr);
         if (d.status == engine::DriftStatus::compared) prior_pinned = d.congruence;
@@ -380,11 +392,12 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     std::optional<Eigen::VectorXd> prior = at_pinned;
     for (auto it = deferred.rbegin(); it != deferred.rend(); ++it) {
       const std::size_t i = *it;
-      const std::optional<engine::FactorFit> fit = served_window(db, model.id, rows[i].as_of);
-      if (!fit) continue;
+      const std::optional<WindowRecord> w = read_window(db, model.id, iso_date(rows[i].as_of), false, WindowForm::served);
+      if (!w || !w->fit.IsSolutionUsable()) continue;
       if (!transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
       forget_drift(sql, rows[i].id, "pinned");
-      const engine::DriftComparison d = compare(*fit, *pinned_fit, min_shared);
+      const engine::DriftComparison d =
+          compare(w->fit, *pinned_fit, min_shared, aligned_onto(w->alignment, iso_date(rows[pinned].as_of)));
       run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned, &*prior);
       if (d.status == engine::DriftStatus::compared) prior = d.congruence;
       if (++in_transaction == kWindowsPerCommit) commit();
