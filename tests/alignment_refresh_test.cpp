@@ -19,6 +19,7 @@
 #include "factorwatch/storage/returns_csv.h"
 #include "factorwatch/storage/windows.h"
 #include "simulated_model.h"
+#include "stored_returns.h"
 #include "storage_fixtures.h"
 
 namespace {
@@ -42,14 +43,7 @@ engine::ReturnsPanel planted(int periods = kT) {
   return p;
 }
 
-void load(storage::Database& db, const std::string& path) {
-  storage::ReturnsFile file = storage::read_returns_file(path, {});
-  storage::IngestSource source;
-  source.path = path;
-  source.layout = file.layout;
-  source.content_sha256 = storage::file_sha256(path);
-  storage::store_returns(db, file.panel, source);
-}
+void load(storage::Database& db, const std::string& path) { fw::load_returns(db, path); }
 
 storage::ModelConfig config() {
   storage::ModelConfig c;

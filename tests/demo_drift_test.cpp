@@ -19,6 +19,7 @@
 #include "factorwatch/storage/windows.h"
 #include "generator.h"
 #include "storage_fixtures.h"
+#include "stored_returns.h"
 
 namespace {
 
@@ -52,12 +53,7 @@ DemoRun refresh_demo(storage::AlignTo align_to) {
   }
   const std::string name = storage::to_string(align_to);
   storage::Database db(dir.file(name + ".db"));
-  storage::ReturnsFile file = storage::read_returns_file(dir.file("demo.csv"), {});
-  storage::IngestSource source;
-  source.path = dir.file("demo.csv");
-  source.layout = file.layout;
-  source.content_sha256 = storage::file_sha256(dir.file("demo.csv"));
-  storage::store_returns(db, file.panel, source);
+  fw::load_returns(db, dir.file("demo.csv"));
   storage::ModelConfig c;
   c.method = engine::Method::max_likelihood;
   c.factors = 4;

@@ -14,6 +14,7 @@
 #include "factorwatch/storage/returns_csv.h"
 #include "factorwatch/storage/windows.h"
 #include "simulated_model.h"
+#include "stored_returns.h"
 #include "storage_fixtures.h"
 
 namespace {
@@ -33,14 +34,7 @@ engine::ReturnsPanel planted() {
   return p;
 }
 
-void load(storage::Database& db, const std::string& path) {
-  storage::ReturnsFile file = storage::read_returns_file(path, {});
-  storage::IngestSource source;
-  source.path = path;
-  source.layout = file.layout;
-  source.content_sha256 = storage::file_sha256(path);
-  storage::store_returns(db, file.panel, source);
-}
+void load(storage::Database& db, const std::string& path) { testing::load_returns(db, path); }
 
 storage::ModelConfig ml_config(int window, int step) {
   storage::ModelConfig c;

@@ -22,17 +22,18 @@ void order_and_fix_signs(Eigen::MatrixXd& L) {
                    [&](Eigen::Index a, Eigen::Index b) { return variance[a] > variance[b]; });
   Eigen::MatrixXd out(L.rows(), k);
   for (Eigen::Index j = 0; j < k; ++j) {
-    Eigen::VectorXd c = L.col(order[std::size_t(j)]);
-    const double sum = c.sum();
-    double sign = sum < 0 ? -1.0 : 1.0;
-    if (std::abs(sum) <= 1e-9 * c.cwiseAbs().sum()) {
-      Eigen::Index at = 0;
-      c.cwiseAbs().maxCoeff(&at);
-      sign = c[at] < 0 ? -1.0 : 1.0;
-    }
-    out.col(j) = sign * c;
+    const Eigen::VectorXd c = L.col(order[std::size_t(j)]);
+    out.col(j) = canonical_sign(c) * c;
   }
   L = std::move(out);
+}
+
+double canonical_sign(const Eigen::Ref<const Eigen::VectorXd>& c) {
+  const double sum = c.sum();
+  if (std::abs(sum) > 1e-9 * c.cwiseAbs().sum()) return sum < 0 ? -1.0 : 1.0;
+  Eigen::Index at = 0;
+  c.cwiseAbs().maxCoeff(&at);
+  return c[at] < 0 ? -1.0 : 1.0;
 }
 
 }  // namespace factorwatch::engine::detail

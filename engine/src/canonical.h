@@ -15,4 +15,7 @@ void rotate_to_principal_axes(Eigen::MatrixXd& L, const Eigen::VectorXd& psi);
 // column's absolute sum), the entry largest in absolute value is made positive.
 void order_and_fix_signs(Eigen::MatrixXd& L);
 
+// The sign rule above for one column: +1 or -1.
+double canonical_sign(const Eigen::Ref<const Eigen::VectorXd>& column);
+
 }  // namespace factorwatch::engine::detail

@@ -3,6 +3,8 @@
 // engine's canonical form for fitted windows and the change of factor basis.
 #include "factorwatch/engine/rotation.h"
 
+#include "canonical.h"
+
 #include <algorithm>
 #include <cmath>
 #include <limits>
@@ -175,20 +177,12 @@ RotationResult rotate_fit_loadings(const Eigen::MatrixXd& standardized_loadings,
   std::stable_sort(order.begin(), order.end(),
                    [&](Eigen::Index a, Eigen::Index b) { return variance[a] > variance[b]; });
   // The signed permutation P: column j of the result is sign_j times column order[j].
-  // Sign rule as in canonical.cpp's order_and_fix_signs: column sum positive; when the
+  // Sign rule of canonical.cpp (detail::canonical_sign): column sum positive; when the
   // sum is negligible (below 1e-9 of the absolute sum), the largest entry positive.
   Eigen::MatrixXd P = Eigen::MatrixXd::Zero(k, k);
   for (Eigen::Index j = 0; j < k; ++j) {
     const Eigen::Index from = order[std::size_t(j)];
-    const auto c = r.loadings.col(from);
-    const double sum = c.sum();
-    double sign = sum < 0 ? -1.0 : 1.0;
-    if (std::abs(sum) <= 1e-9 * c.cwiseAbs().sum()) {
-      Eigen::Index at = 0;
-      c.cwiseAbs().maxCoeff(&at);
-      sign = c[at] < 0 ? -1.0 : 1.0;
-    }
-    P(from, j) = sign;
+    P(from, j) = detail::canonical_sign(r.loadings.col(from));
   }
   // Products with a signed permutation only move and negate entries: exact.
   r.matrix = r.matrix * P;
