@@ -6,6 +6,7 @@
 #include <stdexcept>
 
 #include "factorwatch/storage/assets.h"
+#include "factorwatch/storage/timestamps.h"
 #include "factorwatch/storage/windows.h"
 #include "window_query.h"
 
@@ -16,21 +17,8 @@ QueryFailure failure(QueryOutcome outcome, std::string field, std::string value,
   return {outcome, std::move(field), std::move(value), std::move(message)};
 }
 
-// A real calendar date in the form yyyy-mm-dd, the rule the database keys dates by
-// (checked here so that the message can name the option or parameter, not storage's words).
-bool is_iso_date(const std::string& s) {
-  if (s.size() != 10 || s[4] != '-' || s[7] != '-') return false;
-  for (std::size_t i : {0, 1, 2, 3, 5, 6, 8, 9})
-    if (s[i] < '0' || s[i] > '9') return false;
-  const int y = std::stoi(s.substr(0, 4)), m = std::stoi(s.substr(5, 2)), d = std::stoi(s.substr(8, 2));
-  static const int days[] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
-  if (m < 1 || m > 12 || d < 1) return false;
-  const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
-  return d <= days[m - 1] + (m == 2 && leap ? 1 : 0);
-}
-
 QueryFailure check_date(const std::string& field, const std::string& value) {
-  if (value.empty() || is_iso_date(value)) return {};
+  if (value.empty() || storage::is_calendar_date(value)) return {};
   return failure(QueryOutcome::bad_input, field, value, "not a date in the form yyyy-mm-dd");
 }
 
@@ -74,7 +62,6 @@ double standardized_norm(const engine::DriftComparison& c, std::size_t row) {
   return std::sqrt(c.standardized_change.row(static_cast<Eigen::Index>(row)).squaredNorm());
 }
 
-int min_shared_assets(const storage::ModelConfig& c) { return std::max(c.min_shared_assets, c.factors); }
 
 std::string factor_list(const std::vector<Eigen::Index>& factors) {
   std::string out;
@@ -128,7 +115,7 @@ QueryFailure find_window_drift(storage::Database& db, const std::string& model, 
   }
   out.record = std::move(records.front());
   auto comparison = storage::compare_stored_windows(db, out.model.id, out.record.as_of, out.record.against_as_of,
-                                                    min_shared_assets(out.model.config));
+                                                    out.model.config.effective_min_shared_assets());
   if (!comparison)
     return failure(QueryOutcome::not_found, "window", window,
                    "the window as of " + out.record.as_of + " or the window it was compared with (" +

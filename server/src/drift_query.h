@@ -87,9 +87,6 @@ std::vector<Eigen::Index> flagged_factors(const storage::DriftRecord& record, do
 // stored row has more).
 Eigen::Index factor_columns(const storage::ModelConfig& config, const std::vector<storage::DriftRecord>& rows);
 
-// The fewest shared assets a comparison needs under this configuration (as the refresh).
-int min_shared_assets(const storage::ModelConfig& config);
-
 // The Euclidean norm of row i of the standardized change: how far the asset moved over all
 // factors, the order of the one-window comparison.
 double standardized_norm(const engine::DriftComparison& comparison, std::size_t row);

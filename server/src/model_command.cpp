@@ -40,7 +40,7 @@ std::string describe(const storage::ModelConfig& c) {
       out += text;
       break;
   }
-  out += ", with at least " + std::to_string(std::max(c.min_shared_assets, c.factors)) + " shared assets\n";
+  out += ", with at least " + std::to_string(c.effective_min_shared_assets()) + " shared assets\n";
   out += "  pinned window: " + (c.pinned_window.empty() ? std::string("the first window") : c.pinned_window) + "\n";
   out += "  drift alerts:  against the previous window " + threshold_text(c.alert_below) +
          "; against the pinned window " + threshold_text(c.alert_below_pinned) + "\n";

@@ -18,6 +18,7 @@
 #include "factorwatch/engine/factor_basis.h"
 #include "factorwatch/storage/drift.h"
 #include "factorwatch/storage/windows.h"
+#include "window_comparison.h"
 
 namespace factorwatch::storage::detail {
 namespace {
@@ -49,26 +50,12 @@ std::vector<Row> rows_of(Database& db, long model_version_id) {
 
 engine::NamedLoadings standardized(const engine::FactorFit& fit) { return {fit.assets, fit.standardized_loadings()}; }
 
-engine::WindowFactors factors_of(const engine::FactorFit& fit) {
-  return {fit.assets, fit.loadings, fit.scale, fit.factor_covariance, fit.explained_share};
-}
-
 // A stored window as served (its rotation and its stored alignment applied); nullopt when
 // it is missing or its fit is not usable.
 std::optional<engine::FactorFit> served_window(Database& db, long model_version_id, std::int32_t as_of) {
   auto w = read_window(db, model_version_id, iso_date(as_of), false, WindowForm::served);
   if (!w || !w->fit.IsSolutionUsable()) return std::nullopt;
   return std::move(w->fit);
-}
-
-// Drift of a window against another, after rotating it onto that one (see
-// engine::rotated_onto): what the chain of alignments accumulated is not drift. When the
-// window was just aligned onto that very window, it already is in its basis.
-engine::DriftComparison compare(const engine::FactorFit& now, const engine::FactorFit& then, Eigen::Index min_shared,
-                                bool aligned_onto_then) {
-  if (aligned_onto_then) return engine::compare_factors(factors_of(now), factors_of(then), min_shared);
-  return engine::compare_factors(factors_of(engine::rotated_onto(now, then, static_cast<int>(min_shared))),
-                                 factors_of(then), min_shared);
 }
 
 void bind_blob(SQLite::Statement& q, int index, const std::string& bytes) {
@@ -94,13 +81,10 @@ struct AlignmentRow {
   Eigen::VectorXd factor_fit;
 };
 
-// Whether the window was aligned directly onto the window of this as-of date (then it
-// already is in that window's basis; compare_stored_windows follows the same rule).
+// Whether the window was aligned directly onto the window of this as-of date (the rule of
+// aligned_directly_onto, for a row not yet read back).
 bool aligned_onto(const AlignmentRow& a, std::int32_t as_of) {
   return a.status == engine::to_string(engine::AlignmentStatus::aligned) && a.reference_as_of == as_of;
-}
-bool aligned_onto(const std::optional<WindowAlignment>& a, const std::string& as_of) {
-  return a && a->status == engine::to_string(engine::AlignmentStatus::aligned) && a->reference_as_of == as_of;
 }
 
 void write_alignment(SQLite::Database& sql, long long window_id, const AlignmentRow& a) {
@@ -229,8 +213,8 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
   std::size_t start = static_cast<std::size_t>(missing - rows.begin());
   if (pinned != kNone && start <= pinned) start = 0;  // every window is compared with the pinned one
 
-  const engine::AlignmentOptions options{std::max(c.min_shared_assets, c.factors)};
-  const Eigen::Index min_shared = options.min_shared_assets;
+  const engine::AlignmentOptions options{c.effective_min_shared_assets()};
+  const int min_shared = options.min_shared_assets;
   const std::string kind = to_string(c.align_to);
 
   std::optional<engine::FactorFit> previous;  // served, the last usable window before the current one
@@ -367,13 +351,13 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
 
     if (previous)
       run.alerts += write_drift(sql, rows[i].id, "previous", previous_as_of,
-                                compare(fit, *previous, min_shared, aligned_onto(row, previous_as_of)), c.alert_below);
+                                compare_served(fit, *previous, min_shared, aligned_onto(row, previous_as_of)), c.alert_below);
     if (i == pinned) prior_pinned = at_pinned;
     if (pinned != kNone && i != pinned) {
       if (i < pinned) {
         deferred.push_back(i);  // compared after the loop, walking back from the pinned window
       } else if (pinned_fit) {
-        const engine::DriftComparison d = compare(fit, *pinned_fit, min_shared, aligned_onto(row, rows[pinned].as_of));
+        const engine::DriftComparison d = compare_served(fit, *pinned_fit, min_shared, aligned_onto(row, rows[pinned].as_of));
         run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned,
                                   prior_pinned ? &*prior_pinned : nullptr);
         if (d.status == engine::DriftStatus::compared) prior_pinned = d.congruence;
@@ -397,7 +381,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       if (!transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
       forget_drift(sql, rows[i].id, "pinned");
       const engine::DriftComparison d =
-          compare(w->fit, *pinned_fit, min_shared, aligned_onto(w->alignment, iso_date(rows[pinned].as_of)));
+          compare_served(w->fit, *pinned_fit, min_shared, aligned_directly_onto(w->alignment, iso_date(rows[pinned].as_of)));
       run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned, &*prior);
       if (d.status == engine::DriftStatus::compared) prior = d.congruence;
       if (++in_transaction == kWindowsPerCommit) commit();

@@ -37,4 +37,6 @@ namespace factorwatch::storage {
 
 std::string utc_timestamp() { return detail::utc_now(); }
 
+bool is_calendar_date(std::string_view text) { return detail::parse_iso_date(text).has_value(); }
+
 }  // namespace factorwatch::storage

@@ -10,9 +10,8 @@
 #include "asset_directory.h"
 #include "blob_codec.h"
 #include "date_key.h"
-#include "factorwatch/engine/alignment.h"
-#include "factorwatch/engine/factor_basis.h"
 #include "factorwatch/storage/windows.h"
+#include "window_comparison.h"
 
 namespace factorwatch::storage {
 namespace {
@@ -163,16 +162,9 @@ std::optional<engine::DriftComparison> compare_stored_windows(Database& db, long
   const auto now = read_window(db, model_version_id, as_of, false);
   const auto then = read_window(db, model_version_id, against_as_of, false);
   if (!now || !then || !now->fit.IsSolutionUsable() || !then->fit.IsSolutionUsable()) return std::nullopt;
-  const auto factors = [](const engine::FactorFit& f) {
-    return engine::WindowFactors{f.assets, f.loadings, f.scale, f.factor_covariance, f.explained_share};
-  };
-  // As the refresh compared them: `now` rotated onto `then` first (engine::rotated_onto),
-  // unless it was aligned onto that very window, and so already is in its basis.
-  const auto& a = now->alignment;
-  if (a && a->status == engine::to_string(engine::AlignmentStatus::aligned) && a->reference_as_of == then->as_of)
-    return engine::compare_factors(factors(now->fit), factors(then->fit), min_shared);
-  return engine::compare_factors(factors(engine::rotated_onto(now->fit, then->fit, min_shared)), factors(then->fit),
-                                 min_shared);
+  // As the refresh compared them (window_comparison.h).
+  return detail::compare_served(now->fit, then->fit, min_shared,
+                                detail::aligned_directly_onto(now->alignment, then->as_of));
 }
 
 }  // namespace factorwatch::storage

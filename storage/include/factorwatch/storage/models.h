@@ -62,6 +62,9 @@ struct ModelConfig {
   nlohmann::ordered_json to_json() const;
   // Throws std::runtime_error on a configuration that is not one of ours.
   static ModelConfig from_json(const nlohmann::json& j);
+  // The minimum that applies: min_shared_assets, or the number of factors if larger (a
+  // rotation is not determined by fewer rows than factors).
+  int effective_min_shared_assets() const { return min_shared_assets > factors ? min_shared_assets : factors; }
   // The rotation options of every window of this configuration.
   engine::RotationOptions rotation_options() const;
   // Fingerprint of the canonical JSON. Members added after schema 4 (rotation onwards)
