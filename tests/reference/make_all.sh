@@ -7,6 +7,9 @@ cd "$(dirname "$0")"
 /usr/bin/Rscript make_harman74_rotation.R
 /usr/bin/Rscript make_eustock.R
 /usr/bin/python3 make_eustock_pca.py
+/usr/bin/Rscript make_eustock_risk.R
+/usr/bin/python3 make_eustock_risk.py
+/usr/bin/Rscript make_factor_scores.R
 /usr/bin/Rscript make_chi_square_sf.R
 /usr/bin/python3 make_chi_square_sf.py
 /usr/bin/python3 make_procrustes.py
