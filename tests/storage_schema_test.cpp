@@ -55,6 +55,30 @@ void fill(SQLite::Database& sql, int version) {
              "fitted_at) VALUES (1, 20240103, 20240102, 'h', 'i', 0, 1, 0, 'not_run', x'', x'', x'', x'', x'', x'', "
              "x'', x'', x'', x'', x'', '{}', 0, 0, 'now')");
   }
+  if (version >= 6) {
+    sql.exec("INSERT INTO portfolios (id, name, created_at) VALUES (1, 'p', 'now')");
+    sql.exec("INSERT INTO holding_sets (id, portfolio_id, as_of, benchmark, source, content_sha256, stored_at) "
+             "VALUES (1, 1, 20240103, NULL, 'p.csv', 'h', 'now')");
+    sql.exec("INSERT INTO holdings (set_id, position, asset, weight) VALUES (1, 0, 'ZQ-0001', 0.5), "
+             "(1, 1, 'ZQ-GONE', -0.25)");
+  }
+}
+
+// Schema 6: a holding set belongs to a stored portfolio, and removing the portfolio takes
+// its sets and their holdings with it (ON DELETE CASCADE, with foreign keys on).
+TEST(StorageSchema, PortfolioRowsCascade) {
+  TempDir dir;
+  Database db(dir.database());
+  SQLite::Database& sql = db.sql();
+  EXPECT_THROW(sql.exec("INSERT INTO holding_sets (portfolio_id, as_of, source, content_sha256, stored_at) "
+                        "VALUES (9, 20240103, 'p.csv', 'h', 'now')"),
+               SQLite::Exception);
+  fill(sql, 6);
+  EXPECT_THROW(sql.exec("INSERT INTO holdings (set_id, position, asset, weight) VALUES (1, 2, 'ZQ-0001', 1)"),
+               SQLite::Exception);  // each asset once per set
+  sql.exec("DELETE FROM portfolios WHERE id = 1");
+  EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM holding_sets").getInt(), 0);
+  EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM holdings").getInt(), 0);
 }
 
 // Every earlier version, including an empty file (version 0), migrates to the current
@@ -86,6 +110,10 @@ TEST(StorageSchema, MigratesFromEveryEarlierVersion) {
     EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM window_alignments").getInt(), 0);
     EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM window_drift").getInt(), 0);
     EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM drift_alerts").getInt(), 0);
+    // Schema 6: portfolios; a holding names an asset by text, stored returns or not.
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM portfolios").getInt(), from >= 6 ? 1 : 0);
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM holding_sets").getInt(), from >= 6 ? 1 : 0);
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM holdings").getInt(), from >= 6 ? 2 : 0);
     if (from >= 1) {
       EXPECT_EQ(sql.execAndGet("SELECT name FROM assets WHERE id = 1").getString(), "ZQ-0001");
     }

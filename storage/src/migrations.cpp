@@ -147,6 +147,35 @@ CREATE TABLE drift_alerts (
   PRIMARY KEY (window_id, against, factor)
 );
 )sql"},
+      // Portfolios and benchmarks: a name, one holding set per as-of date, and the set's
+      // holdings in file order. Holdings name assets by text, not by assets(id): a file
+      // may name assets with no stored returns (delisted, not loaded yet, a typo), and the
+      // risk report lists those rather than the store refusing them.
+      {6, "portfolios and their holdings", R"sql(
+CREATE TABLE portfolios (
+  id         INTEGER PRIMARY KEY,
+  name       TEXT NOT NULL UNIQUE,
+  created_at TEXT NOT NULL
+);
+CREATE TABLE holding_sets (
+  id             INTEGER PRIMARY KEY,
+  portfolio_id   INTEGER NOT NULL REFERENCES portfolios(id) ON DELETE CASCADE,
+  as_of          INTEGER NOT NULL,  -- yyyymmdd, the date the holdings are for
+  benchmark      TEXT,              -- a portfolio's name (need not be stored yet); NULL = none
+  source         TEXT NOT NULL,     -- the file, or the label of an upload
+  content_sha256 TEXT NOT NULL,     -- of the holdings and the benchmark, canonical text
+  stored_at      TEXT NOT NULL,     -- UTC, ISO 8601
+  UNIQUE (portfolio_id, as_of)
+);
+CREATE TABLE holdings (
+  set_id   INTEGER NOT NULL REFERENCES holding_sets(id) ON DELETE CASCADE,
+  position INTEGER NOT NULL,        -- 0-based, the file's order
+  asset    TEXT NOT NULL,           -- the name as the file gives it
+  weight   REAL NOT NULL,
+  PRIMARY KEY (set_id, position),
+  UNIQUE (set_id, asset)
+) WITHOUT ROWID;
+)sql"},
   };
   return steps;
 }
