@@ -69,6 +69,10 @@ class DaemonProcess {
   DaemonProcess(const std::string& data_dir, const std::string& extra = "") : data_dir_(data_dir) {
     log_path_ = data_dir + "/.daemon-log";
     out_path_ = data_dir + "/.daemon-out";
+    // A daemon started earlier on the same directory left its banner here; its port must
+    // not be mistaken for this one's.
+    std::remove(out_path_.c_str());
+    std::remove(log_path_.c_str());
     pid_ = ::fork();
     if (pid_ == 0) {
       const std::string command = std::string("exec ") + FACTORWATCH_COMMAND + " --data '" + data_dir +

@@ -1,5 +1,6 @@
 // What every endpoint handler may use: the database (one connection per request thread),
-// the refresh jobs, the response cache and the daemon's limits.
+// the refresh jobs, the response cache, the windows ready for risk queries and the
+// daemon's limits.
 #pragma once
 
 #include <atomic>
@@ -9,6 +10,7 @@
 #include "factorwatch/storage/database.h"
 #include "refresh_jobs.h"
 #include "response_cache.h"
+#include "risk_model_cache.h"
 
 namespace factorwatch::server {
 
@@ -21,6 +23,7 @@ struct ApiContext {
   std::size_t max_upload_bytes = 0;
   RefreshJobs* jobs = nullptr;
   ResponseCache* cache = nullptr;
+  RiskModelCache* risk_models = nullptr;  // windows ready for risk queries
   const std::atomic<DaemonState>* state = nullptr;
   bool reads_need_token = false;
 

@@ -15,16 +15,6 @@ bool oblique(const engine::FactorFit& f) {
   return f.factor_covariance.size() > 0 && !f.factor_covariance.isIdentity(1e-9);
 }
 
-// "rotation varimax, aligned onto 2025-12-30 (previous)" and the like.
-std::string basis_text(const SelectedWindow& s) {
-  std::string text = std::string("rotation ") + engine::to_string(s.model.config.rotation) + ", ";
-  const auto& a = s.window.alignment;
-  if (!a) return text + "not aligned yet";
-  if (a->status != "aligned") return text + "alignment: " + a->status;
-  return text + "aligned onto " + (a->reference_as_of.empty() ? "the smoothed reference" : a->reference_as_of) +
-         " (" + a->reference + ")";
-}
-
 }  // namespace
 
 std::string exposures_csv(const SelectedWindow& s) {
@@ -33,7 +23,7 @@ std::string exposures_csv(const SelectedWindow& s) {
   const bool with_structure = oblique(f);
   const Eigen::MatrixXd structure = with_structure ? Eigen::MatrixXd(f.loadings * f.factor_covariance) : Eigen::MatrixXd();
   std::string out = csv_caution_line();
-  out += window_csv_heading(s) + ", " + engine::to_string(f.method) + ", " + basis_text(s) + "\n";
+  out += window_csv_heading(s) + ", " + engine::to_string(f.method) + ", " + factor_basis_text(s) + "\n";
   out += "asset";
   for (Eigen::Index j = 0; j < k; ++j) out += "," + factor_name(j);
   out += ",communality,specific_variance,uniqueness,heywood";

@@ -96,6 +96,7 @@ class Daemon {
       : options_(o),
         data_dir_(std::move(data_dir)),
         cache_(o.cache_mb << 20),
+        risk_models_(kRiskModelWindows),
         jobs_(storage::database_path(data_dir_)),
         tokens_(token_path(data_dir_)) {
     context_.data_dir = data_dir_;
@@ -103,6 +104,7 @@ class Daemon {
     context_.max_upload_bytes = o.max_upload_mb << 20;
     context_.jobs = &jobs_;
     context_.cache = &cache_;
+    context_.risk_models = &risk_models_;
     context_.state = &state_;
     context_.reads_need_token = o.reads_need_token || !is_loopback(o.address);
   }
@@ -119,6 +121,7 @@ class Daemon {
   DaemonOptions options_;
   std::string data_dir_;
   ResponseCache cache_;
+  RiskModelCache risk_models_;
   RefreshJobs jobs_;
   TokenGuard tokens_;
   std::atomic<DaemonState> state_{DaemonState::starting};
@@ -187,6 +190,7 @@ void Daemon::configure() {
     if (method == "GET") http_.Get(pattern, handler);
     else if (method == "POST") http_.Post(pattern, handler);
     else if (method == "PUT") http_.Put(pattern, handler);
+    else if (method == "DELETE") http_.Delete(pattern, handler);
   }
 
   http_.set_pre_routing_handler([](const httplib::Request&, httplib::Response&) {

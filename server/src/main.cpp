@@ -12,7 +12,9 @@
 #include "history_command.h"
 #include "load_command.h"
 #include "model_command.h"
+#include "portfolio_command.h"
 #include "refresh_command.h"
+#include "risk_command.h"
 #include "serve_command.h"
 #include "specific_risk_command.h"
 #include "token_command.h"
@@ -43,6 +45,8 @@ int main(int argc, char** argv) {
   DriftArguments drift_arguments;
   HistoryArguments history_arguments;
   AlertsArguments alerts_arguments;
+  PortfolioArguments portfolio_arguments;
+  RiskArguments risk_arguments;
   CLI::App* load = add_load_command(app, load_arguments);
   CLI::App* model = add_model_command(app, model_arguments);
   CLI::App* refresh = add_refresh_command(app, refresh_arguments);
@@ -52,6 +56,8 @@ int main(int argc, char** argv) {
   CLI::App* drift = add_drift_command(app, drift_arguments);
   CLI::App* history = add_history_command(app, history_arguments);
   CLI::App* alerts = add_alerts_command(app, alerts_arguments);
+  CLI::App* portfolio = add_portfolio_command(app, portfolio_arguments);
+  CLI::App* risk = add_risk_command(app, risk_arguments);
   CLI::App* fit = add_fit_command(app, fit_arguments);
   CLI::App* serve = add_serve_command(app, serve_options);
   CLI::App* token = add_token_command(app, token_arguments);
@@ -70,6 +76,8 @@ int main(int argc, char** argv) {
   if (drift->parsed()) return run_drift_command(drift_arguments, global);
   if (history->parsed()) return run_history_command(history_arguments, global);
   if (alerts->parsed()) return run_alerts_command(alerts_arguments, global);
+  if (portfolio->parsed()) return run_portfolio_command(portfolio_arguments, global);
+  if (risk->parsed()) return run_risk_command(risk_arguments, global);
   if (fit->parsed()) return run_fit_command(fit_arguments);
   if (serve->parsed()) return run_serve_command(serve_options, global);
   if (token->parsed()) return run_token_command(token_arguments, global);

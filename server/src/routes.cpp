@@ -3,6 +3,8 @@
 #include "data_endpoints.h"
 #include "drift_endpoints.h"
 #include "model_endpoints.h"
+#include "portfolio_endpoints.h"
+#include "risk_endpoints.h"
 #include "service_endpoints.h"
 #include "window_endpoints.h"
 
@@ -36,6 +38,18 @@ const std::vector<Route>& api_routes() {
        history_endpoint},
       {"GET", "/v1/models/{name}/alerts", false, false, "Windows whose factors drifted past the model's thresholds",
        alerts_endpoint},
+      {"GET", "/v1/models/{name}/risk", false, false,
+       "A stored portfolio's risk in a window: total, systematic, specific, by factor and by asset",
+       stored_portfolio_risk_endpoint},
+      {"POST", "/v1/models/{name}/risk", false, false,
+       "The risk of weights sent in the body (with a benchmark and a trade, if any)", posted_weights_risk_endpoint},
+      {"GET", "/v1/portfolios", false, false, "Stored portfolios and benchmarks", list_portfolios_endpoint},
+      {"GET", "/v1/portfolios/{name}", false, false, "One portfolio's holdings for an as-of date",
+       show_portfolio_endpoint},
+      {"PUT", "/v1/portfolios/{name}", true, false, "Store holdings (CSV asset,weight or JSON) for an as-of date",
+       store_portfolio_endpoint},
+      {"DELETE", "/v1/portfolios/{name}", true, false, "Remove a portfolio (every as-of date, or one)",
+       delete_portfolio_endpoint},
       {"GET", "/v1/jobs", false, false, "Background jobs since the daemon started", list_jobs_endpoint},
       {"GET", "/v1/jobs/{id}", false, false, "One job: state, progress and summary", show_job_endpoint},
   };

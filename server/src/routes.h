@@ -12,7 +12,7 @@ namespace factorwatch::server {
 using Handler = ApiResponse (*)(const ApiContext&, const ApiRequest&);
 
 struct Route {
-  const char* method;   // GET, POST or PUT
+  const char* method;   // GET, POST, PUT or DELETE
   const char* path;     // with {name} / {id} placeholders, each one path segment
   bool write;           // needs the token always (reads only with --reads-need-token)
   bool before_ready;    // answered while the database is still being opened

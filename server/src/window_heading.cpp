@@ -19,4 +19,13 @@ std::string window_csv_heading(const SelectedWindow& s) {
          s.window.first_date + " .. " + s.window.as_of;
 }
 
+std::string factor_basis_text(const SelectedWindow& s) {
+  std::string text = std::string("rotation ") + engine::to_string(s.model.config.rotation) + ", ";
+  const auto& a = s.window.alignment;
+  if (!a) return text + "not aligned yet";
+  if (a->status != "aligned") return text + "alignment: " + a->status;
+  return text + "aligned onto " + (a->reference_as_of.empty() ? "the smoothed reference" : a->reference_as_of) +
+         " (" + a->reference + ")";
+}
+
 }  // namespace factorwatch::server

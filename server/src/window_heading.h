@@ -15,4 +15,8 @@ nlohmann::ordered_json window_json_heading(const SelectedWindow& s);
 // Without the line end, so that each view can add its own detail.
 std::string window_csv_heading(const SelectedWindow& s);
 
+// The basis the factors are served in: "rotation varimax, aligned onto 2025-12-30
+// (previous)" and the like.
+std::string factor_basis_text(const SelectedWindow& s);
+
 }  // namespace factorwatch::server

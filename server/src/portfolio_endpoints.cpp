@@ -1,0 +1,100 @@
+#include "portfolio_endpoints.h"
+
+#include "endpoint_helpers.h"
+#include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/models.h"
+#include "factorwatch/storage/portfolios.h"
+#include "factorwatch/storage/timestamps.h"
+#include "portfolio_views.h"
+
+namespace factorwatch::server {
+namespace {
+
+// A 400 for a query parameter `as_of` that is not a date; nullopt when absent or good.
+std::optional<ApiResponse> bad_as_of(const ApiRequest& r) {
+  const auto as_of = r.parameter("as_of");
+  if (!as_of || storage::is_calendar_date(*as_of)) return std::nullopt;
+  return problem(400, "query parameter 'as_of': '" + *as_of + "' is not a date (yyyy-mm-dd)", r.path, "as_of");
+}
+
+ApiResponse unknown_portfolio(const ApiRequest& r, const std::string& name, const std::string& as_of) {
+  return problem(404,
+                 "no portfolio named '" + name + "'" + (as_of.empty() ? "" : " with holdings at or before " + as_of) +
+                     " (GET /v1/portfolios lists them)",
+                 r.path, as_of.empty() ? "name" : "as_of");
+}
+
+}  // namespace
+
+ApiResponse list_portfolios_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  const auto portfolios = storage::list_portfolios(context.database());
+  if (std::get<Format>(format) == Format::csv)
+    return csv_response(std::make_shared<const std::string>(portfolio_list_csv(portfolios)), "portfolios.csv", false);
+  return json_response(portfolio_list_json(portfolios));
+}
+
+ApiResponse show_portfolio_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  if (auto bad = bad_as_of(r)) return *bad;
+  const std::string& name = r.path_values.at("name");
+  const std::string as_of = r.parameter("as_of").value_or("");
+  storage::Database& db = context.database();
+  const auto portfolio = storage::read_portfolio(db, name, as_of);
+  if (!portfolio) return unknown_portfolio(r, name, as_of);
+  if (std::get<Format>(format) == Format::csv)
+    return csv_response(std::make_shared<const std::string>(portfolio_csv(*portfolio)),
+                        name + "-" + portfolio->as_of + ".csv", false);
+  return json_response(portfolio_json(*portfolio, storage::portfolio_dates(db, name)));
+}
+
+ApiResponse store_portfolio_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const std::string& name = r.path_values.at("name");
+  const char* kNameRule = "': use 1 to 64 letters, digits, '.', '_' or '-'";
+  if (!storage::is_portfolio_name(name)) return problem(400, "portfolio name '" + name + kNameRule, r.path, "name");
+  if (auto bad = bad_as_of(r)) return *bad;
+  const std::string benchmark = r.parameter("benchmark").value_or("");
+  if (!benchmark.empty() && !storage::is_portfolio_name(benchmark))
+    return problem(400, "query parameter 'benchmark': '" + benchmark + kNameRule, r.path, "benchmark");
+  if (benchmark == name)
+    return problem(400, "query parameter 'benchmark': a portfolio cannot be its own benchmark", r.path, "benchmark");
+  std::string label = r.upload_name.empty() ? "request body" : r.upload_name;
+  if (const auto slash = label.find_last_of("/\\"); slash != std::string::npos) label = label.substr(slash + 1);
+  storage::Portfolio portfolio;
+  try {
+    portfolio = storage::parse_portfolio_text(std::string(r.body), label,
+                                              {name, r.parameter("as_of").value_or(""), benchmark});
+  } catch (const storage::InputError& e) {
+    nlohmann::ordered_json extra = {{"file", e.path()}};
+    if (e.line() > 0) extra["line"] = e.line();
+    extra["database"] = "unchanged";
+    return problem(422, e.what(), r.path, e.field(), extra);
+  } catch (const std::invalid_argument& e) {
+    return problem(400, e.what(), r.path, "", {{"database", "unchanged"}});
+  }
+  portfolio.source = label == "request body" ? "HTTP upload" : "HTTP upload " + label;
+  storage::Database& db = context.database();
+  const storage::SavePortfolioOutcome outcome = storage::save_portfolio(db, portfolio);
+  nlohmann::ordered_json j = stored_portfolio_json(portfolio, outcome);
+  if (!portfolio.benchmark.empty() && !storage::read_portfolio(db, portfolio.benchmark))
+    j["note"] = "benchmark '" + portfolio.benchmark + "' is not stored yet: risk queries need it (PUT /v1/portfolios/" +
+                portfolio.benchmark + ")";
+  return json_response(j, outcome.created ? 201 : 200);
+}
+
+ApiResponse delete_portfolio_endpoint(const ApiContext& context, const ApiRequest& r) {
+  if (auto bad = bad_as_of(r)) return *bad;
+  const std::string& name = r.path_values.at("name");
+  const std::string as_of = r.parameter("as_of").value_or("");
+  const std::size_t removed = storage::delete_portfolio(context.database(), name, as_of);
+  if (removed == 0)
+    return problem(404,
+                   "no portfolio named '" + name + "'" + (as_of.empty() ? "" : " with holdings as of " + as_of) +
+                       "; nothing removed (GET /v1/portfolios lists them)",
+                   r.path, as_of.empty() ? "name" : "as_of");
+  return json_response({{"name", name}, {"removed_dates", removed}});
+}
+
+}  // namespace factorwatch::server

@@ -1,0 +1,168 @@
+#include "risk_query.h"
+
+#include <stdexcept>
+
+#include "factorwatch/storage/assets.h"
+#include "factorwatch/storage/timestamps.h"
+#include "specific_risk_view.h"
+#include "window_heading.h"
+
+namespace factorwatch::server {
+namespace {
+
+RiskOutcome failed(RiskFailure failure, std::string message, std::string field) {
+  RiskOutcome out;
+  out.failure = failure;
+  out.message = std::move(message);
+  out.field = std::move(field);
+  return out;
+}
+
+void add_note(std::string& notes, const std::string& note) {
+  if (!note.empty()) notes += (notes.empty() ? "" : "; ") + note;
+}
+
+// The engine knows why the window lacks an asset from the fit alone (excluded, and the
+// reason; or simply absent); the database tells a name it has returns for (outside the
+// model's universe, or without returns in the window) from one it has never seen.
+void explain_not_modelled(storage::Database& db, engine::PortfolioRisk& risk) {
+  for (engine::NotModelled& m : risk.not_modelled) {
+    if (m.reason != engine::kNotInWindow) m.reason = "excluded from the fit: " + m.reason;
+    else if (storage::has_asset(db, m.asset)) m.reason = "no returns in this window, or outside the model's universe";
+    else m.reason = "unknown asset (no returns stored)";
+  }
+}
+
+RiskBook measure(storage::Database& db, const WindowRiskModel& w, std::string role, std::string name,
+                 std::string as_of, const engine::Holdings& holdings) {
+  RiskBook book{std::move(role), std::move(name), std::move(as_of), engine::portfolio_risk(w.risk, holdings)};
+  explain_not_modelled(db, book.risk);
+  return book;
+}
+
+// A stored portfolio's holdings at or before `as_of` ("" = the latest); when none are that
+// old, the earliest stored, with a note saying so. nullopt when the name has none at all.
+std::optional<storage::Portfolio> holdings_near(storage::Database& db, const std::string& name,
+                                                const std::string& as_of, std::string& notes) {
+  if (auto p = storage::read_portfolio(db, name, as_of)) return p;
+  const auto dates = storage::portfolio_dates(db, name);
+  if (dates.empty()) return std::nullopt;
+  add_note(notes, "'" + name + "' has no holdings at or before " + as_of + "; using its earliest, as of " +
+                      dates.front());
+  return storage::read_portfolio(db, name, dates.front());
+}
+
+}  // namespace
+
+std::shared_ptr<const WindowRiskModel> load_window_risk_model(storage::Database& db, const WindowPick& pick) {
+  const SelectedWindow s = read_picked_window(db, pick, WindowQuery{pick.model.name, pick.stamp.as_of, {}});
+  auto w = std::make_shared<WindowRiskModel>();
+  w->model = s.model;
+  w->as_of = s.window.as_of;
+  w->first_date = s.window.first_date;
+  w->stale = s.window.stale;
+  w->basis = factor_basis_text(s);
+  w->frequency = window_frequency(s);
+  w->usable = s.window.fit.IsSolutionUsable();
+  w->termination = engine::to_string(s.window.fit.termination);
+  // A failed fit may hold non-finite numbers, which the risk model refuses: it stays empty.
+  if (w->usable) w->risk = engine::RiskModel(s.window.fit, w->frequency.periods_per_year);
+  return w;
+}
+
+RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const WindowPick& pick,
+                        std::shared_ptr<const WindowRiskModel> window_model) {
+  switch (pick.outcome) {
+    case WindowLookup::no_model: return failed(RiskFailure::no_model, pick.message, "model");
+    case WindowLookup::bad_as_of: return failed(RiskFailure::bad_as_of, pick.message, "as_of");
+    case WindowLookup::no_window: return failed(RiskFailure::no_window, pick.message, "as_of");
+    case WindowLookup::found: break;
+  }
+  if (!q.portfolio_as_of.empty() && !storage::is_calendar_date(q.portfolio_as_of))
+    return failed(RiskFailure::bad_as_of, "'" + q.portfolio_as_of + "' is not a date (yyyy-mm-dd)", "portfolio_as_of");
+
+  // The window first: the holdings date may follow from it.
+  RiskOutcome out;
+  RiskReport& report = out.report;
+  report.window = window_model ? std::move(window_model) : load_window_risk_model(db, pick);
+  const WindowRiskModel& w = *report.window;
+  if (!w.usable)
+    return failed(RiskFailure::unusable_window,
+                  "the window as of " + w.as_of + " has no usable fit (" + w.termination +
+                      "); ask for an earlier window, or refit",
+                  "as_of");
+  if (!q.window.as_of.empty() && w.as_of != q.window.as_of)
+    add_note(report.note, "no window ends on " + q.window.as_of + "; using the latest before it, as of " + w.as_of);
+
+  // The portfolio's holdings, and which benchmark it is measured against.
+  engine::Holdings holdings;
+  std::string portfolio_as_of, benchmark_name = q.benchmark;
+  const std::string holdings_date = !q.portfolio_as_of.empty() ? q.portfolio_as_of
+                                    : !q.window.as_of.empty()  ? w.as_of
+                                                               : "";
+  if (q.holdings) {
+    holdings = *q.holdings;
+  } else {
+    const auto stored = q.portfolio_as_of.empty() ? holdings_near(db, q.portfolio, holdings_date, report.note)
+                                                  : storage::read_portfolio(db, q.portfolio, q.portfolio_as_of);
+    if (!stored) {
+      const bool has_dates = !q.portfolio_as_of.empty() && !storage::portfolio_dates(db, q.portfolio).empty();
+      return failed(RiskFailure::no_portfolio,
+                    has_dates ? "portfolio '" + q.portfolio + "' has no holdings at or before " + q.portfolio_as_of
+                              : "no portfolio named '" + q.portfolio + "'",
+                    has_dates ? "portfolio_as_of" : "portfolio");
+    }
+    holdings = stored->holdings;
+    portfolio_as_of = stored->as_of;
+    if (benchmark_name.empty() && !q.benchmark_holdings && !q.no_benchmark) benchmark_name = stored->benchmark;
+  }
+  std::optional<engine::Holdings> benchmark = q.benchmark_holdings;
+  std::string benchmark_as_of;
+  if (!benchmark && !benchmark_name.empty() && !q.no_benchmark) {
+    const auto stored =
+        holdings_near(db, benchmark_name, portfolio_as_of.empty() ? holdings_date : portfolio_as_of, report.note);
+    if (!stored)
+      return failed(RiskFailure::no_benchmark,
+                    q.benchmark.empty() ? "portfolio '" + q.portfolio + "' names '" + benchmark_name +
+                                              "' as its benchmark, but no portfolio by that name is stored; store "
+                                              "it, or leave the benchmark out"
+                                        : "no portfolio named '" + benchmark_name + "' to serve as the benchmark",
+                    "benchmark");
+    benchmark = stored->holdings;
+    benchmark_as_of = stored->as_of;
+  }
+
+  // Stored holdings were checked when stored, and weights sent with the request by the
+  // surface; what fails here is, say, a sum overflowing. Name the set of weights.
+  const char* field = "weights";
+  try {
+    const std::string name = q.holdings ? "" : q.portfolio;
+    report.books.push_back(measure(db, w, "portfolio", name, portfolio_as_of, holdings));
+    if (benchmark) {
+      field = "benchmark_weights";
+      report.books.push_back(measure(db, w, "benchmark", benchmark_name, benchmark_as_of, *benchmark));
+      report.books.push_back(measure(db, w, "active", "", "", engine::active_weights(holdings, *benchmark)));
+    }
+    if (q.trade) {
+      field = "trade";
+      const engine::Holdings after = engine::apply_trade(holdings, *q.trade);
+      report.books.push_back(measure(db, w, "after_trade", name, portfolio_as_of, after));
+      if (benchmark)
+        report.books.push_back(
+            measure(db, w, "active_after_trade", "", "", engine::active_weights(after, *benchmark)));
+    }
+  } catch (const std::invalid_argument& e) {
+    const std::string message = e.what();  // "portfolio_risk: ...": the engine's function is no news to a user
+    const auto colon = message.find(": ");
+    return failed(RiskFailure::bad_weights, colon == std::string::npos ? message : message.substr(colon + 2), field);
+  }
+  return out;
+}
+
+const RiskBook* find_book(const RiskReport& report, const std::string& role) {
+  for (const RiskBook& b : report.books)
+    if (b.role == role) return &b;
+  return nullptr;
+}
+
+}  // namespace factorwatch::server
