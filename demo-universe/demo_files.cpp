@@ -122,8 +122,30 @@ void write_readme(const DemoUniverse& u, const std::filesystem::path& path) {
       "  planted_loadings_before.csv    asset,f1..fk - the true L on dates before the change\n"
       "  planted_loadings_after.csv     asset,f1..fk - the true L from the change date on\n"
       "  planted_specific_variance.csv  asset,specific_variance - the true Psi diagonal\n"
+      "  portfolio_benchmark.csv        asset,weight - demo-benchmark: every asset listed at the end, invented sizes\n"
+      "  portfolio_book.json            demo-book: 60 long, 12 short positions and one delisted name (invented)\n"
       "Returns are simple daily returns in return units (0.01 = 1%); numbers have 10 significant digits.\n"
       "A fitted model recovers L only up to rotation and sign: compare after alignment.\n");
+  out.close();
+}
+
+// CSV `asset,weight`, the format `factorwatch portfolio set` reads.
+void write_portfolio_csv(const DemoPortfolio& p, const std::filesystem::path& path) {
+  CsvFile out(path);
+  out.text("asset,weight\n");
+  for (const auto& [asset, weight] : p.weights) out.text(asset).ch(',').number(weight).ch('\n');
+  out.close();
+}
+
+// The JSON form, with the as-of date and the benchmark in the file.
+void write_portfolio_json(const DemoPortfolio& p, const std::filesystem::path& path) {
+  CsvFile out(path);
+  out.text("{\n  \"as_of\": \"" + p.as_of + "\",\n  \"benchmark\": \"" + p.benchmark + "\",\n  \"holdings\": [\n");
+  for (std::size_t i = 0; i < p.weights.size(); ++i) {
+    out.text("    {\"asset\": \"" + p.weights[i].first + "\", \"weight\": ").number(p.weights[i].second);
+    out.text(i + 1 < p.weights.size() ? "},\n" : "}\n");
+  }
+  out.text("  ]\n}\n");
   out.close();
 }
 
@@ -140,10 +162,13 @@ std::vector<WrittenFile> write_demo_files(const DemoUniverse& u, const std::file
   write_loadings(u, u.loadings_after, dir / "planted_loadings_after.csv");
   write_specific(u, dir / "planted_specific_variance.csv");
   write_readme(u, dir / "README.txt");
+  write_portfolio_csv(demo_benchmark(u), dir / "portfolio_benchmark.csv");
+  write_portfolio_json(demo_book(u), dir / "portfolio_book.json");
 
   std::vector<WrittenFile> written;
   for (const char* name : {"returns_long.csv", "returns_wide.csv", "planted_loadings_before.csv",
-                           "planted_loadings_after.csv", "planted_specific_variance.csv", "README.txt"}) {
+                           "planted_loadings_after.csv", "planted_specific_variance.csv", "README.txt",
+                           "portfolio_benchmark.csv", "portfolio_book.json"}) {
     written.push_back({name, std::filesystem::file_size(dir / name)});
   }
   return written;

@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "demo_portfolios.h"
 #include "generator.h"
 
 namespace factorwatch::demo {
@@ -17,7 +18,8 @@ struct WrittenFile {
 };
 
 // Writes returns_long.csv, returns_wide.csv, planted_loadings_before.csv,
-// planted_loadings_after.csv, planted_specific_variance.csv and README.txt into
+// planted_loadings_after.csv, planted_specific_variance.csv, README.txt and the two demo
+// portfolios (portfolio_benchmark.csv, portfolio_book.json) into
 // `dir` (created if missing). Numbers as "%.10g"; a gap is an omitted row (long)
 // or an empty cell (wide). Throws std::runtime_error naming the file on failure.
 std::vector<WrittenFile> write_demo_files(const DemoUniverse& universe, const std::filesystem::path& dir);

@@ -21,6 +21,7 @@ enum class Stream : std::uint64_t {
   factor_returns = 5,
   specific_returns = 6,
   gaps = 7,
+  portfolios = 8,  // the demo portfolios (demo_portfolios.h)
 };
 
 class RandomStream {

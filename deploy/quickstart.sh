@@ -2,9 +2,10 @@
 # The main job on the demo universe, from a fresh Debian/Ubuntu machine: install the
 # dependencies, build, generate the fictional demo universe, load it into the database,
 # define a demo model, refresh it (fit, align and compare its rolling windows), print the
-# latest exposures and the drift alerts,
-# then start the HTTP daemon on it (Ctrl-C or SIGTERM stops it). Run it again and it
-# finds everything current: the load changes nothing and the refresh fits nothing.
+# latest exposures and the drift alerts, store the demo book and its benchmark and print
+# the book's risk in the latest window, then start the HTTP daemon on it (Ctrl-C or
+# SIGTERM stops it). Run it again and it finds everything current: the load changes
+# nothing, the refresh fits nothing and the portfolios are unchanged.
 #
 #   ./deploy/quickstart.sh [--no-serve] [factorwatch serve options, e.g. --port 9000]
 #
@@ -19,7 +20,7 @@ for argument in "$@"; do
 done
 ./deploy/install-deps.sh
 ./deploy/build.sh -DFACTORWATCH_TESTS=OFF -DFACTORWATCH_BENCH=OFF
-if [ ! -f demo-universe/out/returns_long.csv ]; then
+if [ ! -f demo-universe/out/returns_long.csv ] || [ ! -f demo-universe/out/portfolio_book.json ]; then
   ./build/demo-universe/factorwatch-demo-universe --out demo-universe/out
 fi
 fw=./build/server/factorwatch
@@ -32,6 +33,12 @@ fw=./build/server/factorwatch
 # How the factor structure drifted: the windows where a factor stopped matching the first
 # window (the demo's planted change shows here), with the assets that moved most.
 "$fw" alerts demo
+# A fictional long-short book and its benchmark (invented weights; the book names its
+# benchmark and holds one delisted asset), then the book's risk in the latest window:
+# systematic and specific parts, contributions by factor and asset, active risk.
+"$fw" portfolio set demo-benchmark demo-universe/out/portfolio_benchmark.csv --as-of 2025-12-31
+"$fw" portfolio set demo-book demo-universe/out/portfolio_book.json
+"$fw" risk demo demo-book
 if [ "$serve" = 1 ]; then
   echo
   echo "Starting the HTTP daemon on this database (Ctrl-C stops it; docs/api.md lists the routes)."
