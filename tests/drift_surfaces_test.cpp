@@ -17,6 +17,7 @@
 #include <set>
 #include <sstream>
 
+#include "csv_text.h"
 #include "factorwatch/engine/caution.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
@@ -53,34 +54,8 @@ fw::PlantedModel planted_with_a_change(std::string& change_date) {
   return m;
 }
 
-// One RFC 4180 record (no line breaks inside fields here).
-std::vector<std::string> csv_fields(const std::string& line) {
-  std::vector<std::string> out(1);
-  bool quoted = false;
-  for (std::size_t i = 0; i < line.size(); ++i) {
-    const char c = line[i];
-    if (quoted) {
-      if (c == '"' && i + 1 < line.size() && line[i + 1] == '"') out.back() += '"', ++i;
-      else if (c == '"') quoted = false;
-      else out.back() += c;
-    } else if (c == '"') {
-      quoted = true;
-    } else if (c == ',') {
-      out.emplace_back();
-    } else {
-      out.back() += c;
-    }
-  }
-  return out;
-}
-
-std::vector<std::string> lines_of(const std::string& text) {
-  std::vector<std::string> out;
-  std::istringstream in(text);
-  std::string line;
-  while (std::getline(in, line)) out.push_back(line);
-  return out;
-}
+using fw::csv_fields;
+using fw::lines_of;
 
 const std::string kCautionLine = std::string("# caution: ") + factorwatch::engine::kCaution;
 

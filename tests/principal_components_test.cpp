@@ -4,6 +4,7 @@
 
 #include "factorwatch/engine/fit.h"
 #include "linear_algebra_checks.h"
+#include "eustock_returns.h"
 #include "reference_table.h"
 #include "simulated_model.h"
 
@@ -14,18 +15,7 @@ using factorwatch::testing::max_difference_up_to_sign;
 using factorwatch::testing::read_reference;
 
 // Daily log returns of R's datasets::EuStockMarkets (DAX, SMI, CAC, FTSE, 1859 days).
-ReturnsPanel eustock() {
-  const auto t = read_reference("eustock_returns.csv");
-  ReturnsPanel p;
-  p.assets.assign(t.header.begin() + 1, t.header.end());
-  p.values.resize(Eigen::Index(t.rows.size()), Eigen::Index(p.assets.size()));
-  for (std::size_t r = 0; r < t.rows.size(); ++r) {
-    p.dates.push_back(t.rows[r][0]);
-    for (std::size_t c = 0; c < p.assets.size(); ++c)
-      p.values(Eigen::Index(r), Eigen::Index(c)) = std::stod(t.rows[r][c + 1]);
-  }
-  return p;
-}
+ReturnsPanel eustock() { return factorwatch::testing::eustock_returns(); }
 
 // Rows of eustock_pca_reference.csv for one source, as eigenvalues and unit vectors.
 void reference_pairs(const std::string& source, Eigen::VectorXd& values, Eigen::MatrixXd& vectors) {

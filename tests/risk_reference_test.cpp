@@ -16,6 +16,7 @@
 
 #include "factorwatch/engine/fit.h"
 #include "factorwatch/engine/risk.h"
+#include "eustock_returns.h"
 #include "reference_table.h"
 
 namespace {
@@ -47,18 +48,7 @@ double at(const Figures& f, const std::string& block, const std::string& portfol
   return it->second;
 }
 
-fw::ReturnsPanel eustock() {
-  const auto t = read_reference("eustock_returns.csv");
-  fw::ReturnsPanel p;
-  p.assets.assign(t.header.begin() + 1, t.header.end());
-  p.values.resize(Eigen::Index(t.rows.size()), Eigen::Index(p.assets.size()));
-  for (std::size_t r = 0; r < t.rows.size(); ++r) {
-    p.dates.push_back(t.rows[r][0]);
-    for (std::size_t c = 0; c < p.assets.size(); ++c)
-      p.values(Eigen::Index(r), Eigen::Index(c)) = std::stod(t.rows[r][c + 1]);
-  }
-  return p;
-}
+fw::ReturnsPanel eustock() { return factorwatch::testing::eustock_returns(); }
 
 // R's model as a fit: the covariance-scale loadings and specific variances of the file.
 fw::FactorFit fit_from(const Figures& f) {

@@ -17,6 +17,7 @@
 #include <nlohmann/json.hpp>
 #include <sstream>
 
+#include "csv_text.h"
 #include "daemon_fixture.h"
 #include "factorwatch/engine/caution.h"
 #include "simulated_model.h"
@@ -30,22 +31,7 @@ using nlohmann::json;
 constexpr int kDates = 260, kAssets = 30, kFactors = 2;
 const std::string kCautionLine = std::string("# caution: ") + factorwatch::engine::kCaution;
 
-std::vector<std::string> lines_of(const std::string& text) {
-  std::vector<std::string> out;
-  std::istringstream in(text);
-  std::string line;
-  while (std::getline(in, line)) out.push_back(line);
-  return out;
-}
-
-std::vector<std::string> fields_of(const std::string& line) {
-  std::vector<std::string> out(1);
-  for (char c : line) {
-    if (c == ',') out.emplace_back();
-    else out.back() += c;
-  }
-  return out;
-}
+using fw::lines_of;
 
 // The served model of the latest window, read back from `exposures --format json`.
 struct ServedModel {
@@ -214,7 +200,7 @@ TEST_F(RiskSurfaces, CsvIsOneLongTableWithTheCaution) {
   EXPECT_EQ(lines.size(), 3u + 17u + 35u + 36u);
   std::map<std::string, int> parts;
   for (std::size_t i = 3; i < lines.size(); ++i) {
-    const auto f = fields_of(lines[i]);
+    const auto f = fw::csv_fields(lines[i]);
     ASSERT_EQ(f.size(), 13u) << lines[i];
     ++parts[f[0] + "/" + f[1]];
   }

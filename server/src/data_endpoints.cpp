@@ -42,10 +42,7 @@ ApiResponse upload_returns_endpoint(const ApiContext& context, const ApiRequest&
   try {
     file = storage::read_returns_text(r.body, source.path, options);
   } catch (const storage::InputError& e) {
-    nlohmann::ordered_json extra = {{"file", e.path()}};
-    if (e.line() > 0) extra["line"] = e.line();
-    extra["database"] = "unchanged";
-    return problem(422, e.what(), r.path, e.field(), extra);
+    return rejected_upload(r, e);
   } catch (const std::exception& e) {
     return problem(422, source.path + ": " + e.what(), r.path, "", {{"file", source.path}, {"database", "unchanged"}});
   }

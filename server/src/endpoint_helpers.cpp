@@ -42,6 +42,13 @@ std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& r, const std::s
   return problem(400, "query parameter '" + name + "' = '" + *value + "': must be true or false", r.path, name);
 }
 
+ApiResponse rejected_upload(const ApiRequest& r, const storage::InputError& e) {
+  nlohmann::ordered_json extra = {{"file", e.path()}};
+  if (e.line() > 0) extra["line"] = e.line();
+  extra["database"] = "unchanged";
+  return problem(422, e.what(), r.path, e.field(), extra);
+}
+
 ApiResponse unknown_model(const ApiRequest& r, const std::string& name) {
   return problem(404, "no model named '" + name + "' (GET /v1/models lists them)", r.path, "name");
 }

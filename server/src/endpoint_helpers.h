@@ -8,6 +8,7 @@
 #include <variant>
 
 #include "api_message.h"
+#include "factorwatch/storage/input_error.h"
 
 namespace factorwatch::server {
 
@@ -25,6 +26,10 @@ ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::str
 
 // A true/false query parameter (true, false, 1, 0, yes, no); a 400 naming it otherwise.
 std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& request, const std::string& name);
+
+// 422 for a rejected upload (a returns or holdings file): the reader's message, the file,
+// line and field it names, and that the database is unchanged.
+ApiResponse rejected_upload(const ApiRequest& request, const storage::InputError& error);
 
 // 404 for a model name the database does not hold, naming the path's {name}.
 ApiResponse unknown_model(const ApiRequest& request, const std::string& name);

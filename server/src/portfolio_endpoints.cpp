@@ -67,10 +67,7 @@ ApiResponse store_portfolio_endpoint(const ApiContext& context, const ApiRequest
     portfolio = storage::parse_portfolio_text(std::string(r.body), label,
                                               {name, r.parameter("as_of").value_or(""), benchmark});
   } catch (const storage::InputError& e) {
-    nlohmann::ordered_json extra = {{"file", e.path()}};
-    if (e.line() > 0) extra["line"] = e.line();
-    extra["database"] = "unchanged";
-    return problem(422, e.what(), r.path, e.field(), extra);
+    return rejected_upload(r, e);
   } catch (const std::invalid_argument& e) {
     return problem(400, e.what(), r.path, "", {{"database", "unchanged"}});
   }
