@@ -8,12 +8,14 @@
 #include "cli_common.h"
 #include "drift_command.h"
 #include "exposures_command.h"
+#include "factor_returns_command.h"
 #include "fit_command.h"
 #include "history_command.h"
 #include "load_command.h"
 #include "model_command.h"
 #include "portfolio_command.h"
 #include "refresh_command.h"
+#include "residuals_command.h"
 #include "risk_command.h"
 #include "serve_command.h"
 #include "specific_risk_command.h"
@@ -47,6 +49,8 @@ int main(int argc, char** argv) {
   AlertsArguments alerts_arguments;
   PortfolioArguments portfolio_arguments;
   RiskArguments risk_arguments;
+  FactorReturnsArguments factor_returns_arguments;
+  ResidualsArguments residuals_arguments;
   CLI::App* load = add_load_command(app, load_arguments);
   CLI::App* model = add_model_command(app, model_arguments);
   CLI::App* refresh = add_refresh_command(app, refresh_arguments);
@@ -58,6 +62,8 @@ int main(int argc, char** argv) {
   CLI::App* alerts = add_alerts_command(app, alerts_arguments);
   CLI::App* portfolio = add_portfolio_command(app, portfolio_arguments);
   CLI::App* risk = add_risk_command(app, risk_arguments);
+  CLI::App* factor_returns = add_factor_returns_command(app, factor_returns_arguments);
+  CLI::App* residuals = add_residuals_command(app, residuals_arguments);
   CLI::App* fit = add_fit_command(app, fit_arguments);
   CLI::App* serve = add_serve_command(app, serve_options);
   CLI::App* token = add_token_command(app, token_arguments);
@@ -78,6 +84,8 @@ int main(int argc, char** argv) {
   if (alerts->parsed()) return run_alerts_command(alerts_arguments, global);
   if (portfolio->parsed()) return run_portfolio_command(portfolio_arguments, global);
   if (risk->parsed()) return run_risk_command(risk_arguments, global);
+  if (factor_returns->parsed()) return run_factor_returns_command(factor_returns_arguments, global);
+  if (residuals->parsed()) return run_residuals_command(residuals_arguments, global);
   if (fit->parsed()) return run_fit_command(fit_arguments);
   if (serve->parsed()) return run_serve_command(serve_options, global);
   if (token->parsed()) return run_token_command(token_arguments, global);

@@ -2,6 +2,7 @@
 
 #include "data_endpoints.h"
 #include "drift_endpoints.h"
+#include "factor_returns_endpoints.h"
 #include "model_endpoints.h"
 #include "portfolio_endpoints.h"
 #include "risk_endpoints.h"
@@ -38,6 +39,11 @@ const std::vector<Route>& api_routes() {
        history_endpoint},
       {"GET", "/v1/models/{name}/alerts", false, false, "Windows whose factors drifted past the model's thresholds",
        alerts_endpoint},
+      {"GET", "/v1/models/{name}/factor-returns", false, false,
+       "Factor returns: each window's on its as-of date (a series), or every date of one window",
+       factor_returns_endpoint},
+      {"GET", "/v1/models/{name}/residuals", false, false,
+       "One asset's residual (specific) returns over a window's dates", residuals_endpoint},
       {"GET", "/v1/models/{name}/risk", false, false,
        "A stored portfolio's risk in a window: total, systematic, specific, by factor and by asset",
        stored_portfolio_risk_endpoint},

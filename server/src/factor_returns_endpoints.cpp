@@ -1,0 +1,80 @@
+#include "factor_returns_endpoints.h"
+
+#include <cctype>
+
+#include "endpoint_helpers.h"
+#include "factor_returns_query.h"
+#include "factor_returns_view.h"
+#include "residuals_view.h"
+
+namespace factorwatch::server {
+namespace {
+
+// A failed lookup as a problem naming the query parameter (the model: the path's {name}).
+ApiResponse query_problem(const ApiRequest& r, const QueryFailure& f) {
+  if (f.outcome == QueryOutcome::no_model) return unknown_model(r, f.value);
+  const std::string hint =
+      f.refresh_helps ? "; start a refresh with POST /v1/models/" + r.path_values.at("name") + "/refresh" : "";
+  if (f.field.empty()) return problem(404, f.message + hint, r.path);  // no window at all yet
+  const std::string detail = "query parameter '" + f.field + "'" + (f.value.empty() ? "" : " = '" + f.value + "'") +
+                             ": " + f.message;
+  if (f.outcome == QueryOutcome::bad_input) return problem(400, detail, r.path, f.field);
+  return problem(404, detail + hint, r.path, f.field);
+}
+
+// A file name part from free text (asset names may hold anything): letters, digits, '.',
+// '_' and '-' kept, anything else '_'.
+std::string file_part(const std::string& text) {
+  std::string out = text;
+  for (char& c : out)
+    if (!std::isalnum(static_cast<unsigned char>(c)) && c != '.' && c != '_' && c != '-') c = '_';
+  return out;
+}
+
+// Every body here carries risk numbers: the caution header too.
+ApiResponse csv_body(std::string body, const std::string& filename) {
+  return csv_response(std::make_shared<const std::string>(std::move(body)), filename, true);
+}
+
+}  // namespace
+
+ApiResponse factor_returns_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  const Format f = std::get<Format>(format);
+  const RangeQuery query{r.path_values.at("name"), r.parameter("from").value_or(""), r.parameter("to").value_or("")};
+  const std::string method = r.parameter("method").value_or("");
+  storage::Database& db = context.database();
+  if (const auto window = r.parameter("window")) {
+    if (!query.from.empty() || !query.to.empty())
+      return problem(400, "query parameter 'window' shows one window; leave out 'from' and 'to'", r.path, "window");
+    if (window->empty()) return problem(400, "query parameter 'window': give the window's as-of date", r.path, "window");
+    WindowFactorReturns w;
+    if (auto failed = find_window_factor_returns(db, query.model, *window, method, w)) return query_problem(r, failed);
+    const std::string filename = query.model + "-factor-returns-" + w.window.window.as_of + "-" +
+                                 engine::to_string(w.scores.method) + ".csv";
+    return f == Format::csv ? csv_body(window_factor_returns_csv(w), filename) : json_response(window_factor_returns_json(w));
+  }
+  FactorReturnSeriesAnswer s;
+  if (auto failed = find_factor_return_series(db, query, method, s)) return query_problem(r, failed);
+  return f == Format::csv
+             ? csv_body(factor_return_series_csv(s),
+                        query.model + "-factor-returns-" + engine::to_string(s.series.method) + ".csv")
+             : json_response(factor_return_series_json(s));
+}
+
+ApiResponse residuals_endpoint(const ApiContext& context, const ApiRequest& r) {
+  const auto format = negotiate_format(r);
+  if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
+  const Format f = std::get<Format>(format);
+  const std::string model = r.path_values.at("name");
+  AssetResidualAnswer a;
+  if (auto failed = find_asset_residuals(context.database(), model, r.parameter("asset").value_or(""),
+                                         r.parameter("window").value_or(""), r.parameter("method").value_or(""), a))
+    return query_problem(r, failed);
+  const std::string filename = model + "-residuals-" + file_part(a.residuals.asset) + "-" + a.window.window.as_of +
+                               "-" + engine::to_string(a.residuals.method) + ".csv";
+  return f == Format::csv ? csv_body(residuals_csv(a), filename) : json_response(residuals_json(a));
+}
+
+}  // namespace factorwatch::server
