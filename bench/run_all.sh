@@ -8,10 +8,14 @@
 # and writes build-storagebench/results/storage_bench.txt; --no-storage skips it), plus
 # about 25 for the HTTP benchmark (bench/serve_bench.py: `factorwatch serve` under wrk
 # against nginx and Python's http.server; it builds build-servebench/ and writes
-# build-servebench/results/serve_bench.txt; --no-serve skips it).
+# build-servebench/results/serve_bench.txt; --no-serve skips it), plus about 8 for the
+# risk-query benchmark (bench/risk_bench.cpp: a 2,000-name portfolio's risk through the
+# engine and the daemon's handlers in process, against numpy in bench/risk_peer.py; three
+# rounds, medians by bench/risk_report.py into OUT/risk_table.txt; it builds the server
+# library in build-bench/ first; --no-risk skips it).
 #
 #   bench/run_all.sh [--sizes "500 2000 5000 10000"] [--rounds 4] [--out DIR] [--no-flags] [--no-storage]
-#                    [--no-serve]
+#                    [--no-serve] [--no-risk]
 #
 # Round 1 covers every size; rounds 2..R repeat N = 5000 (the size the targets are set
 # at), ours and the peers alternating; the report uses medians over rounds.
@@ -27,6 +31,7 @@ OUT="$ROOT/build-bench/results"
 FLAGS=1
 STORAGE=1
 SERVE=1
+RISK=1
 ROUNDS=4
 while [ $# -gt 0 ]; do
   case "$1" in
@@ -35,8 +40,9 @@ while [ $# -gt 0 ]; do
     --no-flags) FLAGS=0; shift ;;
     --no-storage) STORAGE=0; shift ;;
     --no-serve) SERVE=0; shift ;;
+    --no-risk) RISK=0; shift ;;
     --rounds) ROUNDS="$2"; shift 2 ;;
-    *) echo "usage: $0 [--sizes \"N ...\"] [--rounds R] [--out DIR] [--no-flags] [--no-storage] [--no-serve]" >&2; exit 2 ;;
+    *) echo "usage: $0 [--sizes \"N ...\"] [--rounds R] [--out DIR] [--no-flags] [--no-storage] [--no-serve] [--no-risk]" >&2; exit 2 ;;
   esac
 done
 
@@ -165,6 +171,19 @@ fi
 echo
 "$PY" "$ROOT/bench/report.py" table "$RAW" | tee "$OUT/table.txt"
 log "raw lines: $RAW; table: $OUT/table.txt"
+
+if [ "$RISK" = 1 ]; then
+  log "risk queries: engine and endpoint handlers in process, against numpy"
+  cmake --build "$BUILD" --target risk_bench -j2 2>&1 | grep -E "warning|error" >&2 || true
+  [ -x "$BUILD/bench/risk_bench" ] || { log "risk_bench did not build in $BUILD"; exit 1; }
+  RISK_RAW="$OUT/risk_raw.jsonl"
+  : > "$RISK_RAW"
+  for ROUND in 1 2 3; do
+    measure "$BUILD/bench/risk_bench" --peer "$ROOT/bench/risk_peer.py" --python "$PY" >> "$RISK_RAW"
+  done
+  "$PY" "$ROOT/bench/risk_report.py" "$RISK_RAW" | tee "$OUT/risk_table.txt"
+  log "risk raw lines: $RISK_RAW; table: $OUT/risk_table.txt"
+fi
 
 if [ "$STORAGE" = 1 ]; then
   log "storage benchmark: ingest and refresh against sqlite3 and scikit-learn"
