@@ -33,6 +33,7 @@
 #include "factorwatch/storage/factor_returns.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
+#include "served_model.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
 
@@ -56,29 +57,8 @@ bool ends_with(const std::string& text, const std::string& end) {
 // A JSON number or null (NaN) as a double.
 double number(const json& j) { return j.is_null() ? std::numeric_limits<double>::quiet_NaN() : j.get<double>(); }
 
-// The served model of one window, read back from `exposures --format json`.
-struct ServedModel {
-  std::map<std::string, int> row;
-  Eigen::MatrixXd loadings, phi;
-  Eigen::VectorXd psi;
-};
-
-ServedModel served_model(const json& exposures) {
-  ServedModel m;
-  const auto& assets = exposures["assets"];
-  const int n = static_cast<int>(assets.size());
-  m.loadings.resize(n, kFactors);
-  m.psi.resize(n);
-  for (int i = 0; i < n; ++i) {
-    m.row[assets[i]["asset"]] = i;
-    for (int j = 0; j < kFactors; ++j) m.loadings(i, j) = assets[i]["loadings"][j];
-    m.psi(i) = assets[i]["specific_variance"];
-  }
-  m.phi.resize(kFactors, kFactors);
-  for (int r = 0; r < kFactors; ++r)
-    for (int c = 0; c < kFactors; ++c) m.phi(r, c) = exposures["factor_covariance"][r][c];
-  return m;
-}
+using fw::ServedModel;
+using fw::served_model;
 
 class FactorReturnsSurfaces : public ::testing::Test {
  protected:

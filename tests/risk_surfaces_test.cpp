@@ -20,6 +20,7 @@
 #include "csv_text.h"
 #include "daemon_fixture.h"
 #include "factorwatch/engine/caution.h"
+#include "served_model.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
 
@@ -33,30 +34,8 @@ const std::string kCautionLine = std::string("# caution: ") + factorwatch::engin
 
 using fw::lines_of;
 
-// The served model of the latest window, read back from `exposures --format json`.
-struct ServedModel {
-  std::map<std::string, int> row;
-  Eigen::MatrixXd loadings, phi;
-  Eigen::VectorXd psi;
-  Eigen::MatrixXd sigma() const { return loadings * phi * loadings.transpose() + Eigen::MatrixXd(psi.asDiagonal()); }
-};
-
-ServedModel served_model(const json& exposures) {
-  ServedModel m;
-  const auto& assets = exposures["assets"];
-  const int n = static_cast<int>(assets.size());
-  m.loadings.resize(n, kFactors);
-  m.psi.resize(n);
-  for (int i = 0; i < n; ++i) {
-    m.row[assets[i]["asset"]] = i;
-    for (int j = 0; j < kFactors; ++j) m.loadings(i, j) = assets[i]["loadings"][j];
-    m.psi(i) = assets[i]["specific_variance"];
-  }
-  m.phi.resize(kFactors, kFactors);
-  for (int r = 0; r < kFactors; ++r)
-    for (int c = 0; c < kFactors; ++c) m.phi(r, c) = exposures["factor_covariance"][r][c];
-  return m;
-}
+using fw::ServedModel;
+using fw::served_model;
 
 // Weights as a dense vector over the model's assets (assets it lacks are left out: they
 // carry no risk, which is the documented treatment).

@@ -22,15 +22,6 @@ ApiResponse query_problem(const ApiRequest& r, const QueryFailure& f) {
                  r.path, f.field);
 }
 
-// A file name part from free text (asset names may hold anything): letters, digits, '.',
-// '_' and '-' kept, anything else '_'.
-std::string file_part(const std::string& text) {
-  std::string out = text;
-  for (char& c : out)
-    if (!std::isalnum(static_cast<unsigned char>(c)) && c != '.' && c != '_' && c != '-') c = '_';
-  return out;
-}
-
 // Every body here carries risk numbers: the caution header too.
 ApiResponse csv_body(std::string body, const std::string& filename) {
   return csv_response(std::make_shared<const std::string>(std::move(body)), filename, true);

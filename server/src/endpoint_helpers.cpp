@@ -1,5 +1,7 @@
 #include "endpoint_helpers.h"
 
+#include <cctype>
+
 #include "factorwatch/engine/caution.h"
 
 namespace factorwatch::server {
@@ -40,6 +42,13 @@ std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& r, const std::s
   if (*value == "true" || *value == "1" || *value == "yes" || value->empty()) return true;
   if (*value == "false" || *value == "0" || *value == "no") return false;
   return problem(400, "query parameter '" + name + "' = '" + *value + "': must be true or false", r.path, name);
+}
+
+std::string file_part(const std::string& text) {
+  std::string out = text;
+  for (char& c : out)
+    if (!std::isalnum(static_cast<unsigned char>(c)) && c != '.' && c != '_' && c != '-') c = '_';
+  return out;
 }
 
 ApiResponse rejected_upload(const ApiRequest& r, const storage::InputError& e) {

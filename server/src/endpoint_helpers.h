@@ -31,6 +31,10 @@ std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& request, const 
 // line and field it names, and that the database is unchanged.
 ApiResponse rejected_upload(const ApiRequest& request, const storage::InputError& error);
 
+// A file name part from free text (asset names may hold anything): letters, digits, '.',
+// '_' and '-' kept, anything else '_'.
+std::string file_part(const std::string& text);
+
 // 404 for a model name the database does not hold, naming the path's {name}.
 ApiResponse unknown_model(const ApiRequest& request, const std::string& name);
 
