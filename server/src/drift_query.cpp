@@ -17,11 +17,6 @@ QueryFailure failure(QueryOutcome outcome, std::string field, std::string value,
   return {outcome, std::move(field), std::move(value), std::move(message)};
 }
 
-QueryFailure check_date(const std::string& field, const std::string& value) {
-  if (value.empty() || storage::is_calendar_date(value)) return {};
-  return failure(QueryOutcome::bad_input, field, value, "not a date in the form yyyy-mm-dd");
-}
-
 // The model and the range, checked in the order a reader would fix them.
 QueryFailure check_range(storage::Database& db, const RangeQuery& q, storage::ModelVersion& model) {
   if (auto f = check_date("from", q.from)) return f;
@@ -35,6 +30,12 @@ QueryFailure check_range(storage::Database& db, const RangeQuery& q, storage::Mo
 }
 
 }  // namespace
+
+QueryFailure check_date(const std::string& field, const std::string& value) {
+  if (value.empty() || storage::is_calendar_date(value)) return {};
+  return failure(QueryOutcome::bad_input, field, value, "not a date in the form yyyy-mm-dd");
+}
+
 
 double alert_threshold(const storage::ModelConfig& c, const std::string& against) {
   return against == "pinned" ? c.alert_below_pinned : c.alert_below;

@@ -38,6 +38,10 @@ struct RangeQuery {
   std::string from, to;
 };
 
+// A bad_input failure naming `field` when `value` is given and is not a calendar date
+// (yyyy-mm-dd); no failure otherwise. Every range and window query checks its dates so.
+QueryFailure check_date(const std::string& field, const std::string& value);
+
 // Drift rows of every window in the range: against "previous", "pinned" or both ("").
 struct DriftSeries {
   storage::ModelVersion model;

@@ -13,11 +13,6 @@ QueryFailure failure(QueryOutcome outcome, std::string field, std::string value,
   return {outcome, std::move(field), std::move(value), std::move(message)};
 }
 
-QueryFailure check_date(const std::string& field, const std::string& value) {
-  if (value.empty() || storage::is_calendar_date(value)) return {};
-  return failure(QueryOutcome::bad_input, field, value, "not a date in the form yyyy-mm-dd");
-}
-
 QueryFailure parse_method(const std::string& text, engine::ScoreMethod& method) {
   if (text.empty()) {
     method = engine::ScoreMethod::bartlett;
