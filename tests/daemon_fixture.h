@@ -75,7 +75,7 @@ class DaemonProcess {
     std::remove(log_path_.c_str());
     pid_ = ::fork();
     if (pid_ == 0) {
-      const std::string command = std::string("exec ") + FACTORWATCH_COMMAND + " --data '" + data_dir +
+      const std::string command = "exec " + factorwatch_command() + " --data '" + data_dir +
                                   "' serve --port 0 " + extra + " >'" + out_path_ + "' 2>'" + log_path_ + "'";
       ::execl("/bin/sh", "sh", "-c", command.c_str(), static_cast<char*>(nullptr));
       ::_exit(127);
@@ -93,6 +93,8 @@ class DaemonProcess {
   ~DaemonProcess() { stop(); }
 
   int port() const { return port_; }
+  // The daemon's process id (the shell execs the command, so it is the daemon itself).
+  pid_t pid() const { return pid_; }
   std::string url(const std::string& path) const { return "http://127.0.0.1:" + std::to_string(port_) + path; }
 
   bool ready() const {

@@ -88,11 +88,19 @@ struct CommandResult {
   std::string err;  // standard error
 };
 
+// The command the end-to-end tests run: the one built with them, unless
+// FACTORWATCH_TEST_COMMAND names another (e.g. an older build, to show that a regression
+// test fails on the code before its fix).
+inline std::string factorwatch_command() {
+  const char* other = std::getenv("FACTORWATCH_TEST_COMMAND");
+  return other && *other ? other : FACTORWATCH_COMMAND;
+}
+
 // Runs `factorwatch ARGUMENTS` with FACTORWATCH_DATA=data_dir.
 inline CommandResult run_factorwatch(const std::string& data_dir, const std::string& arguments) {
   CommandResult r;
   const std::string err_file = data_dir + "/.stderr";
-  const std::string command = "FACTORWATCH_DATA='" + data_dir + "' " + FACTORWATCH_COMMAND + " " + arguments +
+  const std::string command = "FACTORWATCH_DATA='" + data_dir + "' " + factorwatch_command() + " " + arguments +
                               " 2>'" + err_file + "'";
   FILE* pipe = ::popen(command.c_str(), "r");
   if (!pipe) return r;

@@ -15,6 +15,7 @@ const char* status_title(int status) {
     case 202: return "Accepted";
     case 400: return "Bad Request";
     case 401: return "Unauthorized";
+    case 403: return "Forbidden";
     case 404: return "Not Found";
     case 405: return "Method Not Allowed";
     case 408: return "Request Timeout";
@@ -22,8 +23,12 @@ const char* status_title(int status) {
     case 413: return "Content Too Large";
     case 414: return "URI Too Long";
     case 415: return "Unsupported Media Type";
+    case 416: return "Range Not Satisfiable";
+    case 421: return "Misdirected Request";
+    case 431: return "Request Header Fields Too Large";
     case 422: return "Unprocessable Content";
     case 500: return "Internal Server Error";
+    case 501: return "Not Implemented";
     case 503: return "Service Unavailable";
     default: return status < 500 ? "Client Error" : "Server Error";
   }
@@ -42,7 +47,10 @@ ApiResponse problem(int status, const std::string& detail, const std::string& in
   ApiResponse r;
   r.status = status;
   r.content_type = "application/problem+json";
-  r.set_body(j.dump());
+  // A detail may quote what the client sent (a path, a parameter): bytes that are not
+  // UTF-8 become U+FFFD instead of an exception (which, in the library's error handler,
+  // used to abort the daemon).
+  r.set_body(j.dump(-1, ' ', false, nlohmann::ordered_json::error_handler_t::replace));
   return r;
 }
 

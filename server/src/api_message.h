@@ -24,6 +24,7 @@ struct ApiRequest {
   std::string content_type;
   std::string_view body;     // raw body, or the multipart part "file"
   std::string upload_name;   // the filename of a multipart part, if any
+  bool authorised = false;   // carried the access token
 
   // Query parameter or nullopt.
   std::optional<std::string> parameter(const std::string& name) const;

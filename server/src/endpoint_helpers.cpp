@@ -23,7 +23,7 @@ ApiResponse json_response(const nlohmann::ordered_json& j, int status) {
   ApiResponse r;
   r.status = status;
   r.content_type = "application/json";
-  r.set_body(j.dump());
+  r.set_body(j.dump(-1, ' ', false, nlohmann::ordered_json::error_handler_t::replace));
   return r;
 }
 

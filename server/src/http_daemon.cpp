@@ -1,18 +1,27 @@
 #include "http_daemon.h"
 
+#include <arpa/inet.h>
+#include <netinet/in.h>
+#include <poll.h>
 #include <pthread.h>
 #include <signal.h>
+#include <sys/socket.h>
 
+#include <algorithm>
+#include <cerrno>
 #include <chrono>
 #include <climits>
 #include <cstdlib>
 #include <cstdio>
+#include <cstring>
 #include <ctime>
 #include <regex>
 #include <thread>
 
 #include "access_token.h"
 #include "api_context.h"
+#include "connection_gate.h"
+#include "host_rules.h"
 #include "factorwatch/engine/caution.h"
 #include "factorwatch/storage/data_directory.h"
 #include "factorwatch/storage/timestamps.h"
@@ -40,6 +49,135 @@ thread_local bool request_timed = false;
 bool is_loopback(const std::string& address) {
   return address == "localhost" || address == "::1" || address.rfind("127.", 0) == 0;
 }
+
+// What the serving loop and the request hooks know about the request now being served
+// on this worker thread.
+struct RequestGuard {
+  Clock::time_point deadline;        // the whole request (head and body) must be read by then
+  std::size_t read_budget = 0;       // bytes the parser may read in all; grows once the route allows a body
+  std::size_t head_length = 0;
+  bool over_budget = false;          // the body went past the route's limit
+  bool timed_out = false;            // the body did not arrive before the deadline
+  bool answered_early = false;       // refused before its body was read: the connection must close
+};
+thread_local RequestGuard* current_guard = nullptr;
+
+// The HTTP library's view of one connection: reads come first from the bytes the gate
+// already received, then from the socket, each bounded by the request's deadline and
+// byte budget (the library's own stream waits per read, without end in total).
+class GuardedStream final : public httplib::Stream {
+ public:
+  GuardedStream(Connection& connection, RequestGuard& guard, std::chrono::seconds write_timeout)
+      : connection_(connection), guard_(guard), write_timeout_(write_timeout) {}
+
+  bool is_readable() const override { return consumed_ < connection_.received.size() || wait_for(POLLIN, guard_.deadline); }
+  bool is_writable() const override { return wait_for(POLLOUT, Clock::now() + write_timeout_); }
+
+  ssize_t read(char* ptr, size_t size) override {
+    if (size == 0) return 0;
+    if (read_ >= guard_.read_budget) {
+      guard_.over_budget = true;
+      return -1;
+    }
+    size = std::min(size, guard_.read_budget - read_);
+    if (consumed_ < connection_.received.size()) {
+      const std::size_t n = std::min(size, connection_.received.size() - consumed_);
+      std::memcpy(ptr, connection_.received.data() + consumed_, n);
+      consumed_ += n;
+      read_ += n;
+      return static_cast<ssize_t>(n);
+    }
+    for (;;) {
+      const ssize_t got = ::recv(connection_.fd(), ptr, size, 0);
+      if (got >= 0) {
+        read_ += static_cast<std::size_t>(got);
+        return got;
+      }
+      if (errno == EINTR) continue;
+      if (errno != EAGAIN && errno != EWOULDBLOCK) return -1;
+      if (!wait_for(POLLIN, guard_.deadline)) {
+        guard_.timed_out = Clock::now() >= guard_.deadline;
+        return -1;
+      }
+    }
+  }
+
+  ssize_t write(const char* ptr, size_t size) override {
+    for (;;) {
+      const ssize_t sent = ::send(connection_.fd(), ptr, size, MSG_NOSIGNAL);
+      if (sent >= 0) return sent;
+      if (errno == EINTR) continue;
+      if (errno != EAGAIN && errno != EWOULDBLOCK) return -1;
+      if (!wait_for(POLLOUT, Clock::now() + write_timeout_)) return -1;
+    }
+  }
+
+  void get_remote_ip_and_port(std::string& ip, int& port) const override { address_of(false, ip, port); }
+  void get_local_ip_and_port(std::string& ip, int& port) const override { address_of(true, ip, port); }
+  socket_t socket() const override { return connection_.fd(); }
+
+  // Bytes of `received` the parser took; the rest belongs to the next request.
+  std::size_t consumed() const { return std::min(consumed_, connection_.received.size()); }
+
+ private:
+  bool wait_for(short events, Clock::time_point until) const {
+    for (;;) {
+      const auto left = std::chrono::duration_cast<std::chrono::milliseconds>(until - Clock::now()).count();
+      if (left <= 0) return false;
+      pollfd p{connection_.fd(), events, 0};
+      const int ready = ::poll(&p, 1, static_cast<int>(std::min<long long>(left, 1000)));
+      if (ready > 0) return true;
+      if (ready < 0 && errno != EINTR) return false;
+    }
+  }
+
+  void address_of(bool local, std::string& ip, int& port) const {
+    sockaddr_storage address{};
+    socklen_t length = sizeof address;
+    const int rc = local ? ::getsockname(connection_.fd(), reinterpret_cast<sockaddr*>(&address), &length)
+                         : ::getpeername(connection_.fd(), reinterpret_cast<sockaddr*>(&address), &length);
+    ip.clear();
+    port = -1;
+    if (rc != 0) return;
+    char host[INET6_ADDRSTRLEN] = {};
+    if (address.ss_family == AF_INET) {
+      const auto* v4 = reinterpret_cast<const sockaddr_in*>(&address);
+      ::inet_ntop(AF_INET, &v4->sin_addr, host, sizeof host);
+      port = ntohs(v4->sin_port);
+    } else if (address.ss_family == AF_INET6) {
+      const auto* v6 = reinterpret_cast<const sockaddr_in6*>(&address);
+      ::inet_ntop(AF_INET6, &v6->sin6_addr, host, sizeof host);
+      port = ntohs(v6->sin6_port);
+    }
+    ip = host;
+  }
+
+  Connection& connection_;
+  RequestGuard& guard_;
+  std::chrono::seconds write_timeout_;
+  std::size_t consumed_ = 0;  // of connection_.received
+  std::size_t read_ = 0;      // handed to the parser in this request
+};
+
+// The HTTP library parses and routes; the connections are the gate's. The library's
+// accept loop hands each new socket over (the override below), and workers of the gate
+// call the library's request processing on a guarded stream, one request at a time.
+class GatedServer final : public httplib::Server {
+ public:
+  void set_gate(ConnectionGate* gate) { gate_ = gate; }
+  // One request: parse, route, answer. False when the connection broke.
+  bool serve_one(httplib::Stream& stream, bool last, bool& client_closes) {
+    return process_request(stream, last, client_closes, nullptr);
+  }
+
+ private:
+  bool process_and_close_socket(socket_t sock) override {
+    if (gate_) gate_->admit(sock);
+    else ::close(sock);
+    return true;
+  }
+  ConnectionGate* gate_ = nullptr;
+};
 
 // "/v1/models/{name}/exposures" -> "/v1/models/([^/]+)/exposures" and the names in order.
 std::pair<std::string, std::vector<std::string>> path_pattern(const std::string& path) {
@@ -115,6 +253,12 @@ class Daemon {
   void configure();
   void handle(const Route& route, const std::vector<std::string>& names, const httplib::Request& req,
               httplib::Response& res);
+  // Checks what the head alone decides (Host, Origin, route, token, body size and
+  // encoding) before any body is read; true when it answered the request.
+  bool answer_from_head(const httplib::Request& req, httplib::Response& res);
+  const Route* route_for(const std::string& method, const std::string& path, std::string* allowed) const;
+  void serve_connection(std::unique_ptr<Connection> connection);
+  std::string refusal_bytes(int status, const std::string& detail, const std::string& field) const;
   bool open_database();
   void print_banner(int port);
 
@@ -126,9 +270,132 @@ class Daemon {
   TokenGuard tokens_;
   std::atomic<DaemonState> state_{DaemonState::starting};
   ApiContext context_;
-  httplib::Server http_;
-  std::vector<std::pair<std::regex, const Route*>> patterns_;  // for 405 answers
+  GatedServer http_;
+  std::unique_ptr<ConnectionGate> gate_;
+  std::unique_ptr<HostRules> hosts_;  // known once the port is bound
+  std::vector<std::pair<std::regex, const Route*>> patterns_;  // every route, for 404/405 and the checks
 };
+
+// A request may carry a body when it says so (RFC 9112 section 6.3).
+bool has_body(const httplib::Request& req) {
+  return req.has_header("Transfer-Encoding") ||
+         (req.has_header("Content-Length") && req.get_header_value("Content-Length") != "0");
+}
+
+// Requests answered on one kept-alive connection before it is closed: enough that a
+// client reusing its connection rarely reconnects (docs/performance.md measured p99
+// 8.5 ms with 1,000 against 13.9 ms with 10).
+constexpr std::size_t kKeepAliveRequests = 1000;
+
+// The route's limit on the body: a returns upload may use all of --max-upload-mb; a JSON
+// or holdings body is far smaller (a 20,000-asset holdings file is about 1 MB), and a
+// parsed JSON body costs several times its size in memory.
+constexpr std::size_t kSmallBodyLimit = 16 << 20;
+
+std::size_t body_limit(const Route& route, std::size_t max_upload) {
+  if (std::string(route.path) == "/v1/returns") return max_upload;
+  return std::min(max_upload, kSmallBodyLimit);
+}
+
+const Route* Daemon::route_for(const std::string& method, const std::string& path, std::string* allowed) const {
+  const std::string wanted = method == "HEAD" ? "GET" : method;
+  const Route* found = nullptr;
+  for (const auto& [pattern, route] : patterns_) {
+    if (!std::regex_match(path, pattern)) continue;
+    if (wanted == route->method) found = route;
+    if (allowed) *allowed += (allowed->empty() ? "" : ", ") + std::string(route->method);
+  }
+  return found;
+}
+
+ApiResponse no_route_problem(const std::string& method, const std::string& path, const std::string& allowed) {
+  if (!allowed.empty()) {
+    ApiResponse r = problem(405, method + " is not allowed on " + path + "; allowed: " + allowed, path);
+    r.headers.emplace_back("Allow", allowed);
+    return r;
+  }
+  return problem(404, "no such route: " + method + " " + path + " (GET /v1 lists the routes)", path);
+}
+
+bool Daemon::answer_from_head(const httplib::Request& req, httplib::Response& res) {
+  RequestGuard* guard = current_guard;
+  auto answer = [&](ApiResponse response) {
+    send(response, res);
+    if (guard && has_body(req)) guard->answered_early = true;
+    return true;
+  };
+  // Host first: an answer of any other kind would tell a rebinding page something.
+  if (!req.has_header("Host")) {
+    if (req.version != "HTTP/1.0")
+      return answer(problem(400, "header 'Host': an HTTP/1.1 request must name the host (RFC 9112 section 3.2)",
+                            req.path, "Host"));
+  } else if (req.get_header_value_count("Host") > 1) {
+    return answer(problem(400, "header 'Host' appears more than once", req.path, "Host"));
+  } else if (auto why = hosts_->host_problem(req.get_header_value("Host"))) {
+    return answer(problem(421, *why, req.path, "Host"));
+  }
+  if (req.has_header("Origin")) {
+    if (auto why = hosts_->origin_problem(req.get_header_value("Origin")))
+      return answer(problem(403, *why, req.path, "Origin"));
+  }
+  std::string allowed;
+  const Route* route = route_for(req.method, req.path, &allowed);
+  if (!route) return answer(no_route_problem(req.method, req.path, allowed));
+  const bool needs_token = route->write || (context_.reads_need_token && !route->before_ready);
+  if (needs_token && !tokens_.accepts(req.get_header_value("Authorization"))) {
+    const bool given = req.has_header("Authorization");
+    ApiResponse r = problem(401,
+                            given ? "header 'Authorization': the token is wrong (factorwatch token prints the right one)"
+                                  : std::string("header 'Authorization': ") + (route->write ? "writes" : "reads") +
+                                        " need 'Bearer <token>' (factorwatch token prints it)",
+                            req.path, "Authorization");
+    r.headers.emplace_back("WWW-Authenticate", "Bearer realm=\"factorwatch\"");
+    return answer(std::move(r));
+  }
+  // The body's framing and size, from the head alone.
+  if ((req.method == "POST" || req.method == "PUT") && !req.has_header("Content-Length") &&
+      !req.has_header("Transfer-Encoding"))
+    return answer(problem(400, "header 'Content-Length': a " + req.method + " needs a body, even an empty one (curl: -d '')",
+                          req.path, "Content-Length"));
+  const std::size_t limit = body_limit(*route, context_.max_upload_bytes);
+  const bool chunked = req.has_header("Transfer-Encoding");
+  if (chunked) {
+    std::string coding = req.get_header_value("Transfer-Encoding");
+    for (char& c : coding) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+    if (coding != "chunked" || req.get_header_value_count("Transfer-Encoding") > 1)
+      return answer(problem(501, "header 'Transfer-Encoding': only 'chunked' is accepted", req.path, "Transfer-Encoding"));
+    if (req.has_header("Content-Length"))
+      return answer(problem(400, "headers 'Content-Length' and 'Transfer-Encoding' together are refused (RFC 9112 section 6.1)",
+                            req.path, "Content-Length"));
+  }
+  std::size_t declared = 0;
+  if (req.has_header("Content-Length")) {
+    const std::string text = req.get_header_value("Content-Length");
+    const bool digits = !text.empty() && text.size() <= 19 &&
+                        std::all_of(text.begin(), text.end(), [](char c) { return c >= '0' && c <= '9'; });
+    if (!digits || req.get_header_value_count("Content-Length") > 1)
+      return answer(problem(400, "header 'Content-Length': not one whole number of bytes", req.path, "Content-Length"));
+    declared = static_cast<std::size_t>(std::stoull(text));
+  }
+  if (declared > limit)
+    return answer(problem(413,
+                          "request body of " + std::to_string(declared) + " bytes is larger than the limit of " +
+                              std::to_string(limit >> 20) + " MiB" +
+                              (limit == context_.max_upload_bytes ? " (factorwatch serve --max-upload-mb)" : " for this route"),
+                          req.path, "body"));
+  if (req.has_header("Content-Encoding")) {
+    std::string coding = req.get_header_value("Content-Encoding");
+    for (char& c : coding) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+    // A compressed body is refused rather than expanded: 1 MB of gzip can expand to
+    // 1,000 MB before any limit sees it.
+    if (coding != "identity")
+      return answer(problem(415, "header 'Content-Encoding': send the body uncompressed", req.path, "Content-Encoding"));
+  }
+  // Allowed: the parser may now read the body, and no more than the limit (chunked
+  // framing adds a few bytes per chunk; 1/8 of the limit covers chunks down to 64 bytes).
+  if (guard) guard->read_budget = guard->head_length + (chunked ? limit + limit / 8 + 4096 : declared);
+  return false;
+}
 
 void Daemon::handle(const Route& route, const std::vector<std::string>& names, const httplib::Request& req,
                     httplib::Response& res) {
@@ -140,21 +407,13 @@ void Daemon::handle(const Route& route, const std::vector<std::string>& names, c
     res.set_header("Retry-After", "2");
     return;
   }
-  const bool needs_token = route.write || (context_.reads_need_token && !route.before_ready);
-  if (needs_token && !tokens_.accepts(req.get_header_value("Authorization"))) {
-    const bool given = req.has_header("Authorization");
-    send(problem(401,
-                 given ? "header 'Authorization': the token is wrong (factorwatch token prints the right one)"
-                       : std::string("header 'Authorization': ") + (route.write ? "writes" : "reads") +
-                             " need 'Bearer <token>' (factorwatch token prints it)",
-                 req.path, "Authorization"),
-         res);
-    res.set_header("WWW-Authenticate", "Bearer realm=\"factorwatch\"");
-    return;
-  }
   ApiResponse response;
   try {
-    response = route.handler(context_, to_api_request(req, names));
+    ApiRequest request = to_api_request(req, names);
+    // The token was checked from the head (answer_from_head); here it only decides what
+    // a read may show (the health route's full database path).
+    request.authorised = req.has_header("Authorization") && tokens_.accepts(req.get_header_value("Authorization"));
+    response = route.handler(context_, request);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "%s error in %s %s: %s\n", storage::utc_timestamp().c_str(), req.method.c_str(), req.path.c_str(), e.what());
     response = problem(500, std::string("internal error: ") + e.what(), req.path);
@@ -162,22 +421,57 @@ void Daemon::handle(const Route& route, const std::vector<std::string>& names, c
   send(response, res);
 }
 
+std::string Daemon::refusal_bytes(int status, const std::string& detail, const std::string& field) const {
+  const ApiResponse r = problem(status, detail, "", field);
+  const std::string& body = *r.body;
+  return "HTTP/1.1 " + std::to_string(status) + " " + status_title(status) +
+         "\r\nContent-Type: application/problem+json\r\nContent-Length: " + std::to_string(body.size()) +
+         "\r\nConnection: close\r\n\r\n" + body;
+}
+
+// One worker's turn with a connection: requests whose heads are complete are answered one
+// after the other; then the connection goes back to the gate to wait, or closes.
+void Daemon::serve_connection(std::unique_ptr<Connection> connection) {
+  for (;;) {
+    RequestGuard guard;
+    guard.deadline = Clock::now() + std::chrono::seconds(options_.read_timeout_seconds);
+    const HeadCheck head = check_request_head(connection->received, gate_->limits().head);
+    if (head.state != HeadCheck::State::complete) {
+      gate_->park(std::move(connection));  // the gate refuses it, or waits for the rest
+      return;
+    }
+    guard.head_length = head.length;
+    guard.read_budget = head.length;  // no body until answer_from_head allows one
+    GuardedStream stream(*connection, guard, std::chrono::seconds(options_.write_timeout_seconds));
+    // The library closes a kept-alive connection after this many requests.
+    const bool last = connection->requests_served + 1 >= kKeepAliveRequests || gate_->stopping();
+    bool client_closes = false;
+    current_guard = &guard;
+    const bool ok = http_.serve_one(stream, last, client_closes);
+    current_guard = nullptr;
+    ++connection->requests_served;
+    connection->received.erase(0, stream.consumed());
+    if (guard.answered_early || guard.over_budget || guard.timed_out) {
+      gate_->drain(std::move(connection));  // the client may still be sending its body
+      return;
+    }
+    if (!ok || client_closes || last) return;  // closed here
+    if (check_request_head(connection->received, gate_->limits().head).state != HeadCheck::State::complete) {
+      gate_->park(std::move(connection));
+      return;
+    }
+  }
+}
+
 void Daemon::configure() {
-  const std::size_t threads = static_cast<std::size_t>(options_.threads);
-  http_.new_task_queue = [threads] { return new httplib::ThreadPool(threads); };
-  http_.set_read_timeout(options_.read_timeout_seconds, 0);
-  http_.set_write_timeout(options_.write_timeout_seconds, 0);
-  // A kept-alive connection holds a worker thread while it waits for its next request,
-  // so clients beyond --threads queue behind the kept-alive ones: an idle connection is
-  // closed after 2 s, and the default of 64 threads covers the clients a local daemon
-  // serves. Closing busy connections early to rotate them cost more than it saved
-  // (8 clients, 5,000-asset window: p99 8.5 ms with 1,000 requests per connection,
-  // 13.9 ms with 10; docs/performance.md).
-  http_.set_keep_alive_timeout(2);
-  http_.set_keep_alive_max_count(1000);
-  // Without it, a small last segment of a response can wait for the client's delayed
-  // acknowledgement: 40 ms stalls at p99.9 for a client sending one request at a time.
+  // The library's accept loop only hands sockets to the gate: one thread is enough.
+  http_.new_task_queue = [] { return new httplib::ThreadPool(1); };
   http_.set_tcp_nodelay(true);
+  // What the Keep-Alive field tells clients; the serving loop enforces both.
+  http_.set_keep_alive_timeout(2);
+  http_.set_keep_alive_max_count(kKeepAliveRequests);
+  // The gate checks the size from the head and the stream enforces it while reading;
+  // this is the library's own last line.
   http_.set_payload_max_length(options_.max_upload_mb << 20);
 
   for (const Route& route : api_routes()) {
@@ -193,26 +487,41 @@ void Daemon::configure() {
     else if (method == "DELETE") http_.Delete(pattern, handler);
   }
 
-  http_.set_pre_routing_handler([](const httplib::Request&, httplib::Response&) {
+  http_.set_pre_routing_handler([this](const httplib::Request& req, httplib::Response& res) {
     request_start = Clock::now();
     request_timed = true;
-    return httplib::Server::HandlerResponse::Unhandled;
+    return answer_from_head(req, res) ? httplib::Server::HandlerResponse::Handled
+                                      : httplib::Server::HandlerResponse::Unhandled;
+  });
+  // A client that waits for "100 Continue" before sending its body gets the refusal
+  // instead, and sends nothing.
+  http_.set_expect_100_continue_handler([this](const httplib::Request& req, httplib::Response& res) {
+    return answer_from_head(req, res) ? res.status : 100;
   });
   // Errors the library produces itself (no route, body too large, malformed request)
   // get the same problem shape as the handlers' own.
   http_.set_error_handler(httplib::Server::HandlerWithResponse([this](const httplib::Request& req, httplib::Response& res) {
     if (!res.body.empty() || res.content_length_ > 0) return httplib::Server::HandlerResponse::Unhandled;
-    if (res.status == 404) {
+    const RequestGuard* guard = current_guard;
+    if (guard && guard->over_budget) {
+      const Route* route = route_for(req.method, req.path, nullptr);
+      const std::size_t limit = route ? body_limit(*route, context_.max_upload_bytes) : context_.max_upload_bytes;
+      send(problem(413, "request body larger than the limit of " + std::to_string(limit >> 20) +
+                            " MiB for this route (factorwatch serve --max-upload-mb)",
+                   req.path, "body"),
+           res);
+      res.status = 413;
+    } else if (guard && guard->timed_out) {
+      send(problem(408, "the request body did not arrive within " + std::to_string(options_.read_timeout_seconds) +
+                            " s (factorwatch serve --read-timeout)",
+                   req.path, "body"),
+           res);
+      res.status = 408;
+    } else if (res.status == 404) {
       std::string allowed;
-      for (const auto& [pattern, route] : patterns_)
-        if (std::regex_match(req.path, pattern)) allowed += (allowed.empty() ? "" : ", ") + std::string(route->method);
-      if (!allowed.empty()) {
-        send(problem(405, req.method + " is not allowed on " + req.path + "; allowed: " + allowed, req.path), res);
-        res.status = 405;
-        res.set_header("Allow", allowed);
-        return httplib::Server::HandlerResponse::Handled;
-      }
-      send(problem(404, "no such route: " + req.method + " " + req.path + " (GET /v1 lists the routes)", req.path), res);
+      route_for(req.method, req.path, &allowed);
+      const ApiResponse r = no_route_problem(req.method, req.path, allowed);
+      send(r, res);
     } else if (res.status == 413 && req.get_header_value("Content-Type") == "application/x-www-form-urlencoded") {
       // The HTTP library caps form-encoded bodies at 8 KiB whatever the upload limit;
       // curl --data-binary sends that type unless told otherwise.
@@ -252,10 +561,21 @@ void Daemon::configure() {
     double ms = -1;
     if (request_timed) ms = std::chrono::duration<double, std::milli>(Clock::now() - request_start).count();
     request_timed = false;
+    // The path as sent may hold any byte: the log shows printable ASCII only.
+    std::string path;
+    for (unsigned char c : req.path.substr(0, 300)) {
+      if (c >= 0x20 && c < 0x7f) {
+        path += static_cast<char>(c);
+      } else {
+        char hex[5];
+        std::snprintf(hex, sizeof hex, "%%%02X", c);
+        path += hex;
+      }
+    }
     if (ms >= 0)
-      std::fprintf(stderr, "%s %s %s %d %.1f ms\n", storage::utc_timestamp().c_str(), req.method.c_str(), req.path.c_str(), res.status, ms);
+      std::fprintf(stderr, "%s %s %s %d %.1f ms\n", storage::utc_timestamp().c_str(), req.method.c_str(), path.c_str(), res.status, ms);
     else
-      std::fprintf(stderr, "%s %s %s %d - ms\n", storage::utc_timestamp().c_str(), req.method.c_str(), req.path.c_str(), res.status);
+      std::fprintf(stderr, "%s %s %s %d - ms\n", storage::utc_timestamp().c_str(), req.method.c_str(), path.c_str(), res.status);
   });
 }
 
@@ -306,6 +626,24 @@ int Daemon::run() {
                          "choose another with --address / --port\n", options_.address.c_str(), options_.port);
     return 1;
   }
+  hosts_ = std::make_unique<HostRules>(options_.address, port, options_.allowed_hosts);
+  GateLimits limits;
+  limits.max_connections = static_cast<std::size_t>(options_.max_connections);
+  limits.head_deadline = std::chrono::seconds(options_.head_timeout_seconds);
+  limits.idle_deadline = std::chrono::seconds(2);
+  limits.workers = options_.threads;
+  gate_ = std::make_unique<ConnectionGate>(
+      limits, [this](std::unique_ptr<Connection> c) { serve_connection(std::move(c)); },
+      [this](int status, const std::string& detail, const std::string& field) {
+        return refusal_bytes(status, detail, field);
+      },
+      [](const std::string& line) {
+        std::string shown;
+        for (unsigned char c : line) shown += (c >= 0x20 && c < 0x7f) ? static_cast<char>(c) : '?';
+        std::fprintf(stderr, "%s %s\n", storage::utc_timestamp().c_str(), shown.c_str());
+      });
+  gate_->start();
+  http_.set_gate(gate_.get());
   std::printf("listening on http://%s:%d (factorwatch %s)\n", options_.address.c_str(), port, FACTORWATCH_VERSION);
   std::fflush(stdout);
   std::thread listener([this] { http_.listen_after_bind(); });
@@ -327,8 +665,9 @@ int Daemon::run() {
     code = 1;
   }
   state_ = DaemonState::stopping;
-  http_.stop();      // no new connections; the worker pool finishes what it holds
+  http_.stop();      // no new connections
   listener.join();
+  gate_->stop();     // waiting connections close; workers finish the request they serve
   jobs_.stop();      // the refresh writes its current window, then ends
   std::fprintf(stderr, "%s stopped\n", storage::utc_timestamp().c_str());
   return code;
@@ -346,6 +685,10 @@ bool DaemonOptions::IsValid(std::string* error) const {
   if (max_upload_mb < 1) return fail("option '--max-upload-mb': must be at least 1");
   if (read_timeout_seconds < 1) return fail("option '--read-timeout': must be at least 1 second");
   if (write_timeout_seconds < 1) return fail("option '--write-timeout': must be at least 1 second");
+  if (head_timeout_seconds < 1) return fail("option '--head-timeout': must be at least 1 second");
+  if (max_connections < threads || max_connections > 1000)
+    return fail("option '--max-connections' = " + std::to_string(max_connections) + ": must be at least --threads (" +
+                std::to_string(threads) + ") and at most 1000");
   return true;
 }
 

@@ -4,6 +4,7 @@
 
 #include <cstddef>
 #include <string>
+#include <vector>
 
 namespace factorwatch::server {
 
@@ -14,8 +15,11 @@ struct DaemonOptions {
   int threads = 64;                  // request worker threads (each serves one connection at a time)
   std::size_t max_upload_mb = 1024;  // largest request body, MiB
   bool reads_need_token = false;     // forced on for non-loopback addresses
-  int read_timeout_seconds = 30;     // per socket read while receiving a request
+  int read_timeout_seconds = 30;     // a request's head and body must arrive within this, in all
+  int head_timeout_seconds = 10;     // a request's head (line and fields) within this of its first byte
   int write_timeout_seconds = 30;    // per socket write while sending a response
+  int max_connections = 256;         // open at once; beyond it the slowest waiting one is closed
+  std::vector<std::string> allowed_hosts;  // --allow-host: Host names accepted besides the listening address
   std::size_t cache_mb = 256;        // rendered response bodies kept in memory, MiB
   std::string program = "factorwatch";  // as invoked, for the commands the banner suggests
 

@@ -5,6 +5,7 @@
 #include "endpoint_helpers.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
+#include "json_body.h"
 #include "model_views.h"
 
 namespace factorwatch::server {
@@ -29,7 +30,7 @@ std::pair<std::string, std::string> as_member_message(const std::string& message
 
 // Applies the members of a model definition to `config`; a message naming the member
 // when one is unknown or of the wrong type.
-std::optional<std::pair<std::string, std::string>> apply_definition(const json& body, storage::ModelConfig& config) {
+std::optional<std::pair<std::string, std::string>> apply_definition(const nlohmann::ordered_json& body, storage::ModelConfig& config) {
   auto bad = [](const std::string& member, const std::string& why) {
     return std::make_optional(std::make_pair("member '" + member + "': " + why, member));
   };
@@ -134,11 +135,11 @@ ApiResponse define_model_endpoint(const ApiContext& context, const ApiRequest& r
   const std::string& name = r.path_values.at("name");
   std::string error;
   if (!storage::valid_model_name(name, &error)) return problem(400, "model name: " + error, r.path, "name");
-  json body;
+  nlohmann::ordered_json body;
   try {
-    body = r.body.empty() ? json::object() : json::parse(r.body);
-  } catch (const json::parse_error& e) {
-    return problem(400, std::string("body: not JSON: ") + e.what(), r.path, "body");
+    body = r.body.empty() ? nlohmann::ordered_json::object() : parse_json_body(r.body);
+  } catch (const std::invalid_argument& e) {
+    return problem(400, std::string("body: ") + e.what(), r.path, "body");
   }
   if (!body.is_object()) return problem(400, "body: must be a JSON object of model settings", r.path, "body");
 

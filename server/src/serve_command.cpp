@@ -11,8 +11,17 @@ CLI::App* add_serve_command(CLI::App& app, DaemonOptions& o) {
       ->capture_default_str();
   serve->add_flag("--reads-need-token", o.reads_need_token,
                   "Reads need the token too (always so when listening beyond loopback)");
-  serve->add_option("--read-timeout", o.read_timeout_seconds, "Seconds a socket read may wait while receiving a request")
+  serve->add_option("--read-timeout", o.read_timeout_seconds,
+                    "Seconds a whole request (head and body) may take to arrive")
       ->capture_default_str();
+  serve->add_option("--head-timeout", o.head_timeout_seconds,
+                    "Seconds a request's head may take to arrive after its first byte")
+      ->capture_default_str();
+  serve->add_option("--max-connections", o.max_connections, "Connections open at once")->capture_default_str();
+  serve->add_option("--allow-host", o.allowed_hosts,
+                    "A host name clients may use besides the listening address (repeatable; e.g. this "
+                    "machine's name with --address 0.0.0.0)")
+      ->type_name("NAME");
   serve->add_option("--write-timeout", o.write_timeout_seconds, "Seconds a socket write may wait while sending a response")
       ->capture_default_str();
   serve->add_option("--cache-mb", o.cache_mb, "Memory for rendered window responses, MiB")->capture_default_str();

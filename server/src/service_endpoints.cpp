@@ -26,9 +26,13 @@ ApiResponse health_endpoint(const ApiContext& context, const ApiRequest& r) {
     case DaemonState::ready:
       break;
   }
+  // The database's full path names the data directory (and often the user): only a
+  // client holding the token sees it; anyone else sees the file's name.
+  const std::string& path = context.database_path;
+  const std::string shown = r.authorised ? path : path.substr(path.find_last_of('/') + 1);
   return json_response({{"status", "ready"},
                         {"schema_version", context.database().schema_version()},
-                        {"database", context.database_path}});
+                        {"database", shown}});
 }
 
 ApiResponse version_endpoint(const ApiContext&, const ApiRequest&) {

@@ -73,11 +73,11 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
 }
 
 std::string render_exposures(const SelectedWindow& s, Format f) {
-  return f == Format::csv ? exposures_csv(s) : exposures_json(s).dump();
+  return f == Format::csv ? exposures_csv(s) : exposures_json(s).dump(-1, ' ', false, nlohmann::ordered_json::error_handler_t::replace);
 }
 
 std::string render_specific_risk(const SelectedWindow& s, Format f) {
-  return f == Format::csv ? specific_risk_csv(s) : specific_risk_json(s).dump();
+  return f == Format::csv ? specific_risk_csv(s) : specific_risk_json(s).dump(-1, ' ', false, nlohmann::ordered_json::error_handler_t::replace);
 }
 
 }  // namespace
