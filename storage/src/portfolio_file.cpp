@@ -7,6 +7,7 @@
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/portfolios.h"
+#include "factorwatch/storage/returns_csv.h"  // kLargestInputBytes
 #include "factorwatch/storage/timestamps.h"
 #include "file_text.h"
 #include "holdings_file.h"
@@ -35,7 +36,7 @@ bool is_portfolio_name(const std::string& name) {
 }
 
 Portfolio read_portfolio_file(const std::string& path, const PortfolioFileOptions& options) {
-  const detail::FileText file(path);
+  const detail::FileText file(path, kLargestInputBytes);
   return parse_portfolio_text(std::string(file.text()), path, options);
 }
 
