@@ -1,5 +1,6 @@
 // Reading a holdings file (CSV or JSON, told apart by the first character) and applying
 // the options: the name, and the as-of date and benchmark, which win over the file's.
+#include <cmath>
 #include <cstdio>
 #include <stdexcept>
 
@@ -29,6 +30,13 @@ std::string checked_name(const std::string& name, const char* what) {
 }
 
 }  // namespace
+
+std::string weight_problem(double weight) {
+  if (!std::isfinite(weight)) return "is not a finite number";
+  if (std::abs(weight) <= kLargestWeight) return "";
+  return "is beyond +-1e15, the largest weight accepted: weights are fractions of the book or amounts of "
+         "money, and no real holding is that large (a unit slip?)";
+}
 
 bool is_portfolio_name(const std::string& name) {
   std::string ignored;
