@@ -33,7 +33,7 @@ struct Descriptor {
                        " for an input file (for returns files, factorwatch load --max-input-mb sets it)");
 }
 
-// The first NUL in text[from, to), reported with its line and column counted from the start.
+// The first NUL in text[from, end), reported with its line and column counted from the start.
 void check_range(std::string_view text, std::size_t from, const std::string& path) {
   const void* found = std::memchr(text.data() + from, '\0', text.size() - from);
   if (found == nullptr) return;

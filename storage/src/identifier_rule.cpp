@@ -53,12 +53,12 @@ std::optional<std::string> identifier_problem(std::string_view name) {
   }
   for (std::size_t at = 0; at < name.size();) {
     const Character c = *character_at(name, at);
-    const std::string where = " (" + code_point(c.code) + ") at position " + std::to_string(at + 1);
+    auto where = [&] { return " (" + code_point(c.code) + ") at position " + std::to_string(at + 1); };
     if (is_control(c.code))
-      return detail::quoted(name) + " holds a control character" + where +
+      return detail::quoted(name) + " holds a control character" + where() +
              ": names are printable text, without line breaks, tabs, NUL or terminal codes";
     if (is_invisible_format(c.code))
-      return detail::quoted(name) + " holds an invisible formatting character" + where +
+      return detail::quoted(name) + " holds an invisible formatting character" + where() +
              ": it would make the name print like another one";
     at += c.length;
   }
