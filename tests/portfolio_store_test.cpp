@@ -130,17 +130,18 @@ TEST(PortfolioStore, JsonWeightsFormKeepsOrderAndValues) {
       "  \"as_of\": \"2024-02-29\",\n"
       "  \"benchmark\": \"index.eq-1\",\n"
       "  \"weights\": {\"ZQ-0300\": 0.1, \"ZQ-0007\": -0.35, \"ZQ-0002\": 2, \"ZQ-0003\": -0.0,\n"
-      "              \"ZQ-0001\": 1e-300, \"ZQ-0004\": 18446744073709551615}\n"
+      "              \"ZQ-0001\": 1e-300, \"ZQ-0004\": 1000000000000000}\n"
       "}\n";
   fwt::write_text(dir.file("w.json"), text);
   const fw::Portfolio p = fw::read_portfolio_file(dir.file("w.json"), named("book"));
   EXPECT_EQ(p.as_of, "2024-02-29");  // the file's, no option given
   EXPECT_EQ(p.benchmark, "index.eq-1");
   // File order, not the sorted order a plain JSON object would give; -0 is stored as 0
-  // (SQLite keeps an integral REAL as an integer, which has no sign of zero).
+  // (SQLite keeps an integral REAL as an integer, which has no sign of zero). ZQ-0004 is
+  // the largest weight accepted (kLargestWeight), written as an integer.
   const engine::Holdings want = {{"ZQ-0300", 0.1},    {"ZQ-0007", -0.35}, {"ZQ-0002", 2.0},
                                  {"ZQ-0003", 0.0},    {"ZQ-0001", 1e-300},
-                                 {"ZQ-0004", 18446744073709551615.0}};
+                                 {"ZQ-0004", 1e15}};
   expect_same_holdings(p.holdings, want);
   fw::Database db(dir.database());
   fw::save_portfolio(db, p);

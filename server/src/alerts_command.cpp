@@ -27,7 +27,7 @@ void print_table(const AlertList& a) {
     for (const storage::DriftAlert& x : a.alerts)
       std::printf("%-10s  %-8s  %-13s %-6s %10.4f %9.3f  %s\n", x.as_of.c_str(), x.against.c_str(),
                   x.against_as_of.c_str(), factor_name(x.factor - 1).c_str(), x.congruence, x.threshold,
-                  movers_text(x.movers, kMoversShown).c_str());
+                  table_text(movers_text(x.movers, kMoversShown)).c_str());
   }
   const bool vanished = std::any_of(a.alerts.begin(), a.alerts.end(),
                                     [](const storage::DriftAlert& x) { return std::isnan(x.congruence); });

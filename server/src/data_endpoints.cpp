@@ -2,7 +2,6 @@
 
 #include "endpoint_helpers.h"
 #include "factorwatch/storage/assets.h"
-#include "factorwatch/storage/content_hash.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/returns_csv.h"
@@ -48,7 +47,7 @@ ApiResponse upload_returns_endpoint(const ApiContext& context, const ApiRequest&
   }
   source.layout = file.layout;
   source.data_rows = file.data_rows;
-  source.content_sha256 = storage::text_sha256(r.body);
+  source.content_sha256 = file.content_sha256;  // of the body, the one copy the reader parsed
   const storage::LoadSummary s = storage::store_returns(context.database(), file.panel, source);
 
   nlohmann::ordered_json j;

@@ -77,7 +77,7 @@ void print_window_table(const WindowDrift& d, int limit) {
     for (std::size_t n = 0; n < shown; ++n) {
       const std::size_t i = d.order[n];
       const auto row = static_cast<Eigen::Index>(i);
-      std::printf("%-14s", c.assets[i].c_str());
+      std::printf("%-14s", table_text(c.assets[i]).c_str());
       for (Eigen::Index j = 0; j < k; ++j) std::printf(" %+11.3e", c.exposure_change(row, j));
       for (Eigen::Index j = 0; j < k; ++j) std::printf(" %+9.4f", c.standardized_change(row, j));
       std::printf(" %8.4f %+13.4e\n", standardized_norm(c, i), c.communality_change(row));

@@ -33,7 +33,7 @@ void print_table(const SelectedWindow& s, int limit) {
       return std::abs(f.loadings(a, j)) > std::abs(f.loadings(b, j));
     });
     std::string names;
-    for (std::size_t k = 0; k < top; ++k) names += (k ? ", " : "") + f.assets[order[k]];
+    for (std::size_t k = 0; k < top; ++k) names += (k ? ", " : "") + table_text(f.assets[order[k]]);
     std::printf("%-6s  %16.1f%%  %s\n", factor_name(j).c_str(), 100 * f.explained_share(j), names.c_str());
   }
   std::printf("\n%-14s", "asset");
@@ -42,14 +42,15 @@ void print_table(const SelectedWindow& s, int limit) {
   const std::size_t shown = limit > 0 ? std::min<std::size_t>(limit, s.rows.size()) : s.rows.size();
   for (std::size_t r = 0; r < shown; ++r) {
     const std::size_t i = s.rows[r];
-    std::printf("%-14s", f.assets[i].c_str());
+    std::printf("%-14s", table_text(f.assets[i]).c_str());
     for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::printf(" %+10.5f", f.loadings(i, j));
     std::printf(" %12.4e %12.4e %10.3f%s\n", f.communality(i), f.specific_variance(i), f.uniqueness(i),
                 f.heywood[i] ? "  (Heywood: specific variance at its floor)" : "");
   }
   if (shown < s.rows.size())
     std::printf("... %zu more; --limit 0 shows all, --format csv gives a spreadsheet file\n", s.rows.size() - shown);
-  for (const auto& m : s.missing) std::printf("%-14s not in this window: %s\n", m.asset.c_str(), m.reason.c_str());
+  for (const auto& m : s.missing)
+    std::printf("%-14s not in this window: %s\n", table_text(m.asset).c_str(), m.reason.c_str());
   std::printf("\nLoadings are in return units per factor of unit variance; communality and specific\n"
               "variance in squared return units per period; uniqueness = specific share of the variance.\n");
   print_caution(std::cout);

@@ -9,6 +9,7 @@
 
 #include "factorwatch/engine/caution.h"
 #include "fit_report.h"
+#include "text_format.h"
 
 namespace factorwatch::server {
 namespace {
@@ -129,8 +130,9 @@ double largest_abs(const Eigen::MatrixXd& m, const std::vector<std::size_t>& row
 }
 
 std::string asset_name(const std::string& name, std::size_t width) {
-  if (name.size() <= width) return name;
-  return name.substr(0, width - 2) + "..";
+  const std::string shown = table_text(name);
+  if (shown.size() <= width) return shown;
+  return shown.substr(0, width - 2) + "..";
 }
 
 void write_asset_rows(std::ostream& out, const engine::FactorFit& f) {
@@ -185,7 +187,7 @@ void write_excluded(std::ostream& out, const engine::FactorFit& f) {
   if (f.excluded.empty()) return;
   out << printf_string("\nExcluded assets (%zu)\n", f.excluded.size());
   for (std::size_t i = 0; i < f.excluded.size() && i < kExcludedShown; ++i)
-    out << "  " << f.excluded[i].asset << ": " << f.excluded[i].reason << "\n";
+    out << "  " << table_text(f.excluded[i].asset) << ": " << f.excluded[i].reason << "\n";
   if (f.excluded.size() > kExcludedShown)
     out << printf_string("  ... and %zu more (--format json lists them all)\n", f.excluded.size() - kExcludedShown);
 }

@@ -17,7 +17,7 @@ void print_table(const AssetHistory& h) {
   std::size_t present = 0;
   for (const auto& p : h.points) present += p.present;
   std::printf("model %s, version %d: asset %s in %zu of %zu windows\n\n", h.model.name.c_str(), h.model.version,
-              h.asset.c_str(), present, h.points.size());
+              table_text(h.asset).c_str(), present, h.points.size());
   std::printf("%-10s", "as of");
   for (Eigen::Index j = 0; j < k; ++j) std::printf(" %11s", factor_name(j).c_str());
   std::printf(" %12s %12s  %s\n", "communality", "specific vol", "alignment");

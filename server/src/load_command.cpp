@@ -2,10 +2,8 @@
 
 #include <chrono>
 #include <cstdio>
-#include <future>
 #include <stdexcept>
 
-#include "factorwatch/storage/content_hash.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/returns_csv.h"
@@ -33,6 +31,12 @@ CLI::App* add_load_command(CLI::App& app, LoadArguments& a) {
                                 "The cells are prices: store simple returns between consecutive dates");
   load->add_flag("--log-returns", a.log_returns, "With --prices: store log returns instead of simple returns")
       ->needs(prices);
+  load->add_option("--max-input-mb", a.max_input_mb,
+                   "Refuse a file (or stream) larger than this many MiB; about 0.55 GB is a wide file of "
+                   "20,000 assets x 2,500 dates")
+      ->type_name("MIB")
+      ->check(CLI::Range(std::size_t{1}, std::size_t{1} << 20))
+      ->capture_default_str();
   return load;
 }
 
@@ -45,14 +49,14 @@ int run_load_command(const LoadArguments& a, const GlobalArguments& global) {
   storage::IngestSource source;
   source.path = a.path;
   source.values_in_file = storage::to_string(read_options.values);
+  read_options.max_input_bytes = a.max_input_mb << 20;
   storage::ReturnsFile file;
-  // The content hash reads the file a second time, on the other core, while it is parsed.
-  auto hash = std::async(std::launch::async, [&a] { return storage::file_sha256(a.path); });
   try {
     std::fprintf(stderr, "reading %s ...", a.path.c_str());
     std::fflush(stderr);
+    // One read of the file (a pipe can be read only once); the hash is of those bytes.
     file = storage::read_returns_file(a.path, read_options);
-    source.content_sha256 = hash.get();
+    source.content_sha256 = file.content_sha256;
   } catch (const storage::InputError& e) {
     std::fprintf(stderr, "\nfactorwatch load: %s\nThe file was rejected; the database is unchanged.\n", e.what());
     return kExitBadInput;

@@ -6,6 +6,7 @@
 #include <string>
 
 #include "cli_common.h"
+#include "factorwatch/storage/returns_csv.h"
 
 namespace factorwatch::server {
 
@@ -13,6 +14,7 @@ struct LoadArguments {
   std::string path;
   bool prices = false;       // the cells are prices: store simple returns
   bool log_returns = false;  // with --prices: store log returns instead
+  std::size_t max_input_mb = storage::kLargestInputBytes >> 20;  // refuse larger files and streams
 };
 
 CLI::App* add_load_command(CLI::App& app, LoadArguments& arguments);

@@ -80,7 +80,7 @@ int run_show(const PortfolioArguments& a, storage::Database& db) {
     std::printf("%-24s %14s\n", "asset", "weight");
     double net = 0;
     for (const auto& h : p->holdings) {
-      std::printf("%-24s %14.6g\n", h.asset.c_str(), h.weight);
+      std::printf("%-24s %14.6g\n", table_text(h.asset).c_str(), h.weight);
       net += h.weight;
     }
     std::printf("%zu holdings, net weight %.6g\n", p->holdings.size(), net);

@@ -30,7 +30,9 @@ std::string residuals_description(engine::ScoreMethod method) {
 std::string residuals_csv(const AssetResidualAnswer& a) {
   const storage::AssetResiduals& r = a.residuals;
   std::string out = csv_caution_line();
-  out += window_csv_heading(a.window) + "; asset " + r.asset + ": mean " + exact_number(r.mean) + ", loadings " +
+  // The heading is one '#' line: a name stored before the identifier rule is escaped there.
+  out += window_csv_heading(a.window) + "; asset " + table_text(r.asset) + ": mean " + exact_number(r.mean) +
+         ", loadings " +
          loadings_text(r.loadings) + ", specific variance " + exact_number(r.specific_variance) + "; method " +
          engine::to_string(r.method) + ", " + residuals_description(r.method) + " under the window's served factors (" +
          factor_basis_text(a.window) + ")";
@@ -71,7 +73,8 @@ std::string residuals_table(const AssetResidualAnswer& a) {
   char line[256];
   std::snprintf(line, sizeof line, "model %s, version %d: window %s .. %s, asset %s, method %s%s\n",
                 w.model.name.c_str(), w.model.version, w.window.first_date.c_str(), w.window.as_of.c_str(),
-                r.asset.c_str(), engine::to_string(r.method), w.window.stale ? "; STALE, run factorwatch refresh" : "");
+                table_text(r.asset).c_str(), engine::to_string(r.method),
+                w.window.stale ? "; STALE, run factorwatch refresh" : "");
   std::string out = line;
   if (!w.note.empty()) out += "note: " + w.note + "\n";
   out += residuals_description(r.method) + "\nunder the window's served factors (" + factor_basis_text(w) + ")\n";

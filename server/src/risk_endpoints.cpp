@@ -4,6 +4,8 @@
 #include <unordered_set>
 
 #include "endpoint_helpers.h"
+#include "factorwatch/storage/identifier_rule.h"
+#include "factorwatch/storage/portfolios.h"
 #include "json_body.h"
 #include "risk_model_cache.h"
 #include "risk_query.h"
@@ -77,12 +79,16 @@ ApiResponse answer(const ApiContext& context, const ApiRequest& r, const RiskReq
 std::variant<engine::Holdings, std::string> holdings_member(const ordered_json& value, const std::string& member) {
   engine::Holdings holdings;
   std::unordered_set<std::string> seen;
+  // The rules of a holdings file: one identifier rule, one weight bound (storage).
   auto add = [&](const std::string& asset, const ordered_json& weight, const std::string& where) -> std::string {
-    if (asset.empty()) return "member '" + member + "'" + where + ": an asset name is empty";
-    if (!weight.is_number()) return "member '" + member + "'" + where + ": the weight of '" + asset + "' must be a number";
+    if (auto problem = storage::identifier_problem(asset))
+      return "member '" + member + "'" + where + ": the asset name " + *problem;
+    const std::string shown = "'" + storage::printable_text(asset) + "'";
+    if (!weight.is_number()) return "member '" + member + "'" + where + ": the weight of " + shown + " must be a number";
     const double w = weight.get<double>();
-    if (!std::isfinite(w)) return "member '" + member + "'" + where + ": the weight of '" + asset + "' is not finite";
-    if (!seen.insert(asset).second) return "member '" + member + "': asset '" + asset + "' appears twice";
+    if (const std::string problem = storage::weight_problem(w); !problem.empty())
+      return "member '" + member + "'" + where + ": the weight of " + shown + " " + problem;
+    if (!seen.insert(asset).second) return "member '" + member + "': asset " + shown + " appears twice";
     holdings.push_back({asset, w});
     return "";
   };
@@ -110,12 +116,14 @@ std::variant<engine::Holdings, std::string> trade_parameter(const std::string& t
   ordered_json changes = ordered_json::array();
   for (const std::string& item : split_list(text)) {
     const auto colon = item.rfind(':');
-    if (colon == std::string::npos) return "query parameter 'trade': '" + item + "' is not ASSET:CHANGE";
+    if (colon == std::string::npos)
+      return "query parameter 'trade': '" + storage::printable_text(item) + "' is not ASSET:CHANGE";
     const std::string number = item.substr(colon + 1);
     char* end = nullptr;
     const double change = std::strtod(number.c_str(), &end);
     if (number.empty() || *end != '\0' || !std::isfinite(change))
-      return "query parameter 'trade': the change of '" + item.substr(0, colon) + "' is not a number";
+      return "query parameter 'trade': the change of '" + storage::printable_text(item.substr(0, colon)) +
+             "' is not a number";
     changes.push_back({{"asset", item.substr(0, colon)}, {"weight", change}});
   }
   if (changes.empty()) return "query parameter 'trade': no changes (give ASSET:CHANGE, comma-separated)";

@@ -1,5 +1,6 @@
 #include "risk_query.h"
 
+#include <cmath>
 #include <stdexcept>
 
 #include "factorwatch/storage/assets.h"
@@ -33,9 +34,37 @@ void explain_not_modelled(storage::Database& db, engine::PortfolioRisk& risk) {
   }
 }
 
+// Every figure a surface shows, except the shares: a share is NaN by definition when
+// nothing is at risk (risk.h), and a non-finite total already shows there.
+bool figures_finite(const engine::PortfolioRisk& r) {
+  auto figure = [](const engine::RiskFigure& f) {
+    return std::isfinite(f.variance) && std::isfinite(f.volatility) && std::isfinite(f.annualised_variance) &&
+           std::isfinite(f.annualised_volatility);
+  };
+  const engine::WeightSummary& ws = r.weights;
+  bool ok = figure(r.total) && figure(r.systematic) && figure(r.specific) && r.exposures.allFinite() &&
+            std::isfinite(r.specific_volatility_contribution) && std::isfinite(ws.net) && std::isfinite(ws.gross) &&
+            std::isfinite(ws.long_weight) && std::isfinite(ws.short_weight) && std::isfinite(ws.modelled_net) &&
+            std::isfinite(ws.modelled_gross) && std::isfinite(ws.not_modelled_gross);
+  for (const engine::FactorContribution& f : r.by_factor)
+    ok = ok && std::isfinite(f.exposure) && std::isfinite(f.variance) && std::isfinite(f.volatility);
+  for (const engine::AssetContribution& a : r.by_asset)
+    ok = ok && std::isfinite(a.variance) && std::isfinite(a.systematic_variance) &&
+         std::isfinite(a.specific_variance) && std::isfinite(a.marginal) && std::isfinite(a.volatility);
+  return ok;
+}
+
+// Weights within the bound of a holdings file (storage::kLargestWeight) always give finite
+// figures; weights stored by an older version (no bound then) may not. A book
+// whose figures overflow is refused, naming its weights, rather than shown as nulls.
 RiskBook measure(storage::Database& db, const WindowRiskModel& w, std::string role, std::string name,
                  std::string as_of, const engine::Holdings& holdings) {
   RiskBook book{std::move(role), std::move(name), std::move(as_of), engine::portfolio_risk(w.risk, holdings)};
+  if (!figures_finite(book.risk))
+    throw std::invalid_argument("measure: the risk figures of the " + book.role + " book" +
+                                (book.name.empty() ? "" : " '" + book.name + "'") +
+                                " overflow (they are not finite numbers): its weights are too large; weights are "
+                                "fractions of the book or amounts of money, each at most 1e15 in absolute value");
   explain_not_modelled(db, book.risk);
   return book;
 }
@@ -133,13 +162,14 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
   }
 
   // Stored holdings were checked when stored, and weights sent with the request by the
-  // surface; what fails here is, say, a sum overflowing. Name the set of weights.
-  const char* field = "weights";
+  // surface; what fails here is, say, a sum overflowing, or weights stored by an older
+  // version. Name the set of weights: sent ones by their member, stored ones by name.
+  const char* field = q.holdings ? "weights" : "portfolio";
   try {
     const std::string name = q.holdings ? "" : q.portfolio;
     report.books.push_back(measure(db, w, "portfolio", name, portfolio_as_of, holdings));
     if (benchmark) {
-      field = "benchmark_weights";
+      field = q.benchmark_holdings ? "benchmark_weights" : "benchmark";
       report.books.push_back(measure(db, w, "benchmark", benchmark_name, benchmark_as_of, *benchmark));
       report.books.push_back(measure(db, w, "active", "", "", engine::active_weights(holdings, *benchmark)));
     }

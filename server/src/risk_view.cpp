@@ -276,7 +276,7 @@ std::string risk_table(const RiskReport& report, const RiskViewOptions& o) {
     }
     for (std::size_t n = 0; n < shown; ++n) {
       const engine::AssetContribution& c = r.by_asset[order[n]];
-      std::snprintf(line, sizeof line, "  %-14s %12.4g %14s %10s\n", c.asset.c_str(), c.weight,
+      std::snprintf(line, sizeof line, "  %-14s %12.4g %14s %10s\n", table_text(c.asset).c_str(), c.weight,
                     percent(annualised(w, c.volatility)).c_str(), percent(c.share, 1).c_str());
       out += line;
     }
@@ -286,8 +286,8 @@ std::string risk_table(const RiskReport& report, const RiskViewOptions& o) {
       out += line;
     }
     for (const engine::NotModelled& m : r.not_modelled) {
-      std::snprintf(line, sizeof line, "  not modelled: %s, weight %.4g: %s (carries no risk here)\n", m.asset.c_str(),
-                    m.weight, m.reason.c_str());
+      std::snprintf(line, sizeof line, "  not modelled: %s, weight %.4g: %s (carries no risk here)\n",
+                    table_text(m.asset).c_str(), m.weight, m.reason.c_str());
       out += line;
     }
   }

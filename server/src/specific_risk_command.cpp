@@ -32,13 +32,15 @@ int run_specific_risk_command(const WindowArguments& a, const GlobalArguments& g
       const std::size_t shown = a.limit > 0 ? std::min<std::size_t>(a.limit, rows.size()) : rows.size();
       for (std::size_t k = 0; k < shown; ++k) {
         const SpecificRiskRow& r = rows[k];
-        std::printf("%-14s %13.3f%% %13.2f%% %15.2f%% %13.1f%%%s\n", r.asset.c_str(), 100 * r.specific_volatility,
+        std::printf("%-14s %13.3f%% %13.2f%% %15.2f%% %13.1f%%%s\n", table_text(r.asset).c_str(),
+                    100 * r.specific_volatility,
                     100 * r.specific_volatility_annual, 100 * r.total_volatility_annual, 100 * r.specific_share,
                     r.heywood ? "  (Heywood)" : "");
       }
       if (shown < rows.size())
         std::printf("... %zu more; --limit 0 shows all, --format csv gives a spreadsheet file\n", rows.size() - shown);
-      for (const auto& m : s.missing) std::printf("%-14s not in this window: %s\n", m.asset.c_str(), m.reason.c_str());
+      for (const auto& m : s.missing)
+        std::printf("%-14s not in this window: %s\n", table_text(m.asset).c_str(), m.reason.c_str());
       print_caution(std::cout);
     }
   });

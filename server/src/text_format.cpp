@@ -4,6 +4,7 @@
 #include <cmath>
 
 #include "factorwatch/engine/caution.h"
+#include "factorwatch/storage/identifier_rule.h"
 
 namespace factorwatch::server {
 
@@ -34,6 +35,8 @@ std::string csv_number(double x) { return std::isfinite(x) ? exact_number(x) : s
 nlohmann::ordered_json json_number(double x) {
   return std::isfinite(x) ? nlohmann::ordered_json(x) : nlohmann::ordered_json();
 }
+
+std::string table_text(const std::string& text) { return storage::printable_text(text); }
 
 std::vector<std::string> split_list(const std::string& text) {
   std::vector<std::string> out;

@@ -20,6 +20,13 @@ void append_exact_number(std::string& out, double x);
 std::string csv_number(double x);
 nlohmann::ordered_json json_number(double x);
 
+// A name (an asset, a reason naming one) as a terminal table shows it: control characters,
+// NUL and invisible formatting characters escaped as \xNN or \uNNNN
+// (storage::printable_text). Names read from files follow the identifier rule and come
+// out unchanged; a name stored before the rule (an older database) cannot move the
+// cursor, recolour the terminal, or print like another. CSV and JSON keep the exact bytes.
+std::string table_text(const std::string& text);
+
 // "A, B,C" into names: comma-separated, spaces around names ignored, empty items dropped
 // (--assets on the command line, ?assets= over HTTP).
 std::vector<std::string> split_list(const std::string& text);

@@ -4,6 +4,7 @@
 #include <cmath>
 #include <system_error>
 
+#include "factorwatch/storage/identifier_rule.h"
 #include "fast_float/fast_float.h"
 #include "utf8_check.h"
 
@@ -68,24 +69,14 @@ std::string shortest(double value) {
 
 std::string quoted(std::string_view text) {
   constexpr std::size_t kShown = 40;
-  // Messages must stay valid UTF-8 (they end up in JSON): bytes of a malformed cell are
-  // shown as \xNN, and a long cell is cut at a character boundary, never inside one.
-  if (first_invalid_utf8(text)) {
-    std::string shown;
-    for (unsigned char c : text.substr(0, kShown)) {
-      if (c < 0x80) {
-        shown += static_cast<char>(c);
-      } else {
-        static constexpr char kHex[] = "0123456789ABCDEF";
-        shown += {'\\', 'x', kHex[c >> 4], kHex[c & 15]};
-      }
-    }
-    return "'" + shown + (text.size() > kShown ? "...'" : "'");
-  }
-  if (text.size() <= kShown) return "'" + std::string(text) + "'";
+  // Messages must stay valid UTF-8 (they end up in JSON) and must not move a terminal's
+  // cursor: malformed bytes and control characters are shown escaped (printable_text),
+  // and a long cell is cut at a character boundary, never inside one.
+  if (text.size() <= kShown) return "'" + printable_text(text) + "'";
   std::size_t cut = kShown;
   while (cut > 0 && (static_cast<unsigned char>(text[cut]) & 0xC0) == 0x80) --cut;
-  return "'" + std::string(text.substr(0, cut)) + "...'";
+  if (cut == 0) cut = kShown;  // malformed bytes only: printable_text escapes them anyway
+  return "'" + printable_text(text.substr(0, cut)) + "...'";
 }
 
 }  // namespace factorwatch::storage::detail

@@ -11,6 +11,7 @@
 #include "cell_parse.h"
 #include "csv_scanner.h"
 #include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/returns_csv.h"  // kLargestInputBytes
 #include "file_text.h"
 
 namespace factorwatch::storage {
@@ -94,7 +95,7 @@ engine::CovarianceInput read_covariance_csv(const std::string& path, double obse
   if (!(observations > 0) || !std::isfinite(observations))
     throw std::invalid_argument("read_covariance_csv: observations must be a positive finite number, got " +
                                 number_text(observations));
-  detail::FileText file(path);
+  detail::FileText file(path, kLargestInputBytes);
   detail::CsvScanner scanner(file.text(), path);
   scanner.skip_comments();
   std::vector<std::string_view> fields;

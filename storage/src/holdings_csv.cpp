@@ -5,7 +5,9 @@
 
 #include "cell_parse.h"
 #include "csv_scanner.h"
+#include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/portfolios.h"
 #include "holdings_file.h"
 #include "utf8_check.h"
 
@@ -39,7 +41,11 @@ void check_header(const std::vector<std::string>& names, const std::string& path
 double read_weight(std::string_view cell, const std::string& path, std::size_t line, const std::string& field) {
   double value = 0;
   const Cell kind = parse_cell(cell, value);
-  if (kind == Cell::number) return stored_weight(value);
+  if (kind == Cell::number) {
+    if (const std::string problem = weight_problem(value); !problem.empty())
+      throw InputError(path, line, field, "the weight " + detail::quoted(cell) + " " + problem);
+    return stored_weight(value);
+  }
   if (kind == Cell::gap) {
     if (cell.empty())
       throw InputError(path, line, field, "the weight is empty: every holding needs a weight (0 is allowed)");
@@ -56,9 +62,7 @@ std::string twice_problem(std::string_view asset, std::size_t first_line, std::s
 }
 
 void check_asset_name(std::string_view name, const std::string& path, std::size_t line, const std::string& field) {
-  if (name.empty()) throw InputError(path, line, field, "asset name is empty");
-  if (auto bad = first_invalid_utf8(name))
-    throw InputError(path, line, field, invalid_utf8_problem("the asset name", name, *bad));
+  check_identifier(name, path, line, field);
 }
 
 HoldingsFile read_holdings_csv(std::string_view text, const std::string& path) {

@@ -27,8 +27,8 @@ HoldingsFile read_holdings_csv(std::string_view text, const std::string& path);
 // after blanks and any byte-order mark.
 HoldingsFile read_holdings_json(std::string_view text, const std::string& path);
 
-// The rule asset names of returns files follow (returns_long.cpp, returns_wide.cpp):
-// not empty, well-formed UTF-8. Throws InputError naming `field` on `line`.
+// The rule asset names of returns files follow (identifier_rule.h). Throws InputError
+// naming `field` on `line`.
 void check_asset_name(std::string_view name, const std::string& path, std::size_t line, const std::string& field);
 
 // A weight as stored: the sign of a zero is dropped (SQLite keeps an integral REAL as an

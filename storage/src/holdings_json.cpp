@@ -17,6 +17,7 @@
 
 #include "cell_parse.h"
 #include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/portfolios.h"
 #include "holdings_file.h"
 #include "utf8_check.h"
 
@@ -308,6 +309,8 @@ class HoldingsReader {
       fail(value.line, "weight", whose + "the weight must be a number, not " + kind_name(value.kind));
     if (!std::isfinite(value.number))
       fail(value.line, "weight", whose + detail::quoted(value.text) + " is not a finite number");
+    if (const std::string problem = weight_problem(value.number); !problem.empty())
+      fail(value.line, "weight", whose + "the weight " + detail::quoted(value.text) + " " + problem);
     return stored_weight(value.number);
   }
 

@@ -11,6 +11,7 @@
 
 #include "cell_parse.h"
 #include "date_key.h"
+#include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/input_error.h"
 #include "fingerprint.h"
 
@@ -82,8 +83,8 @@ bool ModelConfig::IsValid(std::string* error) const {
                 ": must be in [0, 1] (0: no alert)");
   std::set<std::string> seen;
   for (const std::string& a : universe) {
-    if (a.empty()) return fail("universe: an asset name is empty");
-    if (!seen.insert(a).second) return fail("universe: asset '" + a + "' is listed twice");
+    if (auto problem = identifier_problem(a)) return fail("universe: the asset name " + *problem);
+    if (!seen.insert(a).second) return fail("universe: asset " + detail::quoted(a) + " is listed twice");
   }
   engine::FitOptions options = fit_options();
   if (!options.IsValid(error)) return false;
@@ -270,6 +271,7 @@ std::vector<std::string> read_universe_file(const std::string& path) {
     }
     if (name.find(',') != std::string::npos)
       throw InputError(path, number, "asset", "one asset per line, without commas");
+    check_identifier(name, path, number, "asset");
     if (!seen.insert(name).second) throw InputError(path, number, "asset", "asset " + detail::quoted(name) + " is listed twice");
     assets.push_back(std::move(name));
   }

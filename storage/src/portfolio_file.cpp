@@ -1,5 +1,6 @@
 // Reading a holdings file (CSV or JSON, told apart by the first character) and applying
 // the options: the name, and the as-of date and benchmark, which win over the file's.
+#include <cmath>
 #include <cstdio>
 #include <stdexcept>
 
@@ -7,6 +8,7 @@
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/portfolios.h"
+#include "factorwatch/storage/returns_csv.h"  // kLargestInputBytes
 #include "factorwatch/storage/timestamps.h"
 #include "file_text.h"
 #include "holdings_file.h"
@@ -29,13 +31,20 @@ std::string checked_name(const std::string& name, const char* what) {
 
 }  // namespace
 
+std::string weight_problem(double weight) {
+  if (!std::isfinite(weight)) return "is not a finite number";
+  if (std::abs(weight) <= kLargestWeight) return "";
+  return "is beyond +-1e15, the largest weight accepted: weights are fractions of the book or amounts of "
+         "money, and no real holding is that large (a unit slip?)";
+}
+
 bool is_portfolio_name(const std::string& name) {
   std::string ignored;
   return valid_model_name(name, &ignored);
 }
 
 Portfolio read_portfolio_file(const std::string& path, const PortfolioFileOptions& options) {
-  const detail::FileText file(path);
+  const detail::FileText file(path, kLargestInputBytes);
   return parse_portfolio_text(std::string(file.text()), path, options);
 }
 

@@ -12,8 +12,8 @@
 
 #include "cell_parse.h"
 #include "date_key.h"
+#include "factorwatch/storage/identifier_rule.h"
 #include "holdings_file.h"
-#include "utf8_check.h"
 
 namespace factorwatch::storage {
 namespace {
@@ -36,12 +36,12 @@ void check_storable(const Portfolio& p) {
   if (p.holdings.empty()) fail("portfolio '" + p.name + "' has no holdings");
   std::unordered_set<std::string> seen;
   for (const engine::Holding& h : p.holdings) {
-    if (h.asset.empty() || detail::first_invalid_utf8(h.asset))
-      fail("portfolio '" + p.name + "': an asset name is empty or not valid UTF-8");
+    if (auto problem = identifier_problem(h.asset))
+      fail("portfolio '" + p.name + "': the asset name " + *problem);
     if (!seen.insert(h.asset).second)
       fail("portfolio '" + p.name + "': asset " + detail::quoted(h.asset) + " appears twice");
-    if (!std::isfinite(h.weight))
-      fail("portfolio '" + p.name + "': the weight of asset " + detail::quoted(h.asset) + " is not a finite number");
+    if (const std::string problem = weight_problem(h.weight); !problem.empty())
+      fail("portfolio '" + p.name + "': the weight of asset " + detail::quoted(h.asset) + " " + problem);
   }
 }
 

@@ -1,12 +1,15 @@
 // Reads the header, decides the layout and hands over to the layout's reader.
 #include "factorwatch/storage/returns_csv.h"
 
+#include <future>
+
 #include "cell_parse.h"
 #include "csv_scanner.h"
 #include "factorwatch/storage/input_error.h"
 #include "file_text.h"
 #include "returns_layouts.h"
 #include "returns_values.h"
+#include "sha256.h"
 #include "utf8_check.h"
 
 namespace factorwatch::storage {
@@ -62,14 +65,8 @@ ReturnsFile read_layout(detail::CsvScanner& scanner, const detail::ReturnsHeader
   return file;
 }
 
-}  // namespace
-
-ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions& options) {
-  const detail::FileText file(path);
-  return read_returns_text(file.text(), path, options);
-}
-
-ReturnsFile read_returns_text(std::string_view text, const std::string& path, const ReturnsReadOptions& options) {
+ReturnsFile parse_returns_text(std::string_view text, const std::string& path, const ReturnsReadOptions& options) {
+  detail::check_no_nul(text, path);  // a file was checked as read; an upload is checked here
   constexpr std::string_view kBom = "\xEF\xBB\xBF";
   if (text.substr(0, kBom.size()) == kBom) text.remove_prefix(kBom.size());
   detail::CsvScanner scanner(text, path);
@@ -91,6 +88,23 @@ ReturnsFile read_returns_text(std::string_view text, const std::string& path, co
   ReturnsFile result = read_layout(scanner, header, rules);
   const auto& values = result.panel.values;
   result.values_present = static_cast<std::size_t>(values.size() - values.array().isNaN().count());
+  return result;
+}
+
+}  // namespace
+
+ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions& options) {
+  const detail::FileText file(path, options.max_input_bytes);
+  return read_returns_text(file.bytes(), path, options);
+}
+
+ReturnsFile read_returns_text(std::string_view text, const std::string& path, const ReturnsReadOptions& options) {
+  // The content hash on the other core while this one parses, from the same bytes in
+  // memory (never by reading the path again: see file_text.h). A rejected file waits for
+  // the hash in the future's destructor; hashing memory takes a fraction of parsing.
+  auto hash = std::async(std::launch::async, [text] { return detail::sha256_hex(text); });
+  ReturnsFile result = parse_returns_text(text, path, options);
+  result.content_sha256 = hash.get();
   return result;
 }
 

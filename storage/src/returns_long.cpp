@@ -4,9 +4,9 @@
 #include <unordered_map>
 
 #include "cell_parse.h"
+#include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/input_error.h"
 #include "returns_layouts.h"
-#include "utf8_check.h"
 
 namespace factorwatch::storage::detail {
 namespace {
@@ -106,18 +106,15 @@ ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, 
       date = found->second;
     }
 
+    // A name is checked (identifier_rule.h) when first seen; later rows match a checked one.
     const std::string_view asset_text = fields[asset_col];
-    if (asset_text.empty())
-      throw InputError(header.path, line, header.names[asset_col], "asset name is empty");
     const std::size_t next = static_cast<std::size_t>(asset) + 1;
     if (next < assets.size() && assets[next] == asset_text) {
       asset = static_cast<std::int32_t>(next);
     } else if (assets.empty() || assets[static_cast<std::size_t>(asset)] != asset_text) {
       auto found = asset_index.find(asset_text);
       if (found == asset_index.end()) {
-        if (auto bad = first_invalid_utf8(asset_text))
-          throw InputError(header.path, line, header.names[asset_col],
-                           invalid_utf8_problem("the asset name", asset_text, *bad));
+        check_identifier(asset_text, header.path, line, header.names[asset_col]);
         assets.emplace_back(asset_text);
         found = asset_index.emplace(asset_text, static_cast<std::int32_t>(assets.size() - 1)).first;
       }

@@ -3,6 +3,7 @@
 #include <unordered_map>
 
 #include "cell_parse.h"
+#include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/input_error.h"
 #include "returns_layouts.h"
 
@@ -15,9 +16,8 @@ void check_asset_names(const ReturnsHeader& header) {
   std::unordered_map<std::string_view, std::size_t> seen;
   for (std::size_t j = 1; j < header.names.size(); ++j) {
     const std::string& name = header.names[j];
-    if (name.empty())
-      throw InputError(header.path, header.line, "column " + std::to_string(j + 1),
-                       "asset name is empty");
+    // Named by position: the name itself may be empty or unprintable.
+    check_identifier(name, header.path, header.line, "column " + std::to_string(j + 1));
     auto [at, fresh] = seen.emplace(name, j);
     if (!fresh)
       throw InputError(header.path, header.line, name,

@@ -39,6 +39,19 @@ struct PortfolioFileOptions {
   std::string benchmark;   // "" = the file's benchmark (JSON), else none
 };
 
+// The largest weight accepted, in absolute value: 1e15. Weights are fractions of the
+// book's value or amounts of money (risk scales with them, docs/api.md), so the bound must
+// let a holding of any real size through in any currency: the largest single holdings are
+// a few times 1e10 US dollars, about 1e14 in the currencies with the smallest units. Above
+// 1e15 a weight is an input error (a unit slip, 1e308 typed for a test), and below it the
+// risk figures cannot overflow: a variance is at most (sum of |w|)^2 times the largest
+// return variance, far inside the range of a double even for a million holdings.
+inline constexpr double kLargestWeight = 1e15;
+
+// The problem with a weight, as words to follow "the weight" ("is not a finite number",
+// "is beyond +-1e15, ..."), or "" when it is usable (finite, |w| <= kLargestWeight).
+std::string weight_problem(double weight);
+
 // True when `name` can name a portfolio (the same rule as model names).
 bool is_portfolio_name(const std::string& name);
 

@@ -57,6 +57,12 @@
 //   - the +1000 % limit applies to the price ratio (for log returns too: a price 11
 //     times the previous one is as implausible either way), naming the later price's line;
 //     the percent rule does not apply.
+// The file as a whole (file_text.h):
+//   - it is read exactly once, also from a pipe or /dev/stdin, and its content hash
+//     (ReturnsFile::content_sha256) is computed from those same bytes;
+//   - a NUL byte anywhere is refused, naming its line: CSV text never holds one (a binary
+//     file, or a file saved as UTF-16, does);
+//   - it may be at most ReturnsReadOptions::max_input_bytes long (kLargestInputBytes).
 // Errors throw InputError naming file, line and column.
 #pragma once
 
@@ -79,11 +85,19 @@ inline constexpr double kLargestReturn = 10.0;
 inline constexpr double kPercentMedianLimit = 0.25;
 inline constexpr std::size_t kPercentCheckMinValues = 100;
 
+// The largest input file read by default: 2 GiB. The widest panel we plan for, 20,000
+// assets x 2,500 dates, is about 0.55 GB as a wide CSV and about 1.6 GB in the long layout
+// (about 30 bytes a row), so real files fit with room; an endless stream (/dev/zero, a
+// pipe that never closes) is refused at this size rather than eating the machine's memory.
+// `factorwatch load --max-input-mb` sets another limit.
+inline constexpr std::size_t kLargestInputBytes = std::size_t{2048} << 20;
+
 // What the numbers in the file are.
 enum class ValuesInFile { returns, prices_to_simple_returns, prices_to_log_returns };
 
 struct ReturnsReadOptions {
   ValuesInFile values = ValuesInFile::returns;
+  std::size_t max_input_bytes = kLargestInputBytes;  // read_returns_file only
 };
 
 struct ReturnsFile {
@@ -91,6 +105,9 @@ struct ReturnsFile {
   std::string layout;              // "long" or "wide"
   std::size_t data_rows = 0;       // data records read after the header
   std::size_t values_present = 0;  // non-missing returns in the panel
+  // SHA-256 (hex) of every byte read, a byte-order mark included: what `sha256sum FILE`
+  // prints for the file (for text in memory, of that text). Computed from the one read.
+  std::string content_sha256;
 };
 
 ReturnsFile read_returns_file(const std::string& path, const ReturnsReadOptions& options);
