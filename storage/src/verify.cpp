@@ -84,7 +84,10 @@ VerifyReport verify_database(Database& db) {
       try {
         detail::decode_cross_section(date, q.getColumn(1), q.getColumn(2), q.getColumn(3), row);
       } catch (const std::exception& e) {
-        report.problems.push_back({"returns", "date " + detail::iso_date(date), e.what()});
+        // The reader's advice ("... or run factorwatch verify") is for other commands.
+        std::string what = e.what();
+        what = what.substr(0, what.find("; restore the database"));
+        report.problems.push_back({"returns", "date " + detail::iso_date(date), what});
       }
     }
   }
