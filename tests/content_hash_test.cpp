@@ -82,7 +82,7 @@ TEST(BlobCodec, RoundTripsExactlyWithShape) {
   Eigen::MatrixXd m(3, 2);
   m << 1.5, -2.25, 1e-300, 3.0, -0.0, 0.1;
   const std::string blob = encode_doubles(m);
-  EXPECT_EQ(blob.size(), 8u + 6 * 8);
+  EXPECT_EQ(blob.size(), 8u + 6 * 8 + 8);  // shape, values, checksum (schema 7)
   const Eigen::MatrixXd back = decode_matrix(blob.data(), blob.size(), "m");
   ASSERT_EQ(back.rows(), 3);
   ASSERT_EQ(back.cols(), 2);

@@ -565,6 +565,9 @@ long long as_integer(const std::string& typed) { return std::stoll(typed.substr(
 
 // Checks a blob in the doubles layout of storage/src/blob_codec.h (u32 rows, u32 cols,
 // then rows * cols float64) against the expected shape; cols < 0 / rows < 0 = any.
+// Every blob ends in its checksum since schema 7 (blob_codec.h).
+constexpr std::size_t kChecksumBytes = 8;
+
 ::testing::AssertionResult doubles_blob(const WindowRow& row, const std::string& column, long long rows,
                                         long long cols) {
   const std::string& typed = row.at(column);
@@ -575,7 +578,7 @@ long long as_integer(const std::string& typed) { return std::stoll(typed.substr(
   if ((rows >= 0 && r != rows) || (cols >= 0 && c != cols))
     return ::testing::AssertionFailure() << column << " is " << r << " x " << c << ", expected " << rows << " x "
                                          << cols;
-  if (b.size() != 8 + 8 * std::size_t{r} * c)
+  if (b.size() != 8 + 8 * std::size_t{r} * c + kChecksumBytes)
     return ::testing::AssertionFailure() << column << ": " << b.size() << " bytes for " << r << " x " << c;
   return ::testing::AssertionSuccess();
 }
@@ -588,8 +591,8 @@ void expect_whole_window(const WindowRow& row) {
   SCOPED_TRACE("window as of " + as_of.substr(1));
   EXPECT_EQ(k, kFactors);
   EXPECT_GT(n, 0);
-  EXPECT_EQ(row.at("assets").size(), 1 + 4 * static_cast<std::size_t>(n));  // int32 ids
-  EXPECT_EQ(row.at("heywood").size(), 1 + static_cast<std::size_t>(n));     // one byte each
+  EXPECT_EQ(row.at("assets").size(), 1 + 4 * static_cast<std::size_t>(n) + kChecksumBytes);  // int32 ids
+  EXPECT_EQ(row.at("heywood").size(), 1 + static_cast<std::size_t>(n) + kChecksumBytes);     // one byte each
   EXPECT_TRUE(doubles_blob(row, "loadings", n, k));
   for (const char* vector : {"mean", "scale", "specific_variance", "communality", "uniqueness"})
     EXPECT_TRUE(doubles_blob(row, vector, n, 1));

@@ -81,13 +81,15 @@ TEST(StorageSchema, PortfolioRowsCascade) {
   EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM holdings").getInt(), 0);
 }
 
-// Every earlier version, including an empty file (version 0), migrates to the current
+// Every earlier version, including a file with no tables (version 0), migrates to the current
 // one on open and keeps its rows.
 TEST(StorageSchema, MigratesFromEveryEarlierVersion) {
   for (int from = 0; from < current_schema_version(); ++from) {
     TempDir dir;
     {
       SQLite::Database sql(dir.database(), SQLite::OPEN_READWRITE | SQLite::OPEN_CREATE);
+      // Version 0: an SQLite file with no tables (a 0-byte file is refused as truncated).
+      if (from == 0) sql.exec("CREATE TABLE t (x); DROP TABLE t");
       if (from > 0) detail::migrate_to(sql, from);
       fill(sql, from);
       ASSERT_EQ(detail::user_version(sql), from);
@@ -116,6 +118,11 @@ TEST(StorageSchema, MigratesFromEveryEarlierVersion) {
     EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM holdings").getInt(), from >= 6 ? 2 : 0);
     if (from >= 1) {
       EXPECT_EQ(sql.execAndGet("SELECT name FROM assets WHERE id = 1").getString(), "ZQ-0001");
+    }
+    // Schema 7: every returns row and matrix blob carries its checksum (8 bytes appended).
+    EXPECT_EQ(sql.execAndGet("SELECT count(*) FROM returns WHERE checksum IS NULL").getInt(), 0) << "from " << from;
+    if (from >= 2) {
+      EXPECT_EQ(sql.execAndGet("SELECT length(loadings) FROM windows").getInt(), 8) << "from " << from;
     }
   }
 }

@@ -39,23 +39,66 @@ std::string new_token() {
   return token;
 }
 
-// Writes `token` to a new owner-only file; false when the file already exists.
-bool write_new_file(const std::string& path, const std::string& token, bool exclusive) {
-  const int fd = ::open(path.c_str(), O_WRONLY | O_CREAT | O_CLOEXEC | (exclusive ? O_EXCL : O_TRUNC), 0600);
-  if (fd < 0) {
-    if (exclusive && errno == EEXIST) return false;
+// Writes `token` to a new owner-only file beside `path` and returns its name. The name
+// is new (random) and opened with O_EXCL | O_NOFOLLOW, so a file or symbolic link planted
+// in the data directory is never written through. On any failure (a full disk, a
+// failing fsync) the file is removed, so no empty or partial token file is left.
+std::string write_temporary(const std::string& path, const std::string& token) {
+  const std::string temporary = path + ".new-" + new_token().substr(0, 16);
+  const int fd = ::open(temporary.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_NOFOLLOW | O_CLOEXEC, 0600);
+  if (fd < 0) fail(temporary, "cannot create");
+  const std::string line = token + "\n";
+  errno = 0;
+  bool ok = ::fchmod(fd, 0600) == 0 &&
+            ::write(fd, line.data(), line.size()) == static_cast<ssize_t>(line.size()) && ::fsync(fd) == 0;
+  int error = errno;
+  if (::close(fd) != 0 && ok) ok = false, error = errno;
+  if (!ok) {
+    ::unlink(temporary.c_str());
+    errno = error != 0 ? error : ENOSPC;  // a short write sets no errno: the disk is full
+    fail(path, "cannot write");
+  }
+  return temporary;
+}
+
+// So that a new name survives a power cut once it is used (rename and link are
+// directory changes).
+void sync_directory(const std::string& path) {
+  const auto slash = path.rfind('/');
+  const std::string dir = slash == std::string::npos ? "." : (slash == 0 ? "/" : path.substr(0, slash));
+  const int fd = ::open(dir.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+  if (fd < 0) return;
+  ::fsync(fd);
+  ::close(fd);
+}
+
+// Writes a token file whole or not at all; false when `path` already exists (first start
+// of two processes at once: the other one's token stands).
+bool write_new_file(const std::string& path, const std::string& token) {
+  const std::string temporary = write_temporary(path, token);
+  const bool linked = ::link(temporary.c_str(), path.c_str()) == 0;
+  const int error = errno;
+  ::unlink(temporary.c_str());
+  if (!linked) {
+    if (error == EEXIST) return false;
+    errno = error;
     fail(path, "cannot create");
   }
-  const std::string line = token + "\n";
-  const bool ok = ::write(fd, line.data(), line.size()) == static_cast<ssize_t>(line.size()) && ::fsync(fd) == 0;
-  ::close(fd);
-  if (!ok) fail(path, "cannot write");
+  sync_directory(path);
   return true;
 }
 
 std::string read_token(const std::string& path) {
-  std::FILE* f = std::fopen(path.c_str(), "re");
-  if (!f) fail(path, "cannot read");
+  // Not through a symbolic link: one planted in the data directory would make the daemon
+  // accept a token of someone else's choosing.
+  const int fd = ::open(path.c_str(), O_RDONLY | O_NOFOLLOW | O_CLOEXEC);
+  if (fd < 0 && errno == ELOOP)
+    throw std::runtime_error(path + ": is a symbolic link, refused; replace it with: factorwatch token --renew");
+  std::FILE* f = fd < 0 ? nullptr : ::fdopen(fd, "r");
+  if (!f) {
+    if (fd >= 0) ::close(fd);
+    fail(path, "cannot read");
+  }
   char text[256] = {};
   const std::size_t n = std::fread(text, 1, sizeof text - 1, f);
   std::fclose(f);
@@ -70,7 +113,8 @@ std::string read_token(const std::string& path) {
 std::string token_path(const std::string& data_dir) { return data_dir + "/" + kTokenFileName; }
 
 std::string ensure_token(const std::string& path) {
-  write_new_file(path, new_token(), true);  // no-op when it exists
+  struct stat existing {};
+  if (::lstat(path.c_str(), &existing) != 0) write_new_file(path, new_token());  // no-op when it appears meanwhile
   struct stat info {};
   if (::stat(path.c_str(), &info) == 0 && (info.st_mode & 077) != 0)
     std::fprintf(stderr, "warning: %s can be read by other users; chmod 600 it or renew the token\n", path.c_str());
@@ -79,9 +123,14 @@ std::string ensure_token(const std::string& path) {
 
 std::string renew_token(const std::string& path) {
   const std::string token = new_token();
-  const std::string temporary = path + ".new";
-  write_new_file(temporary, token, false);
-  if (::rename(temporary.c_str(), path.c_str()) != 0) fail(path, "cannot replace");
+  const std::string temporary = write_temporary(path, token);
+  if (::rename(temporary.c_str(), path.c_str()) != 0) {
+    const int error = errno;
+    ::unlink(temporary.c_str());
+    errno = error;
+    fail(path, "cannot replace");
+  }
+  sync_directory(path);
   return token;
 }
 

@@ -16,10 +16,14 @@ inline constexpr const char* kTokenFileName = "access-token";
 std::string token_path(const std::string& data_dir);
 
 // Reads the token, creating the file first when it does not exist. Throws
-// std::runtime_error naming the file when it cannot be read or written, or holds no token.
+// std::runtime_error naming the file when it cannot be read or written, holds no token,
+// or is a symbolic link. The file is written whole under a new name (O_EXCL, O_NOFOLLOW,
+// 0600, fsync) and then linked into place, so a failed write (a full disk) leaves no
+// token file and the next start makes one.
 std::string ensure_token(const std::string& path);
 
-// Replaces the token with a new one (atomically: a new file renamed over the old).
+// Replaces the token with a new one (atomically: a new file, written as above, renamed
+// over the old).
 std::string renew_token(const std::string& path);
 
 // Compares in time that does not depend on where the two differ.

@@ -20,6 +20,7 @@
 #include "serve_command.h"
 #include "specific_risk_command.h"
 #include "token_command.h"
+#include "verify_command.h"
 #include "windows_command.h"
 
 int main(int argc, char** argv) {
@@ -67,6 +68,8 @@ int main(int argc, char** argv) {
   CLI::App* fit = add_fit_command(app, fit_arguments);
   CLI::App* serve = add_serve_command(app, serve_options);
   CLI::App* token = add_token_command(app, token_arguments);
+  VerifyArguments verify_arguments;
+  CLI::App* verify = add_verify_command(app, verify_arguments);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -89,5 +92,6 @@ int main(int argc, char** argv) {
   if (fit->parsed()) return run_fit_command(fit_arguments);
   if (serve->parsed()) return run_serve_command(serve_options, global);
   if (token->parsed()) return run_token_command(token_arguments, global);
+  if (verify->parsed()) return run_verify_command(verify_arguments, global);
   return kExitBadInput;
 }

@@ -1,7 +1,9 @@
 #include "blob_codec.h"
 
 #include <cstring>
-#include <stdexcept>
+
+#include "factorwatch/storage/damaged_data.h"
+#include "fingerprint.h"
 
 namespace factorwatch::storage::detail {
 namespace {
@@ -43,8 +45,8 @@ void read_words(const void* data, std::size_t n, T* out) {
 }
 
 [[noreturn]] void damaged(const char* column, std::size_t bytes, const std::string& expected) {
-  throw std::runtime_error(std::string("damaged value in column '") + column + "': " + std::to_string(bytes) +
-                           " bytes, expected " + expected);
+  throw DamagedData(std::string("damaged value in column '") + column + "': " + std::to_string(bytes) +
+                    " bytes, expected " + expected);
 }
 
 std::string encode_shape(Eigen::Index rows, Eigen::Index cols, const double* values) {
@@ -52,20 +54,45 @@ std::string encode_shape(Eigen::Index rows, Eigen::Index cols, const double* val
   const std::uint32_t shape[2] = {static_cast<std::uint32_t>(rows), static_cast<std::uint32_t>(cols)};
   append_words(out, shape, 2);
   append_words(out, values, static_cast<std::size_t>(rows * cols));
+  seal_blob(out);
   return out;
 }
 
 }  // namespace
 
+std::uint64_t blob_checksum(const void* data, std::size_t bytes) {
+  Fingerprint f;
+  f.add(data, bytes);
+  return f.value();
+}
+
+void seal_blob(std::string& payload) {
+  const std::uint64_t sum = blob_checksum(payload.data(), payload.size());
+  append_words(payload, &sum, 1);
+}
+
+std::size_t sealed_payload(const void* data, std::size_t bytes, const char* column) {
+  if (bytes < 8 || !data) damaged(column, bytes, "at least the 8 bytes of its checksum");
+  const std::size_t payload = bytes - 8;
+  std::uint64_t stored;
+  read_words(static_cast<const unsigned char*>(data) + payload, 1, &stored);
+  if (stored != blob_checksum(data, payload))
+    throw DamagedData(std::string("damaged value in column '") + column +
+                      "': its checksum does not match (the stored bytes changed after they were written)");
+  return payload;
+}
+
 std::string encode_doubles(const Eigen::MatrixXd& m) { return encode_shape(m.rows(), m.cols(), m.data()); }
 std::string encode_doubles(const Eigen::VectorXd& v) { return encode_shape(v.size(), 1, v.data()); }
 
-Eigen::MatrixXd decode_matrix(const void* data, std::size_t bytes, const char* column) {
+Eigen::MatrixXd decode_matrix(const void* data, std::size_t sealed_bytes, const char* column) {
+  const std::size_t bytes = sealed_payload(data, sealed_bytes, column);
   if (bytes < 8) damaged(column, bytes, "at least 8");
   std::uint32_t shape[2];
   read_words(data, 2, shape);
   const std::size_t count = std::size_t{shape[0]} * shape[1];
-  if (bytes != 8 + 8 * count) damaged(column, bytes, std::to_string(8 + 8 * count));
+  // The first test keeps 8 + 8 * count from wrapping for a damaged shape.
+  if (count > (bytes - 8) / 8 || bytes != 8 + 8 * count) damaged(column, bytes, std::to_string(8 + 8 * count));
   Eigen::MatrixXd m(shape[0], shape[1]);
   read_words(static_cast<const unsigned char*>(data) + 8, count, m.data());
   return m;
@@ -80,10 +107,12 @@ Eigen::VectorXd decode_vector(const void* data, std::size_t bytes, const char* c
 std::string encode_int32s(const std::vector<std::int32_t>& values) {
   std::string out;
   append_words(out, values.data(), values.size());
+  seal_blob(out);
   return out;
 }
 
-std::vector<std::int32_t> decode_int32s(const void* data, std::size_t bytes, const char* column) {
+std::vector<std::int32_t> decode_int32s(const void* data, std::size_t sealed_bytes, const char* column) {
+  const std::size_t bytes = sealed_payload(data, sealed_bytes, column);
   if (bytes % 4 != 0) damaged(column, bytes, "a multiple of 4");
   std::vector<std::int32_t> values(bytes / 4);
   read_words(data, values.size(), values.data());
@@ -93,10 +122,12 @@ std::vector<std::int32_t> decode_int32s(const void* data, std::size_t bytes, con
 std::string encode_flags(const std::vector<bool>& flags) {
   std::string out(flags.size(), '\0');
   for (std::size_t i = 0; i < flags.size(); ++i) out[i] = flags[i] ? 1 : 0;
+  seal_blob(out);
   return out;
 }
 
-std::vector<bool> decode_flags(const void* data, std::size_t bytes, const char*) {
+std::vector<bool> decode_flags(const void* data, std::size_t sealed_bytes, const char* column) {
+  const std::size_t bytes = sealed_payload(data, sealed_bytes, column);
   const unsigned char* b = static_cast<const unsigned char*>(data);
   std::vector<bool> flags(bytes);
   for (std::size_t i = 0; i < bytes; ++i) flags[i] = b[i] != 0;

@@ -9,6 +9,7 @@
 
 #include "asset_directory.h"
 #include "blob_codec.h"
+#include "damage_context.h"
 #include "date_key.h"
 #include "factorwatch/storage/windows.h"
 #include "window_comparison.h"
@@ -75,10 +76,14 @@ std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const s
     r.against_as_of = detail::iso_date(q.getColumn(2).getInt());
     r.status = q.getColumn(3).getString();
     r.shared = q.getColumn(4).getInt64();
-    r.congruence = vector_column(q, 5, "congruence");
-    r.principal_angles_degrees = vector_column(q, 6, "principal_angles");
-    r.factor_variance_change = vector_column(q, 7, "factor_variance_change");
-    r.explained_share_change = vector_column(q, 8, "explained_share_change");
+    try {
+      r.congruence = vector_column(q, 5, "congruence");
+      r.principal_angles_degrees = vector_column(q, 6, "principal_angles");
+      r.factor_variance_change = vector_column(q, 7, "factor_variance_change");
+      r.explained_share_change = vector_column(q, 8, "explained_share_change");
+    } catch (const DamagedData& e) {
+      detail::rethrow_for_window(db, model_version_id, q.getColumn(0).getInt(), "window_drift", e);
+    }
     r.mean_exposure_change = q.getColumn(9).getDouble();
     r.communality_change = q.getColumn(10).getDouble();
     for (const auto& factor : nlohmann::json::parse(q.getColumn(11).getString())) r.movers.push_back(parse_moves(factor));
@@ -134,22 +139,31 @@ std::vector<ExposurePoint> read_exposure_history(Database& db, long model_versio
     ExposurePoint p;
     p.as_of = detail::iso_date(q.getColumn(0).getInt());
     p.alignment = q.getColumn(9).isNull() ? "not aligned yet" : q.getColumn(9).getString();
-    const SQLite::Column ids = q.getColumn(2);
-    const std::vector<std::int32_t> assets =
-        detail::decode_int32s(ids.getBlob(), static_cast<std::size_t>(ids.getBytes()), "assets");
-    std::size_t row = assets.size();
-    for (std::size_t i = 0; i < assets.size() && id >= 0; ++i)
-      if (assets[i] == id) row = i;
-    if (row < assets.size() && q.getColumn(1).getInt() != 0) {
-      const Eigen::MatrixXd loadings = matrix_column(q, 3, "loadings");
-      Eigen::RowVectorXd exposures = loadings.row(static_cast<Eigen::Index>(row));
-      // The served basis: rotation T, then alignment R (orthogonal, or a change of basis).
-      if (!q.getColumn(7).isNull()) exposures = exposures * matrix_column(q, 7, "rotation");
-      if (!q.getColumn(8).isNull()) exposures = exposures * matrix_column(q, 8, "alignment");
-      p.present = true;
-      p.exposures = exposures.transpose();
-      p.specific_variance = vector_column(q, 4, "specific_variance")(static_cast<Eigen::Index>(row));
-      p.communality = vector_column(q, 5, "communality")(static_cast<Eigen::Index>(row));
+    try {
+      const SQLite::Column ids = q.getColumn(2);
+      const std::vector<std::int32_t> assets =
+          detail::decode_int32s(ids.getBlob(), static_cast<std::size_t>(ids.getBytes()), "assets");
+      std::size_t row = assets.size();
+      for (std::size_t i = 0; i < assets.size() && id >= 0; ++i)
+        if (assets[i] == id) row = i;
+      if (row < assets.size() && q.getColumn(1).getInt() != 0) {
+        const auto r = static_cast<Eigen::Index>(row);
+        const Eigen::MatrixXd loadings = matrix_column(q, 3, "loadings");
+        const Eigen::VectorXd specific = vector_column(q, 4, "specific_variance");
+        const Eigen::VectorXd communality = vector_column(q, 5, "communality");
+        if (loadings.rows() != static_cast<Eigen::Index>(assets.size()) || specific.size() <= r || communality.size() <= r)
+          throw DamagedData("the asset list and the loadings disagree in length");
+        Eigen::RowVectorXd exposures = loadings.row(r);
+        // The served basis: rotation T, then alignment R (orthogonal, or a change of basis).
+        if (!q.getColumn(7).isNull()) exposures = exposures * matrix_column(q, 7, "rotation");
+        if (!q.getColumn(8).isNull()) exposures = exposures * matrix_column(q, 8, "alignment");
+        p.present = true;
+        p.exposures = exposures.transpose();
+        p.specific_variance = specific(r);
+        p.communality = communality(r);
+      }
+    } catch (const DamagedData& e) {
+      detail::rethrow_for_window(db, model_version_id, q.getColumn(0).getInt(), "windows", e);
     }
     out.push_back(std::move(p));
   }

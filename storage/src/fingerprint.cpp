@@ -38,10 +38,15 @@ void Fingerprint::add(const std::string& text) {
 
 void Fingerprint::add(std::int64_t value) { add(&value, sizeof value); }
 
-std::string Fingerprint::hex() const {
-  static const char digits[] = "0123456789abcdef";
+std::uint64_t Fingerprint::value() const {
   std::uint64_t h = count_;
   for (std::uint64_t lane : lanes_) h = mix(h ^ lane);
+  return h;
+}
+
+std::string Fingerprint::hex() const {
+  static const char digits[] = "0123456789abcdef";
+  const std::uint64_t h = value();
   std::string out(16, '0');
   for (int i = 0; i < 16; ++i) out[15 - i] = digits[(h >> (4 * i)) & 15];
   return out;

@@ -19,7 +19,8 @@ class Fingerprint {
   void add(const void* data, std::size_t bytes);
   void add(const std::string& text);
   void add(std::int64_t value);
-  std::string hex() const;  // 16 hex digits
+  std::uint64_t value() const;  // the 64-bit result
+  std::string hex() const;      // value() as 16 hex digits
 
  private:
   std::uint64_t lanes_[4] = {0x6a09e667f3bcc908ull, 0xbb67ae8584caa73bull, 0x3c6ef372fe94f82bull,

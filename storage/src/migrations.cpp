@@ -4,8 +4,84 @@
 
 #include <stdexcept>
 #include <string>
+#include <utility>
+
+#include "blob_codec.h"
+#include "returns_rows.h"
 
 namespace factorwatch::storage::detail {
+namespace {
+
+// Schema 7: the checksum of every existing returns row.
+void checksum_returns(SQLite::Database& db) {
+  SQLite::Statement read(db, "SELECT date, asset_ids, returns FROM returns");
+  SQLite::Statement write(db, "UPDATE returns SET checksum = ? WHERE date = ?");
+  std::vector<std::pair<std::int32_t, std::int64_t>> sums;
+  while (read.executeStep()) {
+    const SQLite::Column ids = read.getColumn(1), values = read.getColumn(2);
+    const void* id_data = ids.getBlob();
+    const auto id_bytes = static_cast<std::size_t>(ids.getBytes());
+    const void* value_data = values.getBlob();
+    const auto value_bytes = static_cast<std::size_t>(values.getBytes());
+    const std::int32_t date = read.getColumn(0).getInt();
+    sums.emplace_back(date, row_checksum(date, id_data, id_bytes, value_data, value_bytes));
+  }
+  for (const auto& [date, sum] : sums) {
+    write.bind(1, sum);
+    write.bind(2, date);
+    write.exec();
+    write.reset();
+  }
+}
+
+// Schema 7: seals every matrix blob of `table` with its checksum (blob_codec.h), a row at
+// a time (a window's blobs are megabytes; never all in memory at once).
+void seal_columns(SQLite::Database& db, const char* table, const std::vector<const char*>& columns) {
+  std::vector<std::int64_t> rows;
+  {
+    SQLite::Statement q(db, std::string("SELECT rowid FROM ") + table);
+    while (q.executeStep()) rows.push_back(q.getColumn(0).getInt64());
+  }
+  std::string list, assignments;
+  for (const char* c : columns) {
+    list += (list.empty() ? "" : ", ") + std::string(c);
+    assignments += (assignments.empty() ? "" : ", ") + std::string(c) + " = ?";
+  }
+  SQLite::Statement read(db, "SELECT " + list + " FROM " + table + " WHERE rowid = ?");
+  SQLite::Statement write(db, "UPDATE " + std::string(table) + " SET " + assignments + " WHERE rowid = ?");
+  const int n = static_cast<int>(columns.size());
+  for (std::int64_t row : rows) {
+    read.bind(1, row);
+    if (!read.executeStep()) continue;
+    for (int c = 0; c < n; ++c) {
+      const SQLite::Column column = read.getColumn(c);
+      if (column.isNull()) {
+        write.bind(c + 1);  // an absent rotation stays absent
+        continue;
+      }
+      const char* data = static_cast<const char*>(column.getBlob());
+      std::string sealed(data, data + column.getBytes());
+      seal_blob(sealed);
+      write.bind(c + 1, sealed.data(), static_cast<int>(sealed.size()));
+    }
+    read.reset();
+    write.bind(n + 1, row);
+    write.exec();
+    write.reset();
+  }
+}
+
+void checksum_everything(SQLite::Database& db) {
+  checksum_returns(db);
+  seal_columns(db, "windows",
+               {"assets", "mean", "scale", "loadings", "specific_variance", "communality", "uniqueness", "heywood",
+                "factor_covariance", "eigenvalues", "explained_share", "rotation"});
+  seal_columns(db, "window_alignments", {"alignment", "factor_fit"});
+  seal_columns(db, "window_drift",
+               {"congruence", "principal_angles", "factor_variance_change", "explained_share_change"});
+}
+
+}  // namespace
 
 // Dates are INTEGER yyyymmdd (they sort as dates and take 4 bytes). Vectors and
 // matrices are BLOBs in the layout of blob_codec.h.
@@ -176,6 +252,16 @@ CREATE TABLE holdings (
   UNIQUE (set_id, asset)
 ) WITHOUT ROWID;
 )sql"},
+      // Checksums, so that a damaged row is reported instead of crashing a reader or being
+      // served as a wrong number (PRAGMA integrity_check sees only SQLite's own structure,
+      // not a flipped bit inside a value). Every matrix blob ends in the 8-byte checksum of
+      // its bytes (blob_codec.h); a returns row has one checksum of its date and its two
+      // blobs, in a column of its own that an index covers, so that a refresh can tell
+      // cheaply whether a window's rows changed after it read them (refresh.h).
+      {7, "checksums of returns rows and matrix blobs", R"sql(
+ALTER TABLE returns ADD COLUMN checksum INTEGER;  -- row_checksum (returns_rows.h); NULL = damaged
+CREATE INDEX returns_checksums ON returns (date, checksum);
+)sql", checksum_everything},
   };
   return steps;
 }
@@ -200,6 +286,7 @@ void migrate_to(SQLite::Database& db, int target) {
   for (const Migration& m : migrations()) {
     if (m.version <= locked_version || m.version > target) continue;
     db.exec(m.sql);
+    if (m.backfill) m.backfill(db);
     db.exec("PRAGMA user_version = " + std::to_string(m.version));
   }
   db.exec("PRAGMA application_id = " + std::to_string(kApplicationId));

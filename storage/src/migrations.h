@@ -18,6 +18,8 @@ struct Migration {
   int version;          // reached after this step
   const char* purpose;  // one line, for the log and the docs
   const char* sql;      // one or more statements
+  // Run after `sql` in the same transaction, for what SQL cannot compute (checksums).
+  void (*backfill)(SQLite::Database&) = nullptr;
 };
 
 const std::vector<Migration>& migrations();

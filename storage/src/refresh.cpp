@@ -13,6 +13,7 @@
 #include "date_key.h"
 #include "factorwatch/engine/rotation.h"
 #include "factorwatch/storage/windows.h"
+#include "refresh_hooks.h"
 #include "returns_span.h"
 
 namespace factorwatch::storage {
@@ -87,39 +88,66 @@ std::vector<std::string> pending_windows(Database& db, const ModelVersion& model
 
 namespace {
 
+// A load may insert dates inside the range a refresh is fitting (a late file): the plan's
+// grid no longer matches the stored dates, and the refresh plans again from them. A
+// bound on how often, so that a stream of such loads cannot keep a refresh from ending
+// (the windows written so far are kept; the next refresh carries on).
+constexpr int kMaxReplans = 3;
+
+enum class Pass { done, replan };
+
 // The first pass: fit the pending windows (see refresh.h).
+Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& progress, const std::atomic<bool>* stop,
+                 Clock::time_point start, detail::FittedWindows& fitted, RefreshSummary& summary);
+
 RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshCallback& progress,
                            const std::atomic<bool>* stop, Clock::time_point start, detail::FittedWindows& fitted) {
   const std::optional<ModelVersion> model = find_model(db, name);
   if (!model) throw std::invalid_argument("no model named '" + name + "' (define it with: factorwatch model set " + name + ")");
-  const ModelConfig& config = model->config;
   RefreshSummary summary;
   summary.model = model->name;
   summary.version = model->version;
+  for (int replans = 0; fit_pending(db, *model, progress, stop, start, fitted, summary) == Pass::replan; ++replans) {
+    if (replans == kMaxReplans) {
+      summary.note = "the stored dates kept changing during the refresh (loads of earlier dates); " +
+                     std::to_string(summary.fitted) + " windows written; the next refresh carries on";
+      break;
+    }
+  }
+  if (summary.changed_during > 0 && summary.note.empty())
+    summary.note = std::to_string(summary.changed_during) +
+                   " windows were fitted on returns a load changed during this run: stored stale; the next refresh "
+                   "refits them";
+  summary.seconds = since(start);
+  return summary;
+}
 
+Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& progress, const std::atomic<bool>* stop,
+                 Clock::time_point start, detail::FittedWindows& fitted, RefreshSummary& summary) {
+  const ModelVersion* model = &m;
+  const ModelConfig& config = model->config;
   const Plan plan = make_plan(db, *model);
   const std::vector<std::int32_t>& dates = plan.dates;
   if (dates.size() < static_cast<std::size_t>(config.window)) {
     summary.note = std::to_string(dates.size()) + " dates stored, fewer than the window of " +
                    std::to_string(config.window) + ": nothing to fit yet";
-    summary.seconds = since(start);
-    return summary;
+    return Pass::done;
   }
   const std::vector<GridPoint>& points = plan.points;
   const std::vector<std::size_t>& pending = plan.pending;
+  const bool first_plan = summary.grid_windows == 0 && summary.fitted == 0;
   summary.grid_windows = points.size();
-  summary.already_current = points.size() - pending.size();
+  if (first_plan) summary.already_current = points.size() - pending.size();
   if (pending.empty()) {
-    summary.note = "every window is current";
-    summary.seconds = since(start);
-    return summary;
+    if (summary.fitted == 0) summary.note = "every window is current";
+    return Pass::done;
   }
 
   const engine::FitOptions base = config.fit_options();
   const engine::RotationOptions rotation = config.rotation_options();
   const std::vector<std::int32_t> universe = universe_ids(db, config);
   if (!config.universe.empty() && universe.empty())
-    throw std::invalid_argument("model '" + name + "': none of its " + std::to_string(config.universe.size()) +
+    throw std::invalid_argument("model '" + model->name + "': none of its " + std::to_string(config.universe.size()) +
                                 " universe assets has stored returns");
   const auto window = static_cast<std::size_t>(config.window);
   std::optional<engine::FactorFit> previous;  // the fit of the grid point before the next one
@@ -129,17 +157,23 @@ RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshC
     const std::size_t chunk_end = std::min(pending.size(), chunk + kWindowsPerSpan);
     const std::size_t first_row = points[pending[chunk]].index + 1 - window;
     const std::size_t last_row = points[pending[chunk_end - 1]].index;
+    if (detail::refresh_hooks().before_read) detail::refresh_hooks().before_read();
     auto t_read = Clock::now();
     const detail::ReturnsSpan span(db.sql(), db.assets(), dates[first_row], dates[last_row], universe);
     summary.read_seconds += since(t_read);
+    if (detail::refresh_hooks().after_read) detail::refresh_hooks().after_read();
+    // Windows are cut from the span by position in the plan's dates: both must be the same.
+    if (!std::equal(span.dates().begin(), span.dates().end(), dates.begin() + static_cast<std::ptrdiff_t>(first_row),
+                    dates.begin() + static_cast<std::ptrdiff_t>(last_row) + 1) ||
+        span.dates().size() != last_row + 1 - first_row)
+      return Pass::replan;
 
     for (std::size_t k = chunk; k < chunk_end; ++k) {
       if (stop && stop->load()) {
         summary.stopped = true;
         summary.note = "stopped on request after " + std::to_string(summary.fitted) + " of " +
                        std::to_string(pending.size()) + " windows; the next refresh carries on";
-        summary.seconds = since(start);
-        return summary;
+        return Pass::done;
       }
       const std::size_t p = pending[k];
       const GridPoint& point = points[p];
@@ -157,9 +191,11 @@ RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshC
         if (previous && previous->IsSolutionUsable()) options.warm_start = warm_from(*previous);
       }
       t_read = Clock::now();
-      const engine::ReturnsPanel panel = span.window(point.index + 1 - window - first_row, window);
+      const std::size_t begin = point.index + 1 - window - first_row;
+      const engine::ReturnsPanel panel = span.window(begin, window);
       WindowRecord record;
       record.input_hash = detail::panel_fingerprint(panel);
+      const std::uint64_t input_rows = span.rows_digest(begin, window);
       summary.read_seconds += since(t_read);  // cutting the window and fingerprinting it
       record.as_of = detail::iso_date(point.as_of);
       record.first_date = panel.dates.front();
@@ -174,7 +210,7 @@ RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshC
 
       const auto t_write = Clock::now();
       record.total_seconds = since(t_window);
-      save_window(db, model->id, record);
+      if (!save_window(db, model->id, record, input_rows)) ++summary.changed_during;
       summary.write_seconds += since(t_write);
 
       ++summary.fitted;
@@ -186,11 +222,15 @@ RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshC
       if (progress) progress({summary.fitted, pending.size(), summary.last_as_of, since(start)});
     }
   }
-  summary.seconds = since(start);
-  return summary;
+  return Pass::done;
 }
 
 }  // namespace
+
+detail::RefreshHooks& detail::refresh_hooks() {
+  static RefreshHooks hooks;
+  return hooks;
+}
 
 RefreshSummary refresh_model(Database& db, const std::string& name, const RefreshCallback& progress,
                              const std::atomic<bool>* stop) {

@@ -3,6 +3,8 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <stdexcept>
+#include <string>
 
 #include "date_key.h"
 #include "fingerprint.h"
@@ -40,28 +42,59 @@ ReturnsSpan::ReturnsSpan(SQLite::Database& sql, AssetDirectory& directory, std::
   const auto rows = static_cast<Eigen::Index>(count.getColumn(0).getInt64());
   values_.setConstant(rows, static_cast<Eigen::Index>(ids.size()), std::numeric_limits<double>::quiet_NaN());
 
-  SQLite::Statement q(sql, "SELECT date, asset_ids, returns FROM returns WHERE date BETWEEN ? AND ? ORDER BY date");
+  SQLite::Statement q(sql,
+                      "SELECT date, asset_ids, returns, checksum FROM returns WHERE date BETWEEN ? AND ? ORDER BY date");
   q.bind(1, first);
   q.bind(2, last);
   CrossSection row;
   Eigen::Index t = 0;
-  while (q.executeStep() && t < rows) {
-    dates_.push_back(q.getColumn(0).getInt());
-    decode_cross_section(q.getColumn(1), q.getColumn(2), row);
+  while (t < rows && q.executeStep()) {
+    const std::int32_t date = q.getColumn(0).getInt();
+    decode_cross_section(date, q.getColumn(1), q.getColumn(2), q.getColumn(3), row);  // ids > 0, ascending
+    dates_.push_back(date);
+    checksums_.push_back(q.getColumn(3).getInt64());
     double* out = values_.data() + t * values_.cols();
     for (std::size_t k = 0; k < row.ids.size(); ++k) {
       const std::int32_t id = row.ids[k];
-      if (id > max_id) continue;
+      if (id > max_id) break;  // ascending: no later id is a column either
       const std::int32_t c = column_of[static_cast<std::size_t>(id)];
       if (c >= 0) out[c] = row.values[k];
     }
     ++t;
   }
+  // A load that removed rows between the count and the read (the two statements are two
+  // snapshots) leaves fewer rows than counted: the block keeps only the rows read, so
+  // dates() and the block always agree (the refresh compares dates() with its plan).
+  if (t < rows) values_.conservativeResize(t, values_.cols());
+}
+
+std::uint64_t ReturnsSpan::rows_digest(std::size_t begin, std::size_t count) const {
+  Fingerprint f;
+  for (std::size_t t = begin; t < begin + count && t < dates_.size(); ++t) {
+    f.add(std::int64_t{dates_[t]});
+    f.add(checksums_[t]);
+  }
+  return f.value();
+}
+
+std::uint64_t stored_rows_digest(SQLite::Database& sql, std::int32_t first, std::int32_t last) {
+  SQLite::Statement q(sql, "SELECT date, checksum FROM returns WHERE date BETWEEN ? AND ? ORDER BY date");
+  q.bind(1, first);
+  q.bind(2, last);
+  Fingerprint f;
+  while (q.executeStep()) {
+    f.add(std::int64_t{q.getColumn(0).getInt()});
+    f.add(q.getColumn(1).getInt64());
+  }
+  return f.value();
 }
 
 engine::ReturnsPanel ReturnsSpan::window(std::size_t begin, std::size_t count) const {
   const auto b = static_cast<Eigen::Index>(begin);
   const auto n = static_cast<Eigen::Index>(count);
+  if (begin + count > dates_.size())
+    throw std::logic_error("returns span: rows " + std::to_string(begin) + " + " + std::to_string(count) + " of " +
+                           std::to_string(dates_.size()));
   const Eigen::Index width = values_.cols();
   // Columns with at least one return in the rows, found row by row (the block is
   // row-major, so this streams through memory once).

@@ -25,14 +25,23 @@ class ReturnsSpan {
 
   const std::vector<std::int32_t>& dates() const { return dates_; }
 
+  // The digest of rows [begin, begin + count): their dates and stored checksums, equal to
+  // stored_rows_digest over the same dates while no load has changed them since.
+  std::uint64_t rows_digest(std::size_t begin, std::size_t count) const;
+
   // Rows [begin, begin + count) as a panel of the assets with at least one return in them.
   engine::ReturnsPanel window(std::size_t begin, std::size_t count) const;
 
  private:
   std::vector<std::int32_t> dates_;
+  std::vector<std::int64_t> checksums_;  // per date, as stored (and checked on reading)
   std::vector<std::string> names_;  // per column
   engine::RowMatrix values_;
 };
+
+// The digest of the stored returns rows with dates in [first, last], from their dates
+// and checksums only (the index returns_checksums holds both: no blob is read).
+std::uint64_t stored_rows_digest(SQLite::Database& sql, std::int32_t first, std::int32_t last);
 
 // Fingerprint of a window's input: its dates, asset names and returns.
 std::string panel_fingerprint(const engine::ReturnsPanel& panel);

@@ -12,7 +12,9 @@
 
 #include "asset_directory.h"
 #include "blob_codec.h"
+#include "damage_context.h"
 #include "date_key.h"
+#include "returns_span.h"
 #include "factorwatch/engine/factor_basis.h"
 
 namespace factorwatch::storage {
@@ -106,7 +108,7 @@ Eigen::VectorXd vector_column(SQLite::Statement& q, const char* name) {
   return detail::decode_vector(c.getBlob(), static_cast<std::size_t>(c.getBytes()), name);
 }
 
-WindowRecord read_record(Database& db, SQLite::Statement& q) {
+WindowRecord read_fields(Database& db, SQLite::Statement& q) {
   WindowRecord w;
   w.as_of = detail::iso_date(q.getColumn("as_of").getInt());
   w.first_date = detail::iso_date(q.getColumn("first_date").getInt());
@@ -136,13 +138,26 @@ WindowRecord read_record(Database& db, SQLite::Statement& q) {
   if (!q.getColumn("rotation").isNull()) w.rotation = matrix_column(q, "rotation");
   const auto n = static_cast<Eigen::Index>(fit.assets.size());
   if (fit.loadings.rows() != n || fit.specific_variance.size() != n || fit.heywood.size() != fit.assets.size())
-    throw std::runtime_error("stored window " + w.as_of + ": the asset list and the loadings disagree in length");
+    throw DamagedData("the asset list and the loadings disagree in length");
   return w;
+}
+
+// A window's row, or DamagedData naming the model and the window.
+WindowRecord read_record(Database& db, SQLite::Statement& q) {
+  try {
+    return read_fields(db, q);
+  } catch (const DamagedData& e) {
+    detail::rethrow_for_window(db, q.getColumn("model_version_id").getInt64(), q.getColumn("as_of").getInt(),
+                               "windows", e);
+  } catch (const nlohmann::json::exception& e) {  // the statistics text, edited or cut short
+    detail::rethrow_for_window(db, q.getColumn("model_version_id").getInt64(), q.getColumn("as_of").getInt(),
+                               "windows", std::runtime_error(std::string("statistics: ") + e.what()));
+  }
 }
 
 }  // namespace
 
-void save_window(Database& db, long model_version_id, const WindowRecord& w) {
+bool save_window(Database& db, long model_version_id, const WindowRecord& w, std::optional<std::uint64_t> input_rows) {
   const engine::FactorFit& fit = w.fit;
   std::vector<std::int32_t> ids;
   ids.reserve(fit.assets.size());
@@ -153,6 +168,9 @@ void save_window(Database& db, long model_version_id, const WindowRecord& w) {
   }
   SQLite::Database& sql = db.sql();
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
+  // Under the write lock, so no load can commit between this comparison and the insert.
+  const bool current = !input_rows || *input_rows == detail::stored_rows_digest(sql, detail::date_key(w.first_date, "first date"),
+                                                                                  detail::date_key(w.as_of, "as-of date"));
   // The replaced row's alignment and drift described other numbers.
   for (const char* table : {"window_alignments", "window_drift", "drift_alerts"}) {
     SQLite::Statement forget(sql, std::string("DELETE FROM ") + table +
@@ -166,7 +184,7 @@ void save_window(Database& db, long model_version_id, const WindowRecord& w) {
                       "input_hash, asset_count, factors, usable, termination, assets, mean, scale, loadings, "
                       "specific_variance, communality, uniqueness, heywood, factor_covariance, eigenvalues, "
                       "explained_share, statistics, fit_seconds, total_seconds, fitted_at, rotation, stale) VALUES "
-                      "(?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, 0)");
+                      "(?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   q.bind(2, detail::date_key(w.as_of, "as-of date"));
   q.bind(3, detail::date_key(w.first_date, "first date"));
@@ -194,8 +212,10 @@ void save_window(Database& db, long model_version_id, const WindowRecord& w) {
   q.bind(24, w.fitted_at.empty() ? detail::utc_now() : w.fitted_at);
   if (w.rotation.size() > 0) bind_blob(q, 25, detail::encode_doubles(w.rotation));
   else q.bind(25);  // NULL: no rotation
+  q.bind(26, current ? 0 : 1);
   q.exec();
   transaction.commit();
+  return current;
 }
 
 std::vector<WindowSummary> list_windows(Database& db, long model_version_id) {
@@ -275,9 +295,16 @@ std::optional<WindowAlignment> read_alignment(Database& db, long long window_id)
   a.reference = q.getColumn(2).getString();
   if (!q.getColumn(3).isNull()) a.reference_as_of = detail::iso_date(q.getColumn(3).getInt());
   a.shared = q.getColumn(4).getInt64();
-  a.matrix = matrix_column(q, "alignment");
+  try {
+    a.matrix = matrix_column(q, "alignment");
+    a.factor_fit = vector_column(q, "factor_fit");
+  } catch (const DamagedData& e) {
+    SQLite::Statement w(db.sql(), "SELECT model_version_id, as_of FROM windows WHERE id = ?");
+    w.bind(1, static_cast<std::int64_t>(window_id));
+    if (!w.executeStep()) throw;
+    detail::rethrow_for_window(db, w.getColumn(0).getInt64(), w.getColumn(1).getInt(), "window_alignments", e);
+  }
   a.residual = q.getColumn(6).isNull() ? std::numeric_limits<double>::quiet_NaN() : q.getColumn(6).getDouble();
-  a.factor_fit = vector_column(q, "factor_fit");
   a.aligned_at = q.getColumn(8).getString();
   return a;
 }

@@ -21,15 +21,20 @@ class AssetDirectory;
 
 class Database {
  public:
-  // Opens the file (creating it when absent) and migrates it to the current schema.
-  // Throws std::runtime_error naming the file when it cannot be opened, is not a
-  // factorwatch database, or was written by a newer factorwatch.
+  // Opens the file (creating it, owner-only, when absent) and migrates it to the current
+  // schema. Throws std::runtime_error naming the file when it cannot be opened, is empty
+  // (0 bytes: a truncated database, never taken as a new one), is not a factorwatch
+  // database, or was written by a newer factorwatch. Where the file or its directory is
+  // not writable, opens it read-only (immutable when the -shm file cannot be made and no
+  // -wal holds commits); it must then be at the current schema already.
   explicit Database(const std::string& path);
   ~Database();
   Database(const Database&) = delete;
   Database& operator=(const Database&) = delete;
 
   const std::string& path() const { return path_; }
+  bool read_only() const { return read_only_; }
+  bool immutable() const { return immutable_; }  // read-only without the -shm file
   int schema_version() const;
 
   // For storage's own sources.
@@ -37,7 +42,10 @@ class Database {
   detail::AssetDirectory& assets();  // asset ids <-> names, cached
 
  private:
+  void open_read_only();
+
   std::string path_;
+  bool read_only_ = false, immutable_ = false;
   std::unique_ptr<SQLite::Database> db_;
   std::unique_ptr<detail::AssetDirectory> assets_;
 };

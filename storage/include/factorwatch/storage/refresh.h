@@ -7,6 +7,13 @@
 // dates arrive; a model's first_as_of skips the grid points before it. On the first run
 // this is a backfill; on a normal night, one new window.
 //
+// A load may commit while a refresh runs. A window is marked current only for the
+// returns it was fitted on: its write compares, in the same transaction, the stored
+// rows of its dates (their checksums) with the rows the refresh read, and stores it
+// stale when a load changed them in between (save_window); a load committing after the
+// write marks it stale itself. A load that inserts dates inside the range being fitted
+// makes the refresh plan its grid again from the stored dates.
+//
 // Each window is warm-started from the window before it on the grid (when that fit is
 // usable) and written in its own transaction: a refresh killed at any point leaves only
 // whole windows, and the next refresh carries on from them. A resumed run warm-starts
@@ -47,6 +54,8 @@ struct RefreshSummary {
   std::size_t fitted = 0;           // written in this run (new or refitted)
   std::size_t refitted_stale = 0;   // of which were stale
   std::size_t unusable = 0;         // of which ended in a numerical failure (stored, flagged)
+  std::size_t changed_during = 0;   // of which a load changed the returns of before they were
+                                    // written: stored stale, so the next refresh refits them
   std::string first_as_of, last_as_of;  // of the windows written in this run
   double seconds = 0;
   // Reading: the stored returns, each window cut from them and its input fingerprint.

@@ -3,6 +3,7 @@
 #pragma once
 
 #include <limits>
+#include <cstdint>
 #include <optional>
 #include <string>
 #include <vector>
@@ -86,7 +87,14 @@ struct WindowStamp {
 
 // Inserts or replaces the window (model version, as-of) in its own transaction. A
 // replaced window's alignment, drift and alerts go with it (the refresh realigns).
-void save_window(Database& db, long model_version_id, const WindowRecord& window);
+//
+// `input_rows`: the digest of the returns rows the fit read (their dates and checksums,
+// detail::ReturnsSpan::rows_digest). In the same transaction as the write it is compared
+// with the rows stored now, and the window is stored stale when they differ: a load that
+// committed between the refresh's read and this write changed the window's data, and
+// its own stale marking could not see a window not stored yet. Returns false then.
+bool save_window(Database& db, long model_version_id, const WindowRecord& window,
+                 std::optional<std::uint64_t> input_rows = std::nullopt);
 
 std::vector<WindowSummary> list_windows(Database& db, long model_version_id);
 
