@@ -29,6 +29,10 @@ given 4xx (unknown route, unknown model, bad parameter, wrong method, missing or
 token, malformed JSON, rejected CSV). Each client keeps its connection alive and opens
 a new one now and then, so both paths are exercised.
 
+Before the load, a connection burst: --burst (64, the daemon's default worker threads)
+clients open a new connection at the same moment and send a POST with a body, three
+times; every one must be answered like any other request.
+
 Every answer must have its expected status (a set per kind) and a body of the expected
 kind; anything else (another status, a 5xx, a refused or dropped connection, a
 timeout, a refresh job that fails) is an error and is listed with its route and
@@ -364,7 +368,7 @@ def plan(kind, rng, s):
         by_asset = rng.choice(("true", "false"))
         return Req("GET", f"/v1/models/demo/risk?portfolio=demo-book&as_of={as_of}&by_asset={by_asset}&format={fmt}",
                    check=check)
-    if kind == "risk-post":
+    if kind in ("risk-post", "burst"):
         body = {"weights": weights_of(rng, u.listed, rng.randint(5, 40)), "benchmark": "demo-benchmark"}
         return Req("POST", "/v1/models/demo/risk?by_asset=false", body=json.dumps(body).encode(),
                    headers={"Content-Type": "application/json"}, check=is_json_object)
@@ -546,6 +550,8 @@ class Client(threading.Thread):
         self.timeout, self.reconnect_share = timeout, reconnect_share
         self.conn, self.conn_uses, self.previous = None, 0, None
         self.latency = {}      # kind -> list of seconds
+        self.by_minute = {}    # minute of the run -> list of seconds, every kind
+        self.errors_by_minute = {}
         self.statuses = {}     # kind -> {status: count}
         self.errors = []       # (elapsed s, kind, method, path, message)
         self.error_count = {}  # kind -> count
@@ -611,7 +617,10 @@ class Client(threading.Thread):
             if message is None and req.after is not None:
                 message = req.after(status, body)
         self.latency.setdefault(kind, []).append(elapsed)
+        minute = int((time.monotonic() - self.t_start) // 60)
+        self.by_minute.setdefault(minute, []).append(elapsed)
         if message is not None:
+            self.errors_by_minute[minute] = self.errors_by_minute.get(minute, 0) + 1
             self.error_count[kind] = self.error_count.get(kind, 0) + 1
             if len(self.errors) < MAX_ERRORS_KEPT:
                 self.errors.append((time.monotonic() - self.t_start, kind, req.method, req.path[:160], message))
@@ -620,6 +629,43 @@ class Client(threading.Thread):
         while not self.stop.is_set():
             self.one(self.rng.choices(self.kinds, self.weights)[0])
         self.close()
+
+
+def file_mb(path):
+    try:
+        return os.path.getsize(path) / 2**20
+    except OSError:
+        return 0.0
+
+
+def connection_burst(shared, host, port, n, rounds, seed, timeout):
+    """Before the load: n clients open a new connection at the same moment and each sends
+    one POST with a body (the risk of posted weights), `rounds` times. A daemon must take
+    such a burst (a browser or a script's pool opening connections, or clients coming back
+    after a restart): every one gets its answer, none is refused or reset."""
+    done = []
+    t0 = time.monotonic()
+    for r in range(rounds):
+        barrier = threading.Barrier(n)
+        group = [Client(10000 + r * n + i, shared, host, port, threading.Event(), t0, seed, timeout, 0.0)
+                 for i in range(n)]
+
+        def go(c):
+            try:
+                barrier.wait(30)
+            except threading.BrokenBarrierError:
+                pass
+            c.one("burst")
+            c.close()
+
+        threads = [threading.Thread(target=go, args=(c,), daemon=True) for c in group]
+        for t in threads:
+            t.start()
+        for t in threads:
+            t.join(timeout + 10)
+        done += group
+        time.sleep(1)
+    return done
 
 
 class Sampler(threading.Thread):
@@ -632,7 +678,8 @@ class Sampler(threading.Thread):
     def take(self, label):
         m = self.d.memory()
         if m is not None:
-            m.update(t=round(time.monotonic() - self.t_start, 1), label=label)
+            m.update(t=round(time.monotonic() - self.t_start, 1), label=label, cpu_s=self.d.cpu_seconds(),
+                     db_mb=file_mb(self.d.db_path), wal_mb=file_mb(self.d.db_path + "-wal"))
             self.samples.append(m)
         return m
 
@@ -747,6 +794,55 @@ def memory_bound(start_rss, cache_mb, threads):
     return sum(p[1] for p in parts), parts
 
 
+def per_minute(clients, samples, seconds_run):
+    """One row per minute of the load: throughput, latency, errors, the daemon's CPU and
+    memory, the write-ahead log's size. Rising CPU per request would say the daemon's work
+    grows with the run; falling CPU at steady work per request, that the machine is busy."""
+    rows = []
+    minutes = sorted({m for c in clients for m in c.by_minute})
+
+    def at(t):  # the last sample at or before t (samples every 10 s)
+        before = [x for x in samples if x["t"] <= t + 0.5 and x.get("cpu_s") is not None]
+        return before[-1] if before else None
+
+    for m in minutes:
+        lat = [x * 1000 for c in clients for x in c.by_minute.get(m, [])]
+        span = min(60.0, seconds_run - 60 * m)
+        if span < 5:
+            continue
+        a, b = at(60 * m), at(60 * m + span)
+        cpu = (b["cpu_s"] - a["cpu_s"]) if a and b and b is not a else float("nan")
+        cpu_span = (b["t"] - a["t"]) if a and b and b is not a else float("nan")
+        rows.append({"minute": m + 1, "requests_per_s": len(lat) / span, "p50_ms": pct(lat, 50),
+                     "p99_ms": pct(lat, 99), "errors": sum(c.errors_by_minute.get(m, 0) for c in clients),
+                     "daemon_cpus": cpu / cpu_span if cpu_span else float("nan"),
+                     "cpu_ms_per_request": 1000 * cpu / (len(lat) * cpu_span / span) if lat and cpu_span else float("nan"),
+                     "rss_mb": b["rss_mb"] if b else float("nan"), "wal_mb": b["wal_mb"] if b else float("nan")})
+    return rows
+
+
+TCP_COUNTERS = ("ListenOverflows", "ListenDrops", "TCPReqQFullDoCookies", "TCPReqQFullDrop", "TCPAbortOnData",
+                "TCPAbortOnClose")
+
+
+def tcp_counters():
+    """The kernel's TCP counters that tell a full listen queue and connections reset with
+    data unread (/proc/net/netstat, TcpExt). They count for the whole network namespace:
+    other programs' loopback traffic during the run adds to them."""
+    found = {}
+    try:
+        with open("/proc/net/netstat") as f:
+            lines = f.read().splitlines()
+    except OSError:
+        return found
+    for names, values in zip(lines[::2], lines[1::2]):
+        if names.startswith("TcpExt:"):
+            for name, value in zip(names.split()[1:], values.split()[1:]):
+                if name in TCP_COUNTERS:
+                    found[name] = int(value)
+    return found
+
+
 def loadavg():
     with open("/proc/loadavg") as f:
         return " ".join(f.read().split()[:3])
@@ -768,9 +864,15 @@ def report(r):
     w(f"set-up:   {r['setup_seconds']:.1f} s (demo universe seed 7, model demo from {FIRST_AS_OF}: "
       f"{r['windows_at_start']} windows)")
     w("")
-    w(f"requests: {r['total']} in {r['seconds_run']:.1f} s = {r['throughput']:.1f} requests/s; "
+    if r["burst"]:
+        w(f"burst:    {r['burst']} requests before the load, {r['burst_size']} new connections at once each "
+          "time (kind 'burst' below; not in the throughput)")
+    w(f"requests: {r['total'] - r['burst']} in {r['seconds_run']:.1f} s = {r['throughput']:.1f} requests/s; "
       f"{r['bytes_in'] / 1e6:.0f} MB received; {r['connections']} connections opened; "
       f"{r['retries']} GETs retried after a dropped keep-alive connection")
+    w("tcp:      " + (", ".join(f"{k} {v:+d}" for k, v in r["tcp"].items()) or "counters not readable") +
+      " (kernel counters over the burst and the load, whole network namespace: a full listen queue, "
+      "connections reset with data unread)")
     w(f"cpu:      daemon {r['daemon_cpu']:.0f} s, client {r['client_cpu']:.0f} s over {r['seconds_run']:.0f} s; "
       f"machine load average {r['loadavg_start']} at the start, {r['loadavg_end']} at the end")
     w("")
@@ -784,6 +886,14 @@ def report(r):
     w(f"jobs:     {r['jobs_started']} refresh jobs started by the clients; last refresh: {r['last_refresh']}")
     w(f"model:    {r['model_after']}")
     w("")
+    w("by minute of the load (daemon CPU in cores busy; the write-ahead log's size at the minute's end):")
+    w(f"  {'minute':>6} {'req/s':>7} {'p50 ms':>8} {'p99 ms':>8} {'errors':>6} {'daemon CPU':>10} "
+      f"{'CPU ms/req':>10} {'rss MiB':>8} {'wal MiB':>8}")
+    for row in r["minutes"]:
+        w(f"  {row['minute']:>6} {row['requests_per_s']:7.1f} {fmt_ms(row['p50_ms'])} {fmt_ms(row['p99_ms'])} "
+          f"{row['errors']:>6} {row['daemon_cpus']:10.2f} {row['cpu_ms_per_request']:10.2f} {row['rss_mb']:8.1f} "
+          f"{row['wal_mb']:8.1f}")
+    w("")
     w("memory of the daemon (MiB; threads; open descriptors):")
     for m in r["memory_samples"]:
         if m["label"] or len(r["memory_samples"]) <= 15 or m["t"] % 60 < SAMPLE_SECONDS:
@@ -796,7 +906,16 @@ def report(r):
         w(f"  {mb:7.1f}  {text}")
     w("")
     w(f"errors:   {r['error_total']}")
-    for e in r["errors"][:20]:
+    groups = {}
+    for e in r["errors"]:
+        key = (e[1], e[4][:110])
+        groups[key] = groups.get(key, 0) + 1
+    if groups:
+        w("  by kind and message (of the first errors kept):")
+        for (kind, message), n in sorted(groups.items(), key=lambda g: -g[1])[:10]:
+            w(f"  {n:6}  {kind:<17} {message}")
+        w("  the first ones:")
+    for e in r["errors"][:10]:
         w(f"  t={e[0]:7.1f} s  {e[1]:<17} {e[2]} {e[3]}\n      {e[4]}")
     if r["server_errors_logged"]:
         w(f"5xx lines in the daemon's request log: {len(r['server_errors_logged'])}")
@@ -833,6 +952,10 @@ def main():
                     help="share of requests sent on a new connection (default 0.05)")
     ap.add_argument("--serve-option", action="append", default=[],
                     help="extra option for `factorwatch serve` (repeat; e.g. --serve-option=--threads=32)")
+    ap.add_argument("--burst", type=int, default=64,
+                    help="new connections opened at once before the load (default 64, the daemon's default "
+                         "--threads; 0: none)")
+    ap.add_argument("--burst-rounds", type=int, default=3, help="how many such bursts (default 3)")
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--json-out", help="write the figures as JSON to this file too")
     ap.add_argument("--keep", action="store_true", help="keep the temporary directory (printed)")
@@ -872,10 +995,17 @@ def main():
         log(f"daemon pid {daemon.pid} ready on {daemon.host}:{daemon.port}; set-up {setup_seconds:.1f} s")
 
         shared = Shared(universe, token, a.max_new_dates)
+        sampler = Sampler(daemon, time.monotonic(), SAMPLE_SECONDS)
+        start_mem = sampler.take("start (before the burst)")
+        tcp0 = tcp_counters()
+        burst_clients = []
+        if a.burst > 0:
+            log(f"connection burst: {a.burst} new connections at once, {a.burst_rounds} times")
+            burst_clients = connection_burst(shared, daemon.host, daemon.port, a.burst, a.burst_rounds, a.seed,
+                                             a.timeout)
         stop = threading.Event()
         t_start = time.monotonic()
-        sampler = Sampler(daemon, t_start, SAMPLE_SECONDS)
-        start_mem = sampler.take("start")
+        sampler.t_start = t_start   # the load's clock; the start sample stays at t = 0
         sampler.start()
         cpu0, client0, loadavg_start = daemon.cpu_seconds(), os.times(), loadavg()
         clients = [Client(i, shared, daemon.host, daemon.port, stop, t_start, a.seed, a.timeout, a.reconnect_share)
@@ -901,7 +1031,7 @@ def main():
         for c in clients:
             c.join(a.timeout + 10)
         seconds_run = time.monotonic() - t_start
-        cpu1, client1 = daemon.cpu_seconds(), os.times()
+        cpu1, client1, tcp1 = daemon.cpu_seconds(), os.times(), tcp_counters()
         end_load = sampler.take("end of load")
 
         checks, problems, last, model = [], [], None, None
@@ -924,12 +1054,15 @@ def main():
             integrity = f"{type(e).__name__}: {e}"
 
         kinds, all_lat, total_errors = [], [], 0
-        errors = sorted(e for c in clients for e in c.errors)
-        for kind in KINDS:
-            lat = [x for c in clients for x in c.latency.get(kind, [])]
-            n_err = sum(c.error_count.get(kind, 0) for c in clients)
+        everyone = clients + burst_clients
+        errors = sorted(e for c in everyone for e in c.errors)
+        for kind in list(KINDS) + ["burst"]:
+            lat = [x for c in everyone for x in c.latency.get(kind, [])]
+            if kind == "burst" and not lat:
+                continue
+            n_err = sum(c.error_count.get(kind, 0) for c in everyone)
             statuses = {}
-            for c in clients:
+            for c in everyone:
                 for st, n in c.statuses.get(kind, {}).items():
                     statuses[st] = statuses.get(st, 0) + n
             expected = "/".join(str(x) for x in sorted(statuses)) or "-"
@@ -947,8 +1080,14 @@ def main():
         during = [m for m in sampler.samples if m["t"] <= seconds_run]
         half = [m for m in during if m["t"] >= seconds_run / 2]
         growth = (half[-1]["rss_mb"] - half[0]["rss_mb"]) if len(half) >= 2 else float("nan")
-        checks.append(("no errors", total_errors == 0, f"{total_errors} errors in {len(all_lat)} requests"
-                       + (f" and after the load" if problems else "")))
+        burst_errors = sum(c.error_count.get("burst", 0) for c in burst_clients)
+        load_errors = total_errors - burst_errors
+        checks.append(("no errors under load", load_errors == 0,
+                       f"{load_errors} errors in {len(all_lat) - len(burst_clients)} requests"
+                       + (" (some after the load)" if problems else "")))
+        if burst_clients:
+            checks.append(("connection burst answered", burst_errors == 0,
+                           f"{burst_errors} of {len(burst_clients)} requests failed ({a.burst} new connections at once)"))
         checks.append(("daemon alive through the load", alive,
                        "answered until the end" if alive else f"exited with {daemon.proc.returncode}"))
         checks.append(("memory at the end within the bound", end_rss <= bound,
@@ -966,7 +1105,8 @@ def main():
             "binary": binary, "clients": a.clients, "seconds_asked": a.seconds, "seconds_run": seconds_run,
             "seed": a.seed, "cache_mb": a.cache_mb, "daemon_threads": threads_now, "setup_seconds": setup_seconds,
             "windows_at_start": len(universe.as_of_dates),
-            "total": len(all_lat), "throughput": len(all_lat) / seconds_run if seconds_run else 0.0,
+            "total": len(all_lat), "burst": len(burst_clients), "burst_size": a.burst,
+            "throughput": (len(all_lat) - len(burst_clients)) / seconds_run if seconds_run else 0.0,
             "bytes_in": sum(c.bytes_in for c in clients), "connections": sum(c.connections for c in clients),
             "retries": sum(c.retries for c in clients),
             "daemon_cpu": (cpu1 or 0) - (cpu0 or 0),
@@ -978,7 +1118,9 @@ def main():
             {k: last["summary"][k] for k in ("grid_windows", "already_current", "fitted", "refitted_stale")},
             "model_after": model and {k: model[k] for k in ("windows", "stale_windows", "latest_as_of")},
             "memory_samples": sampler.samples, "second_half_growth_mb": growth,
-            "loadavg_start": loadavg_start, "loadavg_end": loadavg(), "memory_bound_mb": bound, "memory_bound_parts": parts,
+            "minutes": per_minute(clients, sampler.samples, seconds_run),
+            "loadavg_start": loadavg_start, "loadavg_end": loadavg(),
+            "tcp": {k: tcp1[k] - tcp0.get(k, 0) for k in tcp1}, "memory_bound_mb": bound, "memory_bound_parts": parts,
             "error_total": total_errors, "errors": errors, "server_errors_logged": log_5xx,
             "checks": checks, "pass": all(ok for _, ok, _ in checks),
         }
