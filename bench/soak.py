@@ -248,6 +248,28 @@ class Daemon:
         except (OSError, IndexError, ValueError):
             return None
 
+    def request_cpu_seconds(self):
+        """CPU of the threads at the process's own priority: the request workers, the
+        listener and the main thread. The refresh thread and its fitting threads run at nice
+        +10 (docs/api.md, "Refreshes") and are left out, so that CPU per request is not
+        blurred by whatever the background refresh managed to get."""
+        hz = os.sysconf("SC_CLK_TCK")
+        try:
+            with open(f"/proc/{self.pid}/stat") as f:
+                base_nice = int(f.read().rsplit(")", 1)[1].split()[16])
+            total = 0
+            for tid in os.listdir(f"/proc/{self.pid}/task"):
+                try:
+                    with open(f"/proc/{self.pid}/task/{tid}/stat") as f:
+                        fields = f.read().rsplit(")", 1)[1].split()
+                except OSError:
+                    continue
+                if int(fields[16]) == base_nice:
+                    total += int(fields[11]) + int(fields[12])
+            return total / hz
+        except (OSError, IndexError, ValueError):
+            return None
+
     def stop(self):
         """SIGTERM, then wait; (exit code, seconds), or (None, seconds) if it had to be killed."""
         if self.proc.poll() is not None:
@@ -679,6 +701,7 @@ class Sampler(threading.Thread):
         m = self.d.memory()
         if m is not None:
             m.update(t=round(time.monotonic() - self.t_start, 1), label=label, cpu_s=self.d.cpu_seconds(),
+                     request_cpu_s=self.d.request_cpu_seconds(),
                      db_mb=file_mb(self.d.db_path), wal_mb=file_mb(self.d.db_path + "-wal"))
             self.samples.append(m)
         return m
@@ -812,11 +835,15 @@ def per_minute(clients, samples, seconds_run):
             continue
         a, b = at(60 * m), at(60 * m + span)
         cpu = (b["cpu_s"] - a["cpu_s"]) if a and b and b is not a else float("nan")
+        req_cpu = (b["request_cpu_s"] - a["request_cpu_s"]) if a and b and b is not a and \
+            b.get("request_cpu_s") is not None and a.get("request_cpu_s") is not None else float("nan")
         cpu_span = (b["t"] - a["t"]) if a and b and b is not a else float("nan")
         rows.append({"minute": m + 1, "requests_per_s": len(lat) / span, "p50_ms": pct(lat, 50),
                      "p99_ms": pct(lat, 99), "errors": sum(c.errors_by_minute.get(m, 0) for c in clients),
                      "daemon_cpus": cpu / cpu_span if cpu_span else float("nan"),
-                     "cpu_ms_per_request": 1000 * cpu / (len(lat) * cpu_span / span) if lat and cpu_span else float("nan"),
+                     "refresh_cpus": (cpu - req_cpu) / cpu_span if cpu_span else float("nan"),
+                     "cpu_ms_per_request": 1000 * req_cpu / (len(lat) * cpu_span / span) if lat and cpu_span
+                     else float("nan"),
                      "rss_mb": b["rss_mb"] if b else float("nan"), "wal_mb": b["wal_mb"] if b else float("nan")})
     return rows
 
@@ -886,13 +913,14 @@ def report(r):
     w(f"jobs:     {r['jobs_started']} refresh jobs started by the clients; last refresh: {r['last_refresh']}")
     w(f"model:    {r['model_after']}")
     w("")
-    w("by minute of the load (daemon CPU in cores busy; the write-ahead log's size at the minute's end):")
-    w(f"  {'minute':>6} {'req/s':>7} {'p50 ms':>8} {'p99 ms':>8} {'errors':>6} {'daemon CPU':>10} "
+    w("by minute of the load (CPU in cores busy: the whole daemon, and its refresh threads at nice +10;")
+    w("CPU ms/req: the request threads' CPU per request; the write-ahead log's size at the minute's end):")
+    w(f"  {'minute':>6} {'req/s':>7} {'p50 ms':>8} {'p99 ms':>8} {'errors':>6} {'daemon CPU':>10} {'refresh':>8} "
       f"{'CPU ms/req':>10} {'rss MiB':>8} {'wal MiB':>8}")
     for row in r["minutes"]:
         w(f"  {row['minute']:>6} {row['requests_per_s']:7.1f} {fmt_ms(row['p50_ms'])} {fmt_ms(row['p99_ms'])} "
-          f"{row['errors']:>6} {row['daemon_cpus']:10.2f} {row['cpu_ms_per_request']:10.2f} {row['rss_mb']:8.1f} "
-          f"{row['wal_mb']:8.1f}")
+          f"{row['errors']:>6} {row['daemon_cpus']:10.2f} {row['refresh_cpus']:8.2f} {row['cpu_ms_per_request']:10.2f} "
+          f"{row['rss_mb']:8.1f} {row['wal_mb']:8.1f}")
     w("")
     w("memory of the daemon (MiB; threads; open descriptors):")
     for m in r["memory_samples"]:
