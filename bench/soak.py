@@ -549,8 +549,8 @@ def job_seen(s, body):
     return message
 
 
-# The mix, in shares of the requests (they need not add up to 100). Reads dominate, as in
-# use; writes are a tenth; hostile requests a twentieth.
+# The mix, in shares of the requests (they need not add up to 100): reads 83%, writes 11%,
+# hostile requests 6%.
 KINDS = {
     "index": 1, "health": 3, "models": 4, "windows": 4,
     "exposures-json": 9, "exposures-csv": 9, "exposures-assets": 5, "specific-risk": 5,
