@@ -181,6 +181,9 @@ TEST_F(DamagedDatabase, AFlippedBitInStoredLoadingsIsReportedNotServed) {
   EXPECT_EQ(bad.status, 500);
   EXPECT_TRUE(contains(bad.body, "stored data damaged")) << bad.body;
   EXPECT_TRUE(contains(bad.body, "window " + as_of(129))) << bad.body;
+  // The database is at fault, not the daemon: no "internal error", and the way to see all.
+  EXPECT_FALSE(contains(bad.body, "internal error")) << bad.body;
+  EXPECT_TRUE(contains(bad.body, "factorwatch verify")) << bad.body;
   EXPECT_EQ(fw::curl(dir_.path(), "", daemon.url("/v1/models/m/exposures?as_of=" + as_of(159))).status, 200);
   EXPECT_EQ(fw::curl(dir_.path(), "", daemon.url("/v1/health")).status, 200);
   EXPECT_EQ(daemon.stop(), 0);
