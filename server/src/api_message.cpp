@@ -42,7 +42,9 @@ ApiResponse problem(int status, const std::string& detail, const std::string& in
   ApiResponse r;
   r.status = status;
   r.content_type = "application/problem+json";
-  r.set_body(j.dump());
+  // The detail may quote what the client sent (a path, a member name, a parser's last
+  // bytes): bytes that are not UTF-8 become U+FFFD instead of throwing from dump().
+  r.set_body(j.dump(-1, ' ', false, nlohmann::ordered_json::error_handler_t::replace));
   return r;
 }
 

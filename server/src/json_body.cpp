@@ -30,6 +30,9 @@ nlohmann::ordered_json parse_json_body(std::string_view text) {
     const auto end = text.begin() + static_cast<std::ptrdiff_t>(std::min<std::size_t>(e.byte, text.size()));
     const auto line = 1 + std::count(text.begin(), end, '\n');
     throw std::invalid_argument("line " + std::to_string(line) + ": not JSON: " + e.what());
+  } catch (const json::out_of_range& e) {
+    // A number beyond a double (1e400): the parser reports no position for it.
+    throw std::invalid_argument(std::string("not JSON: ") + e.what());
   }
   if (!repeated.empty()) throw std::invalid_argument("member '" + repeated + "' appears twice in one object");
   return j;
