@@ -47,7 +47,10 @@ std::optional<BodyProblem> read_risk_body(std::string_view text, RiskRequest& q)
   }
   if (!body.is_object())
     return BodyProblem{"body: must be a JSON object with \"weights\" (or \"portfolio\": a stored name)", "body"};
-  for (const auto& [member, value] : body.items()) {
+  for (const auto& item : body.items()) {
+    // Named copies rather than a structured binding: C++17 lambdas cannot capture one.
+    const std::string& member = item.key();
+    const ordered_json& value = item.value();
     auto bad = [&](const std::string& why) { return BodyProblem{"member '" + member + "': " + why, member}; };
     if (member == "weights" || member == "holdings" || member == "benchmark_weights" || member == "trade") {
       auto holdings = holdings_member(value, member);
