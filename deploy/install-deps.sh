@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # Installs factorwatch's build and test dependencies from Debian's packages.
-# Idempotent: when every package is already present it changes nothing.
+# Idempotent: when every package is already present it changes nothing. Extra package
+# names given as arguments are installed too (deploy/run-sanitized-tests.sh: clang).
 set -euo pipefail
 
 packages=(
@@ -9,6 +10,7 @@ packages=(
   libeigen3-dev libspectra-dev
   libcpp-httplib-dev nlohmann-json3-dev libsqlitecpp-dev libsqlite3-dev
   libgtest-dev libcli11-dev libfast-float-dev
+  "$@"
 )
 
 missing=()

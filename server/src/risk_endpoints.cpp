@@ -1,12 +1,10 @@
 #include "risk_endpoints.h"
 
 #include <cmath>
-#include <unordered_set>
 
 #include "endpoint_helpers.h"
 #include "factorwatch/storage/identifier_rule.h"
-#include "factorwatch/storage/portfolios.h"
-#include "json_body.h"
+#include "risk_body.h"
 #include "risk_model_cache.h"
 #include "risk_query.h"
 #include "risk_view.h"
@@ -74,43 +72,6 @@ ApiResponse answer(const ApiContext& context, const ApiRequest& r, const RiskReq
   return json_response(risk_json(outcome.report, view));
 }
 
-// Weights in a request: {"ASSET": weight, ...} or [{"asset": "ASSET", "weight": w}, ...].
-// The error names the member and, inside it, the asset or the element.
-std::variant<engine::Holdings, std::string> holdings_member(const ordered_json& value, const std::string& member) {
-  engine::Holdings holdings;
-  std::unordered_set<std::string> seen;
-  // The rules of a holdings file: one identifier rule, one weight bound (storage).
-  auto add = [&](const std::string& asset, const ordered_json& weight, const std::string& where) -> std::string {
-    if (auto problem = storage::identifier_problem(asset))
-      return "member '" + member + "'" + where + ": the asset name " + *problem;
-    const std::string shown = "'" + storage::printable_text(asset) + "'";
-    if (!weight.is_number()) return "member '" + member + "'" + where + ": the weight of " + shown + " must be a number";
-    const double w = weight.get<double>();
-    if (const std::string problem = storage::weight_problem(w); !problem.empty())
-      return "member '" + member + "'" + where + ": the weight of " + shown + " " + problem;
-    if (!seen.insert(asset).second) return "member '" + member + "': asset " + shown + " appears twice";
-    holdings.push_back({asset, w});
-    return "";
-  };
-  if (value.is_object()) {
-    for (const auto& [asset, weight] : value.items())
-      if (auto error = add(asset, weight, ""); !error.empty()) return error;
-  } else if (value.is_array()) {
-    std::size_t n = 0;
-    for (const auto& element : value) {
-      const std::string where = "[" + std::to_string(n++) + "]";
-      if (!element.is_object() || !element.contains("asset") || !element["asset"].is_string() ||
-          !element.contains("weight") || element.size() != 2)
-        return "member '" + member + "'" + where + ": must be {\"asset\": NAME, \"weight\": NUMBER}";
-      if (auto error = add(element["asset"].get<std::string>(), element["weight"], where); !error.empty()) return error;
-    }
-  } else {
-    return "member '" + member + "': must be an object {\"ASSET\": weight, ...} or an array of {\"asset\", \"weight\"}";
-  }
-  if (holdings.empty()) return "member '" + member + "': no holdings (a file without holdings is refused too)";
-  return holdings;
-}
-
 // "ASSET:CHANGE,ASSET:CHANGE" in a query string (the last ':' splits, so names may hold one).
 std::variant<engine::Holdings, std::string> trade_parameter(const std::string& text) {
   ordered_json changes = ordered_json::array();
@@ -160,48 +121,9 @@ ApiResponse stored_portfolio_risk_endpoint(const ApiContext& context, const ApiR
 }
 
 ApiResponse posted_weights_risk_endpoint(const ApiContext& context, const ApiRequest& r) {
-  ordered_json body;
-  try {
-    body = parse_json_body(r.body);
-  } catch (const std::invalid_argument& e) {
-    return problem(400, std::string("body: ") + e.what(), r.path, "body");
-  }
-  if (!body.is_object())
-    return problem(400, "body: must be a JSON object with \"weights\" (or \"portfolio\": a stored name)", r.path, "body");
   RiskRequest q;
   q.window = WindowQuery{r.path_values.at("name"), r.parameter("as_of").value_or(""), {}};
-  for (const auto& [member, value] : body.items()) {
-    auto bad = [&](const std::string& why) { return problem(400, "member '" + member + "': " + why, r.path, member); };
-    if (member == "weights" || member == "holdings" || member == "benchmark_weights" || member == "trade") {
-      auto holdings = holdings_member(value, member);
-      if (const auto* error = std::get_if<std::string>(&holdings)) return problem(400, *error, r.path, member);
-      auto& target = member == "benchmark_weights" ? q.benchmark_holdings : member == "trade" ? q.trade : q.holdings;
-      if (target && member != "trade") return bad("give \"weights\" or \"holdings\", not both");
-      target = std::get<engine::Holdings>(std::move(holdings));
-    } else if (member == "portfolio" || member == "benchmark" || member == "holdings_as_of") {
-      if (!value.is_string()) return bad("must be a string");
-      (member == "portfolio" ? q.portfolio : member == "benchmark" ? q.benchmark : q.portfolio_as_of) =
-          value.get<std::string>();
-    } else if (member == "no_benchmark") {
-      if (!value.is_boolean()) return bad("must be true or false");
-      q.no_benchmark = value.get<bool>();
-    } else {
-      return bad("unknown member (known: weights, holdings, portfolio, holdings_as_of, benchmark, "
-                 "benchmark_weights, no_benchmark, trade)");
-    }
-  }
-  if (q.holdings && !q.portfolio.empty())
-    return problem(400, "member 'portfolio': give weights or a stored portfolio's name, not both", r.path, "portfolio");
-  if (q.holdings && !q.portfolio_as_of.empty())
-    return problem(400, "member 'holdings_as_of': only for a stored portfolio (\"portfolio\"), not with weights", r.path,
-                   "holdings_as_of");
-  if (!q.holdings && q.portfolio.empty())
-    return problem(400, "body: needs \"weights\" (or \"holdings\"), or \"portfolio\": a stored name", r.path, "weights");
-  if (q.benchmark_holdings && !q.benchmark.empty())
-    return problem(400, "member 'benchmark': give a stored name or \"benchmark_weights\", not both", r.path,
-                   "benchmark");
-  if (q.no_benchmark && (q.benchmark_holdings || !q.benchmark.empty()))
-    return problem(400, "member 'no_benchmark': true, yet a benchmark is given", r.path, "no_benchmark");
+  if (auto bad = read_risk_body(r.body, q)) return problem(400, bad->message, r.path, bad->field);
   return answer(context, r, q);
 }
 

@@ -28,6 +28,9 @@ Word swap_bytes(Word w) {
 
 template <typename T>
 void append_words(std::string& out, const T* values, std::size_t n) {
+  // An empty matrix or vector has no data pointer, and memcpy from null is undefined
+  // even for 0 bytes (UBSan aborts the refresh that stores one).
+  if (n == 0) return;
   const std::size_t at = out.size();
   out.resize(at + n * sizeof(T));
   std::memcpy(out.data() + at, values, n * sizeof(T));
@@ -39,6 +42,7 @@ void append_words(std::string& out, const T* values, std::size_t n) {
 
 template <typename T>
 void read_words(const void* data, std::size_t n, T* out) {
+  if (n == 0) return;  // out (an empty matrix's data) may be null, as above
   std::memcpy(out, data, n * sizeof(T));
   if (!host_is_little_endian())
     for (std::size_t i = 0; i < n; ++i) out[i] = swap_bytes(out[i]);

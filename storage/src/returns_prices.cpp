@@ -57,7 +57,9 @@ engine::ReturnsPanel prices_to_returns(const engine::ReturnsPanel& prices, bool 
         continue;
       }
       // Prices are > 0, so ratio <= 0 only by underflow; +inf by overflow fails the limit.
-      if (!(ratio > 0 && ratio - 1 <= kLargestReturn)) implausible_ratio(prices, t, j, path, lines);
+      // A ratio below about 1e-16 is > 0 yet makes ratio - 1 round to -1: a -100 % return
+      // the returns rule refuses (found by fuzz/fuzz_returns_csv.cpp), refused here too.
+      if (!(ratio > 0 && ratio - 1 > -1 && ratio - 1 <= kLargestReturn)) implausible_ratio(prices, t, j, path, lines);
       r[j] = log_returns ? std::log(ratio) : ratio - 1;
     }
   }

@@ -1,0 +1,44 @@
+// What every fuzz target checks besides "no crash, no sanitizer report, no leak": a
+// reader either returns a value that keeps its documented promises or fails with a clean
+// error (a known exception type, a message a person can act on, a line inside the input).
+// A broken promise aborts, which libFuzzer reports as a crash with the input saved.
+#pragma once
+
+#include <algorithm>
+#include <cstddef>
+#include <cstdint>
+#include <cstdio>
+#include <cstdlib>
+#include <string>
+#include <string_view>
+
+#include "api_message.h"
+
+namespace factorwatch::fuzz {
+
+// Aborts with `what` when `ok` is false (assert() would vanish under NDEBUG).
+inline void require(bool ok, const char* what) {
+  if (ok) return;
+  std::fprintf(stderr, "fuzz invariant broken: %s\n", what);
+  std::abort();
+}
+
+inline std::string_view as_text(const std::uint8_t* data, std::size_t size) {
+  return {reinterpret_cast<const char*>(data), size};
+}
+
+// A physical line of `text` can be named: 1 .. (newlines + 1). 0 means "no line".
+inline void require_line_in(std::size_t line, std::string_view text) {
+  const auto lines = static_cast<std::size_t>(std::count(text.begin(), text.end(), '\n')) + 1;
+  require(line <= lines, "the error names a line past the end of the input");
+}
+
+// An error message must say something, and the daemon must be able to send it: build the
+// RFC 9457 body exactly as a handler does and check that it is JSON again.
+inline void require_clean_message(const std::string& message, const std::string& field = "") {
+  require(!message.empty(), "an error without a message");
+  const server::ApiResponse response = server::problem(400, message, "/fuzz", field);
+  require(response.body && nlohmann::json::accept(*response.body), "the problem body is not JSON");
+}
+
+}  // namespace factorwatch::fuzz
