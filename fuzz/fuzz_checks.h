@@ -5,10 +5,12 @@
 #pragma once
 
 #include <algorithm>
+#include <cmath>
 #include <cstddef>
 #include <cstdint>
 #include <cstdio>
 #include <cstdlib>
+#include <set>
 #include <string>
 #include <string_view>
 
@@ -39,6 +41,19 @@ inline void require_clean_message(const std::string& message, const std::string&
   require(!message.empty(), "an error without a message");
   const server::ApiResponse response = server::problem(400, message, "/fuzz", field);
   require(response.body && nlohmann::json::accept(*response.body), "the problem body is not JSON");
+}
+
+// What a holdings reader promises of a file it accepted (both formats): at least one
+// holding, each asset named once, every weight finite.
+template <class HoldingsFile>
+void require_holdings_promises(const HoldingsFile& file) {
+  require(!file.holdings.empty(), "a holdings file read without holdings");
+  std::set<std::string> seen;
+  for (const auto& h : file.holdings) {
+    require(!h.asset.empty(), "an empty asset name");
+    require(std::isfinite(h.weight), "a weight that is not finite");
+    require(seen.insert(h.asset).second, "an asset held twice");
+  }
 }
 
 }  // namespace factorwatch::fuzz

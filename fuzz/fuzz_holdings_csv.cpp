@@ -1,7 +1,4 @@
 // The holdings CSV reader (asset,weight; storage/src/holdings_csv.cpp) on any text.
-#include <cmath>
-#include <set>
-
 #include "factorwatch/storage/input_error.h"
 #include "fuzz_checks.h"
 #include "holdings_file.h"
@@ -12,13 +9,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   const std::string_view text = fuzz::as_text(data, size);
   try {
     const auto file = storage::detail::read_holdings_csv(text, "fuzz.csv");
-    fuzz::require(!file.holdings.empty(), "a holdings file read without holdings");
-    std::set<std::string> seen;
-    for (const auto& h : file.holdings) {
-      fuzz::require(!h.asset.empty(), "an empty asset name");
-      fuzz::require(std::isfinite(h.weight), "a weight that is not finite");
-      fuzz::require(seen.insert(h.asset).second, "an asset held twice");
-    }
+    fuzz::require_holdings_promises(file);
   } catch (const storage::InputError& e) {
     fuzz::require_line_in(e.line(), text);
     fuzz::require_clean_message(e.what(), e.field());

@@ -1,8 +1,5 @@
 // The holdings JSON reader ({"as_of", "benchmark", "weights" | "holdings"};
 // storage/src/holdings_json.cpp) on any text.
-#include <cmath>
-#include <set>
-
 #include "factorwatch/storage/input_error.h"
 #include "fuzz_checks.h"
 #include "holdings_file.h"
@@ -13,13 +10,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   const std::string_view text = fuzz::as_text(data, size);
   try {
     const auto file = storage::detail::read_holdings_json(text, "fuzz.json");
-    fuzz::require(!file.holdings.empty(), "a holdings file read without holdings");
-    std::set<std::string> seen;
-    for (const auto& h : file.holdings) {
-      fuzz::require(!h.asset.empty(), "an empty asset name");
-      fuzz::require(std::isfinite(h.weight), "a weight that is not finite");
-      fuzz::require(seen.insert(h.asset).second, "an asset held twice");
-    }
+    fuzz::require_holdings_promises(file);
     fuzz::require_line_in(file.as_of_line, text);
     fuzz::require_line_in(file.benchmark_line, text);
   } catch (const storage::InputError& e) {
