@@ -93,6 +93,7 @@ TEST(HostRules, ExtraNamesAndWildcardListening) {
   EXPECT_FALSE(everywhere.host_problem("192.0.2.7:9000"));   // an address literal cannot be rebound
   EXPECT_FALSE(everywhere.host_problem("[2001:db8::1]:9000"));
   EXPECT_TRUE(everywhere.host_problem("risk-box.example:9000"));  // a name must be named
+  EXPECT_EQ(HostRules("127.0.0.1", 1, {"LOCALHOST"}).accepted_names(), "127.0.0.1, localhost, [::1]");
 }
 
 TEST(HostRules, OnlyOurOwnOriginIsAccepted) {

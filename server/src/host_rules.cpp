@@ -40,10 +40,14 @@ HostRules::HostRules(const std::string& address, int port, const std::vector<std
     // so every address of this machine is safe to accept.
     any_ip_literal_ = true;
   } else if (!listening.empty()) {
-    names_.push_back(bracketed(listening));
+    add_name(bracketed(listening));
   }
   for (const std::string& name : extra)
-    if (!name.empty()) names_.push_back(bracketed(lower(name)));
+    if (!name.empty()) add_name(bracketed(lower(name)));
+}
+
+void HostRules::add_name(const std::string& name) {
+  if (std::find(names_.begin(), names_.end(), name) == names_.end()) names_.push_back(name);
 }
 
 bool HostRules::name_allowed(const std::string& name) const {

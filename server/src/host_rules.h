@@ -30,6 +30,7 @@ class HostRules {
   std::string accepted_names() const;
 
  private:
+  void add_name(const std::string& name);  // once each, for the message
   bool name_allowed(const std::string& lower_case_name) const;
   std::optional<std::string> authority_problem(std::string_view authority, bool port_required_to_match,
                                                const char* what) const;

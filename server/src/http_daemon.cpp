@@ -327,7 +327,12 @@ bool Daemon::answer_from_head(const httplib::Request& req, httplib::Response& re
   RequestGuard* guard = current_guard;
   auto answer = [&](ApiResponse response) {
     send(response, res);
-    if (guard && has_body(req)) guard->answered_early = true;
+    if (guard && has_body(req)) {
+      // The body is not read: the connection closes after this answer, and says so, so
+      // that a client reusing connections opens a new one for its next request.
+      guard->answered_early = true;
+      res.set_header("Connection", "close");
+    }
     return true;
   };
   // Host first: an answer of any other kind would tell a rebinding page something.
@@ -537,6 +542,7 @@ void Daemon::configure() {
   http_.set_error_handler(httplib::Server::HandlerWithResponse([this](const httplib::Request& req, httplib::Response& res) {
     if (!res.body.empty() || res.content_length_ > 0) return httplib::Server::HandlerResponse::Unhandled;
     const RequestGuard* guard = current_guard;
+    if (guard && (guard->over_budget || guard->timed_out)) res.set_header("Connection", "close");
     if (guard && guard->over_budget) {
       const Route* route = route_for(req.method, req.path, nullptr);
       const std::size_t limit = route ? body_limit(*route, context_.max_upload_bytes) : context_.max_upload_bytes;
