@@ -16,24 +16,10 @@ namespace factorwatch::server {
 namespace {
 
 std::string peer_text(int fd) {
-  sockaddr_storage address{};
-  socklen_t length = sizeof address;
-  if (::getpeername(fd, reinterpret_cast<sockaddr*>(&address), &length) != 0) return "unknown peer";
-  char host[INET6_ADDRSTRLEN] = {};
-  int port = 0;
-  if (address.ss_family == AF_INET) {
-    const auto* v4 = reinterpret_cast<const sockaddr_in*>(&address);
-    ::inet_ntop(AF_INET, &v4->sin_addr, host, sizeof host);
-    port = ntohs(v4->sin_port);
-    return std::string(host) + ":" + std::to_string(port);
-  }
-  if (address.ss_family == AF_INET6) {
-    const auto* v6 = reinterpret_cast<const sockaddr_in6*>(&address);
-    ::inet_ntop(AF_INET6, &v6->sin6_addr, host, sizeof host);
-    port = ntohs(v6->sin6_port);
-    return "[" + std::string(host) + "]:" + std::to_string(port);
-  }
-  return "unknown peer";
+  std::string host;
+  int port = -1;
+  if (!socket_address(fd, false, host, port)) return "unknown peer";
+  return (host.find(':') != std::string::npos ? "[" + host + "]" : host) + ":" + std::to_string(port);
 }
 
 // Reads at most this much per readiness event, so one fast client cannot keep the wait
@@ -41,6 +27,30 @@ std::string peer_text(int fd) {
 constexpr std::size_t kReadChunk = 16 << 10;
 
 }  // namespace
+
+bool socket_address(int fd, bool local, std::string& host, int& port) {
+  sockaddr_storage address{};
+  socklen_t length = sizeof address;
+  host.clear();
+  port = -1;
+  const int rc = local ? ::getsockname(fd, reinterpret_cast<sockaddr*>(&address), &length)
+                       : ::getpeername(fd, reinterpret_cast<sockaddr*>(&address), &length);
+  if (rc != 0) return false;
+  char text[INET6_ADDRSTRLEN] = {};
+  if (address.ss_family == AF_INET) {
+    const auto* v4 = reinterpret_cast<const sockaddr_in*>(&address);
+    ::inet_ntop(AF_INET, &v4->sin_addr, text, sizeof text);
+    port = ntohs(v4->sin_port);
+  } else if (address.ss_family == AF_INET6) {
+    const auto* v6 = reinterpret_cast<const sockaddr_in6*>(&address);
+    ::inet_ntop(AF_INET6, &v6->sin6_addr, text, sizeof text);
+    port = ntohs(v6->sin6_port);
+  } else {
+    return false;
+  }
+  host = text;
+  return true;
+}
 
 Connection::Connection(int fd, std::atomic<std::size_t>* open_count) : fd_(fd), open_count_(open_count) {
   ++*open_count_;
@@ -75,28 +85,32 @@ void ConnectionGate::start() {
   for (int i = 0; i < limits_.workers; ++i) workers_.emplace_back([this] { work_loop(); });
 }
 
-void ConnectionGate::admit(int fd) {
-  auto connection = std::make_unique<Connection>(fd, &open_);
-  connection->deadline = GateClock::now() + limits_.head_deadline;
-  if (stopping_) return;  // closed by the destructor
+// Hands a connection to the wait thread and wakes it.
+void ConnectionGate::post(std::unique_ptr<Connection> connection) {
   {
     std::lock_guard<std::mutex> lock(inbox_mutex_);
     inbox_.push_back(std::move(connection));
   }
+  wake();
+}
+
+void ConnectionGate::wake() {
   const std::uint64_t one = 1;
   [[maybe_unused]] const auto written = ::write(wake_fd_, &one, sizeof one);
+}
+
+void ConnectionGate::admit(int fd) {
+  auto connection = std::make_unique<Connection>(fd, &open_);
+  connection->deadline = GateClock::now() + limits_.head_deadline;
+  if (stopping_) return;  // closed by the destructor
+  post(std::move(connection));
 }
 
 void ConnectionGate::park(std::unique_ptr<Connection> connection) {
   if (stopping_) return;
   connection->idle = connection->received.empty();
   connection->deadline = GateClock::now() + (connection->idle ? limits_.idle_deadline : limits_.head_deadline);
-  {
-    std::lock_guard<std::mutex> lock(inbox_mutex_);
-    inbox_.push_back(std::move(connection));
-  }
-  const std::uint64_t one = 1;
-  [[maybe_unused]] const auto written = ::write(wake_fd_, &one, sizeof one);
+  post(std::move(connection));
 }
 
 void ConnectionGate::drain(std::unique_ptr<Connection> connection) {
@@ -105,20 +119,14 @@ void ConnectionGate::drain(std::unique_ptr<Connection> connection) {
   connection->received.clear();
   connection->deadline = GateClock::now() + limits_.drain_deadline;
   if (stopping_) return;
-  {
-    std::lock_guard<std::mutex> lock(inbox_mutex_);
-    inbox_.push_back(std::move(connection));
-  }
-  const std::uint64_t one = 1;
-  [[maybe_unused]] const auto written = ::write(wake_fd_, &one, sizeof one);
+  post(std::move(connection));
 }
 
 void ConnectionGate::stop() {
   if (stopping_.exchange(true)) {
     // Second call (the destructor after stop()): the threads are joined already.
   } else if (wake_fd_ >= 0) {
-    const std::uint64_t one = 1;
-    [[maybe_unused]] const auto written = ::write(wake_fd_, &one, sizeof one);
+    wake();
   }
   work_ready_.notify_all();
   if (waiter_.joinable()) waiter_.join();

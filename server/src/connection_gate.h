@@ -28,6 +28,10 @@ namespace factorwatch::server {
 
 using GateClock = std::chrono::steady_clock;
 
+// The address at either end of a connected socket (`local`: ours): host as text (IPv6
+// without brackets) and port; false when unknown.
+bool socket_address(int fd, bool local, std::string& host, int& port);
+
 // One client connection. Owned by the gate while it waits and by one worker while a
 // request is served; closing happens in the destructor.
 class Connection {
@@ -98,6 +102,8 @@ class ConnectionGate {
   const GateLimits& limits() const { return limits_; }
 
  private:
+  void post(std::unique_ptr<Connection> connection);
+  void wake();
   void wait_loop();
   void work_loop();
   void take_inbox();

@@ -113,8 +113,8 @@ class GuardedStream final : public httplib::Stream {
     }
   }
 
-  void get_remote_ip_and_port(std::string& ip, int& port) const override { address_of(false, ip, port); }
-  void get_local_ip_and_port(std::string& ip, int& port) const override { address_of(true, ip, port); }
+  void get_remote_ip_and_port(std::string& ip, int& port) const override { socket_address(connection_.fd(), false, ip, port); }
+  void get_local_ip_and_port(std::string& ip, int& port) const override { socket_address(connection_.fd(), true, ip, port); }
   socket_t socket() const override { return connection_.fd(); }
 
   // Bytes of `received` the parser took; the rest belongs to the next request.
@@ -130,27 +130,6 @@ class GuardedStream final : public httplib::Stream {
       if (ready > 0) return true;
       if (ready < 0 && errno != EINTR) return false;
     }
-  }
-
-  void address_of(bool local, std::string& ip, int& port) const {
-    sockaddr_storage address{};
-    socklen_t length = sizeof address;
-    const int rc = local ? ::getsockname(connection_.fd(), reinterpret_cast<sockaddr*>(&address), &length)
-                         : ::getpeername(connection_.fd(), reinterpret_cast<sockaddr*>(&address), &length);
-    ip.clear();
-    port = -1;
-    if (rc != 0) return;
-    char host[INET6_ADDRSTRLEN] = {};
-    if (address.ss_family == AF_INET) {
-      const auto* v4 = reinterpret_cast<const sockaddr_in*>(&address);
-      ::inet_ntop(AF_INET, &v4->sin_addr, host, sizeof host);
-      port = ntohs(v4->sin_port);
-    } else if (address.ss_family == AF_INET6) {
-      const auto* v6 = reinterpret_cast<const sockaddr_in6*>(&address);
-      ::inet_ntop(AF_INET6, &v6->sin6_addr, host, sizeof host);
-      port = ntohs(v6->sin6_port);
-    }
-    ip = host;
   }
 
   Connection& connection_;
