@@ -46,19 +46,8 @@ bool exists(const std::string& path) {
 // `factorwatch ARGUMENTS` on `data_dir` with its stderr kept in `scratch` (the data
 // directory may be read-only or full).
 fw::CommandResult run_on(const std::string& data_dir, const std::string& scratch, const std::string& arguments) {
-  fw::CommandResult r;
-  const std::string err_file = scratch + "/.stderr";
-  const std::string command = "FACTORWATCH_DATA='" + data_dir + "' " + FACTORWATCH_COMMAND + " " + arguments +
-                              " 2>'" + err_file + "'";
-  FILE* pipe = ::popen(command.c_str(), "r");
-  if (!pipe) return r;
-  char buffer[4096];
-  std::size_t n = 0;
-  while ((n = std::fread(buffer, 1, sizeof buffer, pipe)) > 0) r.out.append(buffer, n);
-  const int status = ::pclose(pipe);
-  r.status = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  r.err = fw::read_bytes(err_file);
-  return r;
+  return fw::run_shell("FACTORWATCH_DATA='" + data_dir + "' " + fw::factorwatch_command() + " " + arguments,
+                       scratch + "/.stderr");
 }
 
 // A mount made for one test and undone with it.

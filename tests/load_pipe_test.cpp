@@ -45,24 +45,11 @@ std::string make_file(const TempDir& dir) {
   return path;
 }
 
-// Runs a shell command line (through /bin/sh, as popen does) with FACTORWATCH_DATA set
-// for the whole line; stdout, stderr and the exit code. `timeout` (coreutils) stops a run
-// that would never end, so that a regression fails the test instead of hanging it.
+// Runs a shell command line with FACTORWATCH_DATA set for the whole line. `timeout`
+// (coreutils) stops a run that would never end, so that a regression fails the test
+// instead of hanging it.
 fwt::CommandResult shell(const std::string& data_dir, const std::string& line) {
-  const std::string err_file = data_dir + "/.stderr";
-  const std::string command =
-      "export FACTORWATCH_DATA='" + data_dir + "'; " + line + " 2>'" + err_file + "'";
-  fwt::CommandResult r;
-  FILE* pipe = ::popen(command.c_str(), "r");
-  if (!pipe) return r;
-  char buffer[4096];
-  std::size_t n = 0;
-  while ((n = std::fread(buffer, 1, sizeof buffer, pipe)) > 0) r.out.append(buffer, n);
-  const int status = ::pclose(pipe);
-  r.status = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  r.err = fwt::read_bytes(err_file);
-  std::remove(err_file.c_str());
-  return r;
+  return fwt::run_shell("export FACTORWATCH_DATA='" + data_dir + "'; " + line, data_dir + "/.stderr");
 }
 
 const std::string kCommand = FACTORWATCH_COMMAND;

@@ -96,12 +96,12 @@ inline std::string factorwatch_command() {
   return other && *other ? other : FACTORWATCH_COMMAND;
 }
 
-// Runs `factorwatch ARGUMENTS` with FACTORWATCH_DATA=data_dir.
-inline CommandResult run_factorwatch(const std::string& data_dir, const std::string& arguments) {
+// Runs a shell command line (through /bin/sh, as popen does) with its standard error sent
+// to `err_file`, which is read and then removed; stdout, stderr and the exit code (-1 when
+// the line could not start or did not exit normally).
+inline CommandResult run_shell(const std::string& line, const std::string& err_file) {
   CommandResult r;
-  const std::string err_file = data_dir + "/.stderr";
-  const std::string command = "FACTORWATCH_DATA='" + data_dir + "' " + factorwatch_command() + " " + arguments +
-                              " 2>'" + err_file + "'";
+  const std::string command = "{ " + line + "; } 2>'" + err_file + "'";
   FILE* pipe = ::popen(command.c_str(), "r");
   if (!pipe) return r;
   std::array<char, 4096> buffer{};
@@ -112,6 +112,12 @@ inline CommandResult run_factorwatch(const std::string& data_dir, const std::str
   r.err = read_bytes(err_file);
   std::remove(err_file.c_str());
   return r;
+}
+
+// Runs `factorwatch ARGUMENTS` with FACTORWATCH_DATA=data_dir.
+inline CommandResult run_factorwatch(const std::string& data_dir, const std::string& arguments) {
+  return run_shell("FACTORWATCH_DATA='" + data_dir + "' " + factorwatch_command() + " " + arguments,
+                   data_dir + "/.stderr");
 }
 
 }  // namespace factorwatch::testing
