@@ -349,7 +349,8 @@ TEST(PortfolioRisk, RejectsRepeatedAssetsAndNonFiniteWeights) {
       {{{"A001", 0.1}, {"X1", -inf}}, "X1"},
   };
   for (const auto& [holdings, asset] : cases) {
-    const std::string message = invalid_argument_message([&] { fw::portfolio_risk(model, holdings); });
+    const auto& weights = holdings;  // a lambda may not capture a structured binding before C++20
+    const std::string message = invalid_argument_message([&] { fw::portfolio_risk(model, weights); });
     EXPECT_NE(message.find("'" + asset + "'"), std::string::npos) << "no error naming " << asset << ": " << message;
   }
 }

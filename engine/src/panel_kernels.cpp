@@ -8,6 +8,10 @@
 #include <omp.h>
 #endif
 
+// Without AVX-512 the compilers warn that passing v8d by value has another ABI than with
+// it; these helpers are internal to this file (and inlined), so no call crosses that ABI.
+#pragma GCC diagnostic ignored "-Wpsabi"
+
 namespace factorwatch::engine::detail {
 namespace {
 

@@ -55,7 +55,8 @@ void column_statistics(const RowMatrix& values, const Eigen::VectorXd& w, Eigen:
   coverage = Eigen::VectorXd::Zero(width);
   mean = Eigen::VectorXd::Zero(width);
   variance = Eigen::VectorXd::Zero(width);
-  const bool parallel = values.size() >= kParallelEntries;
+  // Read only by OpenMP's `if`: unused in a build without OpenMP.
+  [[maybe_unused]] const bool parallel = values.size() >= kParallelEntries;
 #pragma omp parallel if (parallel)
   {
     Eigen::VectorXd c = Eigen::VectorXd::Zero(width), m = Eigen::VectorXd::Zero(width);
