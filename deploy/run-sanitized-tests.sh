@@ -54,14 +54,21 @@ stage "sanitized test suite"
 [ "$status" -eq 0 ] || exit "$status"
 
 export FACTORWATCH_FUZZ_BUILD="$PWD/$build"
-rm -rf "$build/seeds" "$build/corpus"
-for target in $(ls fuzz/fuzz_*.cpp | xargs -n1 basename | sed 's/\.cpp$//'); do
-  log="$build/$target.log"
+rm -rf "$build/seeds" "$build/corpus" "$build/artifacts"
+# Writes the seeds once, before the targets run side by side.
+./fuzz/make-seeds.sh "$build/seeds" "$build/demo-universe/factorwatch-demo-universe" >/dev/null
+# One target per core at a time; each prints one line, or its log's end and the input.
+smoke_one() {
+  local target="$1" log="$build/$1.log"
   if ! ./fuzz/run-fuzzer.sh "$target" -max_total_time="$smoke_seconds" >"$log" 2>&1; then
     tail -n 60 "$log"
     echo "run-sanitized-tests: $target found a problem; the input is in $build/artifacts/"
-    exit 1
+    return 1
   fi
-  echo "run-sanitized-tests: $target: $(grep -E '^stat::number_of_executed_units' "$log" | awk '{print $2}') runs, no finding"
-done
-stage "fuzz smoke ($smoke_seconds s per target)"
+  echo "run-sanitized-tests: $target: $(grep -E '^stat::number_of_executed_units' "$log" | awk '{print $2}') runs," \
+    "$(grep -E '^stat::average_exec_per_sec' "$log" | awk '{print $2}') per second, no finding"
+}
+export -f smoke_one
+export build smoke_seconds
+ls fuzz/fuzz_*.cpp | xargs -n1 basename | sed 's/\.cpp$//' | xargs -P "$jobs" -I{} bash -c 'smoke_one {}'
+stage "fuzz smoke ($smoke_seconds s per target, $jobs at a time)"

@@ -37,10 +37,13 @@ seed fuzz_returns_csv long_prices.csv $'l\xEF\xBB\xBFdate,asset,return\r\n2024-0
 # A tiny demo universe (fictional), when the generator is at hand.
 if [ -n "$generator" ] && [ -x "$generator" ]; then
   demo=$(mktemp -d)
-  "$generator" --out "$demo" --assets 6 --years 1 >/dev/null
+  # The generator's smallest universe (20 assets); the wide file cut to 13 dates, since
+  # inputs are at most 4096 bytes (fuzz/run-fuzzer.sh).
+  "$generator" --out "$demo" --assets 20 --years 1 >/dev/null
+  head -n 14 "$demo/returns_wide.csv" >"$demo/wide.csv"
   prefixed fuzz_returns_csv demo_long.csv r "$demo/returns_long.csv"
-  prefixed fuzz_returns_csv demo_wide.csv r "$demo/returns_wide.csv"
-  prefixed fuzz_returns_csv demo_wide_prices.csv s "$demo/returns_wide.csv"
+  prefixed fuzz_returns_csv demo_wide.csv r "$demo/wide.csv"
+  prefixed fuzz_returns_csv demo_wide_prices.csv s "$demo/wide.csv"
   rm -rf "$demo"
 fi
 
