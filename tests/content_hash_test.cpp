@@ -8,6 +8,7 @@
 
 #include "blob_codec.h"
 #include "factorwatch/storage/content_hash.h"
+#include "factorwatch/storage/returns_csv.h"
 #include "fingerprint.h"
 #include "sha256.h"
 #include "storage_fixtures.h"
@@ -59,6 +60,24 @@ TEST(Sha256, FileHashMatchesSha256sum) {
   ASSERT_EQ(std::fread(digest, 1, 64, pipe), 64u);
   ::pclose(pipe);
   EXPECT_EQ(factorwatch::storage::file_sha256(dir.file("f.csv")), std::string(digest));
+}
+
+// The returns reader hashes a small file on its own thread and a large one (1 MiB and
+// more) on another while it parses: on both sides of that line the recorded hash is what
+// `sha256sum FILE` prints (GNU coreutils).
+TEST(Sha256, ReturnsReaderHashMatchesSha256sumOnBothSidesOfTheThreadLine) {
+  factorwatch::testing::TempDir dir;
+  for (const int assets : {2000, 40000}) {  // about 55 KB and 1.2 MB
+    std::string text = "date,asset,return\n";
+    for (int i = 0; i < assets; ++i) text += "2024-01-02,ZQ-" + std::to_string(100000 + i) + ",0.001\n";
+    const std::string path = dir.file("r" + std::to_string(assets) + ".csv");
+    factorwatch::testing::write_text(path, text);
+    const auto r = factorwatch::testing::run_shell("sha256sum '" + path + "'", dir.file(".stderr"));
+    ASSERT_EQ(r.status, 0) << r.err;
+    const auto file = factorwatch::storage::read_returns_file(path, {});
+    EXPECT_EQ(file.content_sha256, r.out.substr(0, 64)) << text.size() << " bytes";
+    EXPECT_EQ(file.panel.assets.size(), static_cast<std::size_t>(assets));
+  }
 }
 
 TEST(Fingerprint, ChangesWithAnyBit) {
