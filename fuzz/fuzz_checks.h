@@ -43,13 +43,22 @@ inline void require_clean_message(const std::string& message, const std::string&
   require(response.body && nlohmann::json::accept(*response.body), "the problem body is not JSON");
 }
 
-// What a holdings reader promises of a file it accepted (both formats): at least one
-// holding, each asset named once, every weight finite.
-template <class HoldingsFile>
-void require_holdings_promises(const HoldingsFile& file) {
-  require(!file.holdings.empty(), "a holdings file read without holdings");
+// A reader's error about its input: a line inside the input and a message the daemon can
+// send as a problem.
+template <class InputError>
+void require_clean_input_error(const InputError& e, std::string_view text) {
+  require_line_in(e.line(), text);
+  require_clean_message(e.what(), e.field());
+}
+
+// What every reader of holdings promises of those it accepted (files in both formats,
+// weights in a request body): at least one holding, each asset named once, every weight
+// finite.
+template <class Holdings>
+void require_holdings_promises(const Holdings& holdings) {
+  require(!holdings.empty(), "holdings read without a holding");
   std::set<std::string> seen;
-  for (const auto& h : file.holdings) {
+  for (const auto& h : holdings) {
     require(!h.asset.empty(), "an empty asset name");
     require(std::isfinite(h.weight), "a weight that is not finite");
     require(seen.insert(h.asset).second, "an asset held twice");

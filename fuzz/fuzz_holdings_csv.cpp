@@ -9,10 +9,9 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   const std::string_view text = fuzz::as_text(data, size);
   try {
     const auto file = storage::detail::read_holdings_csv(text, "fuzz.csv");
-    fuzz::require_holdings_promises(file);
+    fuzz::require_holdings_promises(file.holdings);
   } catch (const storage::InputError& e) {
-    fuzz::require_line_in(e.line(), text);
-    fuzz::require_clean_message(e.what(), e.field());
+    fuzz::require_clean_input_error(e, text);
   }
   return 0;
 }

@@ -55,8 +55,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
     check_file(storage::read_returns_text(text, "fuzz.csv", {mode}), mode);
   } catch (const storage::InputError& e) {
     fuzz::require(e.path() == "fuzz.csv", "the error names another file");
-    fuzz::require_line_in(e.line(), text);
-    fuzz::require_clean_message(e.what(), e.field());
+    fuzz::require_clean_input_error(e, text);
   }
   return 0;
 }

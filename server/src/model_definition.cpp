@@ -14,7 +14,7 @@ using json = nlohmann::ordered_json;
 // Only the start is looked at, by a plain scan: the rest may quote the client's strings.
 // (std::regex was used before: libstdc++'s recurses once per character matched, so a
 // universe naming "option '--" and 100 000 letters twice overflowed the daemon's stack.)
-std::pair<std::string, std::string> as_member_message(const std::string& message) {
+BodyProblem as_member_message(const std::string& message) {
   constexpr std::string_view kOption = "option '--";
   if (message.rfind(kOption, 0) == 0) {
     const auto end = message.find('\'', kOption.size());
@@ -31,9 +31,9 @@ std::pair<std::string, std::string> as_member_message(const std::string& message
 
 // Applies the members of a model definition to `config`; a message naming the member
 // when one is unknown or of the wrong type.
-std::optional<std::pair<std::string, std::string>> apply_definition(const json& body, storage::ModelConfig& config) {
+std::optional<BodyProblem> apply_definition(const json& body, storage::ModelConfig& config) {
   auto bad = [](const std::string& member, const std::string& why) {
-    return std::make_optional(std::make_pair("member '" + member + "': " + why, member));
+    return std::make_optional(BodyProblem{"member '" + member + "': " + why, member});
   };
   for (const auto& [member, value] : body.items()) {
     if (member == "universe") {
@@ -123,12 +123,9 @@ std::optional<BodyProblem> read_model_definition(std::string_view text, storage:
     return BodyProblem{std::string("body: ") + e.what(), "body"};
   }
   if (!body.is_object()) return BodyProblem{"body: must be a JSON object of model settings", "body"};
-  if (auto bad = apply_definition(body, config)) return BodyProblem{bad->first, bad->second};
+  if (auto bad = apply_definition(body, config)) return bad;
   std::string error;
-  if (!config.IsValid(&error)) {
-    auto [message, member] = as_member_message(error);
-    return BodyProblem{std::move(message), std::move(member)};
-  }
+  if (!config.IsValid(&error)) return as_member_message(error);
   return std::nullopt;
 }
 
