@@ -13,7 +13,7 @@
 namespace factorwatch::server {
 namespace {
 
-void print_table(const AlertList& a) {
+void print_alerts_table(const AlertList& a) {
   const storage::ModelConfig& c = a.model.config;
   std::printf("model %s, version %d: %zu alert%s\n", a.model.name.c_str(), a.model.version, a.alerts.size(),
               a.alerts.size() == 1 ? "" : "s");
@@ -54,7 +54,7 @@ int run_alerts_command(const AlertsArguments& a, const GlobalArguments& global) 
     if (auto f = find_alerts(*db, {a.model, a.from, a.to}, list)) return report_query_failure("alerts", f, a.model);
     if (a.format == "csv") std::cout << alerts_csv(list);
     else if (a.format == "json") std::cout << alerts_json(list).dump(2) << "\n";
-    else print_table(list);
+    else print_alerts_table(list);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch alerts: %s\n", e.what());
     return kExitFailed;

@@ -12,21 +12,6 @@
 namespace factorwatch::server {
 namespace {
 
-// A failed lookup as a problem naming the query parameter (the model: the path's {name}).
-ApiResponse query_problem(const ApiRequest& r, const QueryFailure& f) {
-  if (f.outcome == QueryOutcome::no_model) return unknown_model(r, f.value);
-  const std::string detail = "query parameter '" + f.field + "'" + (f.value.empty() ? "" : " = '" + f.value + "'") +
-                             ": " + f.message;
-  if (f.outcome == QueryOutcome::bad_input) return problem(400, detail, r.path, f.field);
-  return problem(404, detail + (f.refresh_helps ? "; start a refresh with POST /v1/models/" + r.path_values.at("name") + "/refresh" : ""),
-                 r.path, f.field);
-}
-
-// Every body here carries risk numbers: the caution header too.
-ApiResponse csv_body(std::string body, const std::string& filename) {
-  return csv_response(std::make_shared<const std::string>(std::move(body)), filename, true);
-}
-
 RangeQuery range_of(const ApiRequest& r) {
   return {r.path_values.at("name"), r.parameter("from").value_or(""), r.parameter("to").value_or("")};
 }
@@ -46,11 +31,11 @@ ApiResponse drift_endpoint(const ApiContext& context, const ApiRequest& r) {
     WindowDrift d;
     if (auto failed = find_window_drift(db, query.model, *window, against, d)) return query_problem(r, failed);
     const std::string filename = query.model + "-drift-" + d.record.as_of + "-" + d.record.against + ".csv";
-    return f == Format::csv ? csv_body(window_drift_csv(d), filename) : json_response(window_drift_json(d));
+    return f == Format::csv ? risk_csv(window_drift_csv(d), filename) : json_response(window_drift_json(d));
   }
   DriftSeries s;
   if (auto failed = find_drift_series(db, query, against, s)) return query_problem(r, failed);
-  return f == Format::csv ? csv_body(drift_csv(s), query.model + "-drift.csv") : json_response(drift_json(s));
+  return f == Format::csv ? risk_csv(drift_csv(s), query.model + "-drift.csv") : json_response(drift_json(s));
 }
 
 ApiResponse history_endpoint(const ApiContext& context, const ApiRequest& r) {
@@ -61,7 +46,7 @@ ApiResponse history_endpoint(const ApiContext& context, const ApiRequest& r) {
   AssetHistory h;
   if (auto failed = find_asset_history(context.database(), query, r.parameter("asset").value_or(""), h))
     return query_problem(r, failed);
-  return f == Format::csv ? csv_body(history_csv(h), query.model + "-history-" + file_part(h.asset) + ".csv")
+  return f == Format::csv ? risk_csv(history_csv(h), query.model + "-history-" + file_part(h.asset) + ".csv")
                           : json_response(history_json(h));
 }
 
@@ -72,7 +57,7 @@ ApiResponse alerts_endpoint(const ApiContext& context, const ApiRequest& r) {
   const RangeQuery query = range_of(r);
   AlertList a;
   if (auto failed = find_alerts(context.database(), query, a)) return query_problem(r, failed);
-  return f == Format::csv ? csv_body(alerts_csv(a), query.model + "-alerts.csv") : json_response(alerts_json(a));
+  return f == Format::csv ? risk_csv(alerts_csv(a), query.model + "-alerts.csv") : json_response(alerts_json(a));
 }
 
 }  // namespace factorwatch::server

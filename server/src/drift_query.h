@@ -32,6 +32,10 @@ struct QueryFailure {
   explicit operator bool() const { return outcome != QueryOutcome::found; }
 };
 
+inline QueryFailure query_failure(QueryOutcome outcome, std::string field, std::string value, std::string message) {
+  return {outcome, std::move(field), std::move(value), std::move(message)};
+}
+
 // The model and an optional date range ("" = open end).
 struct RangeQuery {
   std::string model;

@@ -2,6 +2,7 @@
 
 #include <cctype>
 
+#include "drift_query.h"
 #include "factorwatch/engine/caution.h"
 
 namespace factorwatch::server {
@@ -34,6 +35,21 @@ ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::str
   r.headers.emplace_back("Content-Disposition", "inline; filename=\"" + filename + "\"");
   if (risk_numbers) r.headers.emplace_back(kCautionHeader, engine::kCaution);
   return r;
+}
+
+ApiResponse risk_csv(std::string body, const std::string& filename) {
+  return csv_response(std::make_shared<const std::string>(std::move(body)), filename, true);
+}
+
+ApiResponse query_problem(const ApiRequest& r, const QueryFailure& f) {
+  if (f.outcome == QueryOutcome::no_model) return unknown_model(r, f.value);
+  const std::string hint =
+      f.refresh_helps ? "; start a refresh with POST /v1/models/" + r.path_values.at("name") + "/refresh" : "";
+  if (f.field.empty()) return problem(404, f.message + hint, r.path);  // no window stored at all yet
+  const std::string detail = "query parameter '" + f.field + "'" + (f.value.empty() ? "" : " = '" + f.value + "'") +
+                             ": " + f.message;
+  if (f.outcome == QueryOutcome::bad_input) return problem(400, detail, r.path, f.field);
+  return problem(404, detail + hint, r.path, f.field);
 }
 
 std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& r, const std::string& name) {

@@ -12,6 +12,8 @@
 
 namespace factorwatch::server {
 
+struct QueryFailure;
+
 enum class Format { json, csv };
 
 // `format=json|csv` wins; else `Accept: text/csv` asks for CSV; else JSON. A bad
@@ -23,6 +25,14 @@ ApiResponse json_response(const nlohmann::ordered_json& j, int status = 200);
 // A CSV body with the caution in the Factorwatch-Caution header (the body's first line
 // carries it too) and a file name for browsers and spreadsheet programs.
 ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::string& filename, bool risk_numbers);
+
+// The same for a body of risk numbers built as text (drift, factor returns, residuals).
+ApiResponse risk_csv(std::string body, const std::string& filename);
+
+// A failed drift, history, alerts, factor-returns or residuals lookup as a problem naming
+// the query parameter: 400 for bad input, 404 for what is not stored (with the refresh
+// route when a refresh would store it); an unknown model names the path's {name}.
+ApiResponse query_problem(const ApiRequest& request, const QueryFailure& failure);
 
 // A true/false query parameter (true, false, 1, 0, yes, no); a 400 naming it otherwise.
 std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& request, const std::string& name);

@@ -20,7 +20,7 @@ void print_header(const SelectedWindow& s) {
   if (!s.note.empty()) std::printf("note: %s\n", s.note.c_str());
 }
 
-void print_table(const SelectedWindow& s, int limit) {
+void print_exposures_table(const SelectedWindow& s, int limit) {
   const engine::FactorFit& f = s.window.fit;
   print_header(s);
   std::printf("\nfactor  share of variance  assets loading most\n");
@@ -68,7 +68,7 @@ int run_exposures_command(const WindowArguments& a, const GlobalArguments& globa
   return run_on_window(a, global, "exposures", [&a](const SelectedWindow& s) {
     if (a.format == "csv") std::cout << exposures_csv(s);
     else if (a.format == "json") std::cout << exposures_json(s).dump(2) << "\n";
-    else print_table(s, a.limit);
+    else print_exposures_table(s, a.limit);
   });
 }
 

@@ -8,26 +8,6 @@
 #include "residuals_view.h"
 
 namespace factorwatch::server {
-namespace {
-
-// A failed lookup as a problem naming the query parameter (the model: the path's {name}).
-ApiResponse query_problem(const ApiRequest& r, const QueryFailure& f) {
-  if (f.outcome == QueryOutcome::no_model) return unknown_model(r, f.value);
-  const std::string hint =
-      f.refresh_helps ? "; start a refresh with POST /v1/models/" + r.path_values.at("name") + "/refresh" : "";
-  if (f.field.empty()) return problem(404, f.message + hint, r.path);  // no window at all yet
-  const std::string detail = "query parameter '" + f.field + "'" + (f.value.empty() ? "" : " = '" + f.value + "'") +
-                             ": " + f.message;
-  if (f.outcome == QueryOutcome::bad_input) return problem(400, detail, r.path, f.field);
-  return problem(404, detail + hint, r.path, f.field);
-}
-
-// Every body here carries risk numbers: the caution header too.
-ApiResponse csv_body(std::string body, const std::string& filename) {
-  return csv_response(std::make_shared<const std::string>(std::move(body)), filename, true);
-}
-
-}  // namespace
 
 ApiResponse factor_returns_endpoint(const ApiContext& context, const ApiRequest& r) {
   const auto format = negotiate_format(r);
@@ -44,12 +24,12 @@ ApiResponse factor_returns_endpoint(const ApiContext& context, const ApiRequest&
     if (auto failed = find_window_factor_returns(db, query.model, *window, method, w)) return query_problem(r, failed);
     const std::string filename = query.model + "-factor-returns-" + w.window.window.as_of + "-" +
                                  engine::to_string(w.scores.method) + ".csv";
-    return f == Format::csv ? csv_body(window_factor_returns_csv(w), filename) : json_response(window_factor_returns_json(w));
+    return f == Format::csv ? risk_csv(window_factor_returns_csv(w), filename) : json_response(window_factor_returns_json(w));
   }
   FactorReturnSeriesAnswer s;
   if (auto failed = find_factor_return_series(db, query, method, s)) return query_problem(r, failed);
   return f == Format::csv
-             ? csv_body(factor_return_series_csv(s),
+             ? risk_csv(factor_return_series_csv(s),
                         query.model + "-factor-returns-" + engine::to_string(s.series.method) + ".csv")
              : json_response(factor_return_series_json(s));
 }
@@ -65,7 +45,7 @@ ApiResponse residuals_endpoint(const ApiContext& context, const ApiRequest& r) {
     return query_problem(r, failed);
   const std::string filename = model + "-residuals-" + file_part(a.residuals.asset) + "-" + a.window.window.as_of +
                                "-" + engine::to_string(a.residuals.method) + ".csv";
-  return f == Format::csv ? csv_body(residuals_csv(a), filename) : json_response(residuals_json(a));
+  return f == Format::csv ? risk_csv(residuals_csv(a), filename) : json_response(residuals_json(a));
 }
 
 }  // namespace factorwatch::server

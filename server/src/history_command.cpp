@@ -12,7 +12,7 @@
 namespace factorwatch::server {
 namespace {
 
-void print_table(const AssetHistory& h) {
+void print_history_table(const AssetHistory& h) {
   const Eigen::Index k = h.model.config.factors;
   std::size_t present = 0;
   for (const auto& p : h.points) present += p.present;
@@ -55,7 +55,7 @@ int run_history_command(const HistoryArguments& a, const GlobalArguments& global
       return report_query_failure("history", f, a.model);
     if (a.format == "csv") std::cout << history_csv(h);
     else if (a.format == "json") std::cout << history_json(h).dump(2) << "\n";
-    else print_table(h);
+    else print_history_table(h);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch history: %s\n", e.what());
     return kExitFailed;

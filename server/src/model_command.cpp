@@ -53,7 +53,7 @@ std::string number_text(double x) {
   return text;
 }
 
-int run_set(const ModelArguments& a, storage::Database& db) {
+int run_model_set(const ModelArguments& a, storage::Database& db) {
   storage::ModelConfig config;
   if (auto current = storage::find_model(db, a.name)) config = current->config;
   try {
@@ -110,7 +110,7 @@ int run_set(const ModelArguments& a, storage::Database& db) {
   return kExitOk;
 }
 
-int run_show(const ModelArguments& a, storage::Database& db) {
+int run_model_show(const ModelArguments& a, storage::Database& db) {
   const auto m = storage::find_model(db, a.name);
   if (!m) {
     std::fprintf(stderr, "factorwatch model show: no model named '%s'\n", a.name.c_str());
@@ -128,7 +128,7 @@ int run_show(const ModelArguments& a, storage::Database& db) {
   return kExitOk;
 }
 
-int run_list(storage::Database& db) {
+int run_model_list(storage::Database& db) {
   const auto models = storage::list_models(db);
   if (models.empty()) {
     std::printf("no models yet; define one with: factorwatch model set NAME --factors K --window DATES\n");
@@ -218,9 +218,9 @@ int run_model_command(const ModelArguments& a, const GlobalArguments& global) {
   auto db = open_database(global, "model");
   if (!db) return kExitFailed;
   try {
-    if (a.set->parsed()) return run_set(a, *db);
-    if (a.show->parsed()) return run_show(a, *db);
-    return run_list(*db);
+    if (a.set->parsed()) return run_model_set(a, *db);
+    if (a.show->parsed()) return run_model_show(a, *db);
+    return run_model_list(*db);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch model: %s\n", e.what());
     return kExitFailed;

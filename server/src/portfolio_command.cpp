@@ -12,7 +12,7 @@
 namespace factorwatch::server {
 namespace {
 
-int run_set(const PortfolioArguments& a, storage::Database& db) {
+int run_portfolio_set(const PortfolioArguments& a, storage::Database& db) {
   storage::Portfolio portfolio;
   try {
     portfolio = storage::read_portfolio_file(a.path, {a.name, a.as_of, a.benchmark});
@@ -39,7 +39,7 @@ int run_set(const PortfolioArguments& a, storage::Database& db) {
   return kExitOk;
 }
 
-int run_list(const PortfolioArguments& a, storage::Database& db) {
+int run_portfolio_list(const PortfolioArguments& a, storage::Database& db) {
   const auto portfolios = storage::list_portfolios(db);
   if (a.format == "json") {
     std::cout << portfolio_list_json(portfolios).dump(2) << "\n";
@@ -57,7 +57,7 @@ int run_list(const PortfolioArguments& a, storage::Database& db) {
   return kExitOk;
 }
 
-int run_show(const PortfolioArguments& a, storage::Database& db) {
+int run_portfolio_show(const PortfolioArguments& a, storage::Database& db) {
   if (!a.as_of.empty() && !storage::is_calendar_date(a.as_of)) {
     std::fprintf(stderr, "factorwatch portfolio show: option '--as-of': '%s' is not a date (yyyy-mm-dd)\n",
                  a.as_of.c_str());
@@ -88,7 +88,7 @@ int run_show(const PortfolioArguments& a, storage::Database& db) {
   return kExitOk;
 }
 
-int run_delete(const PortfolioArguments& a, storage::Database& db) {
+int run_portfolio_delete(const PortfolioArguments& a, storage::Database& db) {
   if (!a.as_of.empty() && !storage::is_calendar_date(a.as_of)) {
     std::fprintf(stderr, "factorwatch portfolio delete: option '--as-of': '%s' is not a date (yyyy-mm-dd)\n",
                  a.as_of.c_str());
@@ -137,10 +137,10 @@ int run_portfolio_command(const PortfolioArguments& a, const GlobalArguments& gl
   auto db = open_database(global, "portfolio");
   if (!db) return kExitFailed;
   try {
-    if (a.set->parsed()) return run_set(a, *db);
-    if (a.list->parsed()) return run_list(a, *db);
-    if (a.show->parsed()) return run_show(a, *db);
-    if (a.remove->parsed()) return run_delete(a, *db);
+    if (a.set->parsed()) return run_portfolio_set(a, *db);
+    if (a.list->parsed()) return run_portfolio_list(a, *db);
+    if (a.show->parsed()) return run_portfolio_show(a, *db);
+    if (a.remove->parsed()) return run_portfolio_delete(a, *db);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch portfolio: %s\n", e.what());
     return kExitFailed;
