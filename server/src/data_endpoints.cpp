@@ -78,7 +78,7 @@ ApiResponse list_assets_endpoint(const ApiContext& context, const ApiRequest& r)
   if (std::get<Format>(format) == Format::csv) {
     std::string out = "asset,first_date,last_date\n";
     for (const auto& a : assets) out += csv_field(a.name) + "," + a.first_date + "," + a.last_date + "\n";
-    return csv_response(std::make_shared<const std::string>(std::move(out)), "assets.csv", false);
+    return csv_response(std::move(out), "assets.csv", false);
   }
   nlohmann::ordered_json list = nlohmann::ordered_json::array();
   for (const auto& a : assets) list.push_back({{"asset", a.name}, {"first_date", a.first_date}, {"last_date", a.last_date}});

@@ -1,7 +1,5 @@
 #include "drift_endpoints.h"
 
-#include <cctype>
-
 #include "alerts_view.h"
 #include "drift_query.h"
 #include "drift_view.h"
@@ -31,11 +29,11 @@ ApiResponse drift_endpoint(const ApiContext& context, const ApiRequest& r) {
     WindowDrift d;
     if (auto failed = find_window_drift(db, query.model, *window, against, d)) return query_problem(r, failed);
     const std::string filename = query.model + "-drift-" + d.record.as_of + "-" + d.record.against + ".csv";
-    return f == Format::csv ? risk_csv(window_drift_csv(d), filename) : json_response(window_drift_json(d));
+    return f == Format::csv ? csv_response(window_drift_csv(d), filename, true) : json_response(window_drift_json(d));
   }
   DriftSeries s;
   if (auto failed = find_drift_series(db, query, against, s)) return query_problem(r, failed);
-  return f == Format::csv ? risk_csv(drift_csv(s), query.model + "-drift.csv") : json_response(drift_json(s));
+  return f == Format::csv ? csv_response(drift_csv(s), query.model + "-drift.csv", true) : json_response(drift_json(s));
 }
 
 ApiResponse history_endpoint(const ApiContext& context, const ApiRequest& r) {
@@ -46,7 +44,7 @@ ApiResponse history_endpoint(const ApiContext& context, const ApiRequest& r) {
   AssetHistory h;
   if (auto failed = find_asset_history(context.database(), query, r.parameter("asset").value_or(""), h))
     return query_problem(r, failed);
-  return f == Format::csv ? risk_csv(history_csv(h), query.model + "-history-" + file_part(h.asset) + ".csv")
+  return f == Format::csv ? csv_response(history_csv(h), query.model + "-history-" + file_part(h.asset) + ".csv", true)
                           : json_response(history_json(h));
 }
 
@@ -57,7 +55,7 @@ ApiResponse alerts_endpoint(const ApiContext& context, const ApiRequest& r) {
   const RangeQuery query = range_of(r);
   AlertList a;
   if (auto failed = find_alerts(context.database(), query, a)) return query_problem(r, failed);
-  return f == Format::csv ? risk_csv(alerts_csv(a), query.model + "-alerts.csv") : json_response(alerts_json(a));
+  return f == Format::csv ? csv_response(alerts_csv(a), query.model + "-alerts.csv", true) : json_response(alerts_json(a));
 }
 
 }  // namespace factorwatch::server

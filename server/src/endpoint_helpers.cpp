@@ -37,8 +37,8 @@ ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::str
   return r;
 }
 
-ApiResponse risk_csv(std::string body, const std::string& filename) {
-  return csv_response(std::make_shared<const std::string>(std::move(body)), filename, true);
+ApiResponse csv_response(std::string body, const std::string& filename, bool risk_numbers) {
+  return csv_response(std::make_shared<const std::string>(std::move(body)), filename, risk_numbers);
 }
 
 ApiResponse query_problem(const ApiRequest& r, const QueryFailure& f) {

@@ -26,8 +26,8 @@ ApiResponse json_response(const nlohmann::ordered_json& j, int status = 200);
 // carries it too) and a file name for browsers and spreadsheet programs.
 ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::string& filename, bool risk_numbers);
 
-// The same for a body of risk numbers built as text (drift, factor returns, residuals).
-ApiResponse risk_csv(std::string body, const std::string& filename);
+// The same for a body rendered as text.
+ApiResponse csv_response(std::string body, const std::string& filename, bool risk_numbers);
 
 // A failed drift, history, alerts, factor-returns or residuals lookup as a problem naming
 // the query parameter: 400 for bad input, 404 for what is not stored (with the refresh

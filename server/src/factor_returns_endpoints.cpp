@@ -1,7 +1,5 @@
 #include "factor_returns_endpoints.h"
 
-#include <cctype>
-
 #include "endpoint_helpers.h"
 #include "factor_returns_query.h"
 #include "factor_returns_view.h"
@@ -24,13 +22,13 @@ ApiResponse factor_returns_endpoint(const ApiContext& context, const ApiRequest&
     if (auto failed = find_window_factor_returns(db, query.model, *window, method, w)) return query_problem(r, failed);
     const std::string filename = query.model + "-factor-returns-" + w.window.window.as_of + "-" +
                                  engine::to_string(w.scores.method) + ".csv";
-    return f == Format::csv ? risk_csv(window_factor_returns_csv(w), filename) : json_response(window_factor_returns_json(w));
+    return f == Format::csv ? csv_response(window_factor_returns_csv(w), filename, true) : json_response(window_factor_returns_json(w));
   }
   FactorReturnSeriesAnswer s;
   if (auto failed = find_factor_return_series(db, query, method, s)) return query_problem(r, failed);
   return f == Format::csv
-             ? risk_csv(factor_return_series_csv(s),
-                        query.model + "-factor-returns-" + engine::to_string(s.series.method) + ".csv")
+             ? csv_response(factor_return_series_csv(s),
+                        query.model + "-factor-returns-" + engine::to_string(s.series.method) + ".csv", true)
              : json_response(factor_return_series_json(s));
 }
 
@@ -45,7 +43,7 @@ ApiResponse residuals_endpoint(const ApiContext& context, const ApiRequest& r) {
     return query_problem(r, failed);
   const std::string filename = model + "-residuals-" + file_part(a.residuals.asset) + "-" + a.window.window.as_of +
                                "-" + engine::to_string(a.residuals.method) + ".csv";
-  return f == Format::csv ? risk_csv(residuals_csv(a), filename) : json_response(residuals_json(a));
+  return f == Format::csv ? csv_response(residuals_csv(a), filename, true) : json_response(residuals_json(a));
 }
 
 }  // namespace factorwatch::server

@@ -13,7 +13,7 @@ ApiResponse list_models_endpoint(const ApiContext& context, const ApiRequest& r)
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   storage::Database& db = context.database();
   if (std::get<Format>(format) == Format::csv)
-    return csv_response(std::make_shared<const std::string>(models_csv(db)), "models.csv", false);
+    return csv_response(models_csv(db), "models.csv", false);
   return json_response(models_json(db));
 }
 

@@ -31,7 +31,7 @@ ApiResponse list_portfolios_endpoint(const ApiContext& context, const ApiRequest
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const auto portfolios = storage::list_portfolios(context.database());
   if (std::get<Format>(format) == Format::csv)
-    return csv_response(std::make_shared<const std::string>(portfolio_list_csv(portfolios)), "portfolios.csv", false);
+    return csv_response(portfolio_list_csv(portfolios), "portfolios.csv", false);
   return json_response(portfolio_list_json(portfolios));
 }
 
@@ -45,7 +45,7 @@ ApiResponse show_portfolio_endpoint(const ApiContext& context, const ApiRequest&
   const auto portfolio = storage::read_portfolio(db, name, as_of);
   if (!portfolio) return unknown_portfolio(r, name, as_of);
   if (std::get<Format>(format) == Format::csv)
-    return csv_response(std::make_shared<const std::string>(portfolio_csv(*portfolio)),
+    return csv_response(portfolio_csv(*portfolio),
                         name + "-" + portfolio->as_of + ".csv", false);
   return json_response(portfolio_json(*portfolio, storage::portfolio_dates(db, name)));
 }

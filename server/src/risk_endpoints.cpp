@@ -66,7 +66,7 @@ ApiResponse answer(const ApiContext& context, const ApiRequest& r, const RiskReq
   const RiskViewOptions view{std::get<bool>(by_asset), 0};
   if (std::get<Format>(format) == Format::csv) {
     const std::string name = q.portfolio.empty() ? "weights" : q.portfolio;
-    return csv_response(std::make_shared<const std::string>(risk_csv(outcome.report, view)),
+    return csv_response(risk_csv(outcome.report, view),
                         q.window.model + "-risk-" + name + "-" + outcome.report.window->as_of + ".csv", true);
   }
   return json_response(risk_json(outcome.report, view));

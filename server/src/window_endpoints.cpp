@@ -99,7 +99,7 @@ ApiResponse list_windows_endpoint(const ApiContext& context, const ApiRequest& r
   if (!model) return unknown_model(r, name);
   const auto windows = storage::list_windows(db, model->id);
   if (std::get<Format>(format) == Format::csv)
-    return csv_response(std::make_shared<const std::string>(windows_csv(windows)), name + "-windows.csv", true);
+    return csv_response(windows_csv(windows), name + "-windows.csv", true);
   return json_response(windows_json(*model, windows));
 }
 
