@@ -5,8 +5,10 @@ set -eu
 cd "$(dirname "$0")"
 /usr/bin/Rscript make_harman74.R
 /usr/bin/Rscript make_harman74_rotation.R
+/usr/bin/Rscript make_ability.R
 /usr/bin/Rscript make_eustock.R
 /usr/bin/python3 make_eustock_pca.py
+/usr/bin/Rscript make_eustock_ml.R
 /usr/bin/Rscript make_eustock_risk.R
 /usr/bin/python3 make_eustock_risk.py
 /usr/bin/Rscript make_factor_scores.R
