@@ -3,6 +3,7 @@
 //   fit_bench --assets N [--periods T] [--factors K] [--repeat R]
 //             [--write-panel PATH] [--method pca|ml|ml-warm]
 //             [--solver automatic|dense|matrix-free] [--eigenvalues E] [--tolerance TOL]
+//             [--polish yes|no]
 //
 // --solver, --eigenvalues and --tolerance set FitOptions::solver, eigenvalues_to_report
 // and tolerance (defaults: automatic, 2k + 10, 1e-8), for exploring other settings.
@@ -45,13 +46,15 @@ struct Args {
   fe::SolverChoice solver = fe::SolverChoice::automatic;
   int eigenvalues = 0;
   double tolerance = 1e-8;
+  bool polish = true;  // FitOptions::polish (the Newton stage of ML)
 };
 
 [[noreturn]] void usage(const std::string& problem) {
   std::fprintf(stderr,
                "fit_bench: %s\nusage: fit_bench --assets N [--periods T] [--factors K] [--repeat R]\n"
                "                 [--write-panel PATH] [--method pca|ml|ml-warm]\n"
-               "                 [--solver automatic|dense|matrix-free] [--eigenvalues E] [--tolerance TOL]\n",
+               "                 [--solver automatic|dense|matrix-free] [--eigenvalues E] [--tolerance TOL]\n"
+               "                 [--polish yes|no]\n",
                problem.c_str());
   std::exit(2);
 }
@@ -74,12 +77,16 @@ Args parse(int argc, char** argv) {
     else if (flag == "--factors") a.factors = int(parse_int(flag, value, 1));
     else if (flag == "--repeat") a.repeat = int(parse_int(flag, value, 1));
     else if (flag == "--write-panel") a.write_panel = value;
+    else if (flag == "--polish") {
+      if (std::string(value) != "yes" && std::string(value) != "no") usage("--polish must be yes or no");
+      a.polish = std::string(value) == "yes";
+    }
     else if (flag == "--method") a.method = value;
     else if (flag == "--eigenvalues") a.eigenvalues = int(parse_int(flag, value, 1));
     else if (flag == "--tolerance") {
       char* end = nullptr;
       a.tolerance = std::strtod(value, &end);
-      if (!end || *end != '\0' || !(a.tolerance > 0 && a.tolerance < 1)) usage("--tolerance must be in (0, 1)");
+      if (!end || *end != '\0' || !(a.tolerance > 0 && a.tolerance <= 0.01)) usage("--tolerance must be in (0, 0.01]");
     } else if (flag == "--solver") {
       const std::string v = value;
       if (v == "automatic") a.solver = fe::SolverChoice::automatic;
@@ -213,6 +220,7 @@ int main(int argc, char** argv) {
   fe::FitOptions options;
   options.factors = args.factors;
   options.tolerance = args.tolerance;
+  options.polish = args.polish;
   options.method = args.method == "pca" ? fe::Method::pca : fe::Method::max_likelihood;
   options.solver = args.solver;
   options.eigenvalues_to_report = args.eigenvalues;
@@ -256,6 +264,9 @@ int main(int argc, char** argv) {
       .numbers("call_seconds_all", call)
       .str("termination", fe::to_string(last.termination))
       .num("iterations", static_cast<long long>(last.iterations))
+      .num("em_passes", static_cast<long long>(last.em_passes))
+      .num("newton_steps", static_cast<long long>(last.newton_steps))
+      .num("largest_scaled_gradient", last.largest_scaled_gradient)
       .num("log_likelihood", last.log_likelihood)
       .num("warm_started", static_cast<long long>(last.warm_started))
       .str("solver_path", last.solver_path)

@@ -439,7 +439,7 @@ TEST(Daemon, ModelAlignmentOptionsRoundTripThroughPutAndShow) {
   const std::string definition =
       R"({"factors":2,"window":60,"step":10,"method":"pca","rotation":"promax","kaiser_normalize":false,)"
       R"("align_to":"pinned","pinned_window":"2021-04-01","smoothing_half_life":7.5,"min_shared_assets":30,)"
-      R"("alert_below":0.9,"alert_below_pinned":0.85})";
+      R"("alert_below":0.9,"alert_below_pinned":0.85,"tolerance":1e-10})";
   auto put = fw::curl(dir.path(), bearer(token) + " -X PUT -d '" + definition + "'", daemon.url("/v1/models/m"));
   ASSERT_EQ(put.status, 201) << put.body;
   const json shown = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m")).body)["configuration"];
@@ -451,6 +451,8 @@ TEST(Daemon, ModelAlignmentOptionsRoundTripThroughPutAndShow) {
   EXPECT_EQ(shown["min_shared_assets"], 30);
   EXPECT_EQ(shown["alert_below"], 0.9);
   EXPECT_EQ(shown["alert_below_pinned"], 0.85);
+  EXPECT_EQ(shown["tolerance"], 1e-10);
+  EXPECT_NE(fw::run_factorwatch(dir.path(), "model show m").out.find("tolerance:     1e-10"), std::string::npos);
   // The command line reads the same configuration.
   EXPECT_EQ(json::parse(fw::run_factorwatch(dir.path(), "model show m --format json").out)["configuration"], shown);
   // null pins the first window again; members left out keep their values.
@@ -473,7 +475,10 @@ TEST(Daemon, ModelAlignmentOptionsRoundTripThroughPutAndShow) {
            {R"({"smoothing_half_life":0})", "smoothing_half_life"},
            {R"({"min_shared_assets":1.5})", "min_shared_assets"},
            {R"({"alert_below":2})", "alert_below"},
-           {R"({"alert_below_pinned":"off"})", "alert_below_pinned"}}) {
+           {R"({"alert_below_pinned":"off"})", "alert_below_pinned"},
+           {R"({"tolerance":0})", "tolerance"},
+           {R"({"tolerance":0.5})", "tolerance"},
+           {R"({"tolerance":"tight"})", "tolerance"}}) {
     const auto r = fw::curl(dir.path(), bearer(token) + " -X PUT -d '" + body + "'", daemon.url("/v1/models/m"));
     EXPECT_EQ(r.status, 400) << body << " " << r.body;
     const json p = json::parse(r.body);

@@ -108,27 +108,39 @@ TEST(Heywood, NearZeroSpecificVarianceIsFlooredAndFlagged) {
   for (std::size_t i = 1; i < f.heywood.size(); ++i) EXPECT_FALSE(f.heywood[i]) << i;
 }
 
-// Rolling windows overlap: a fit warm-started from yesterday's converges to the
-// same optimum as a cold one, in fewer EM passes.
-TEST(WarmStart, ReachesTheColdOptimumInFewerPasses) {
-  const auto m = simulate_planted_model(701, 300, 6, 12);
+// Rolling windows overlap: a fit warm-started from yesterday's converges to the same
+// optimum as a cold one at the default tolerance. Up to the Newton stage's width (200
+// assets) it takes no more iterations (7 and 7 at N = 150 here: a cold start reaches
+// Newton's region in a few EM passes too). EM alone (wider universes) reaches the optimum
+// as well, but at the gradient rule a warm start does not save passes: EM's slow
+// directions dominate either way (at N = 300 here, 67 passes warm against 58 cold). The
+// old rule (relative change of the log-likelihood) showed fewer passes only because it
+// stopped both fits early. Speed is the benchmark's business (bench/fit_bench.cpp, ml-warm).
+class WarmStarted : public ::testing::TestWithParam<int> {};
+TEST_P(WarmStarted, ReachesTheColdOptimum) {
+  const int assets = GetParam();
+  const auto m = simulate_planted_model(701, assets, 6, 12);
   ReturnsPanel yesterday = m.panel, today = m.panel;
   yesterday.values = m.panel.values.topRows(700);
   yesterday.dates.pop_back();
   today.values = m.panel.values.bottomRows(700);
   today.dates.erase(today.dates.begin());
   FitOptions o = ml(6);
-  o.tolerance = 1e-10;
   const FactorFit prior = fit(yesterday, o);
   const FactorFit cold = fit(today, o);
   o.warm_start = WarmStart{prior.assets, prior.loadings, prior.specific_variance};
   const FactorFit warm = fit(today, o);
   ASSERT_TRUE(cold.converged && warm.converged);
   EXPECT_TRUE(warm.warm_started);
-  EXPECT_LT(warm.iterations, cold.iterations);
-  EXPECT_NEAR(warm.log_likelihood, cold.log_likelihood, 1e-7 * std::abs(cold.log_likelihood));
-  EXPECT_LT((warm.specific_variance - cold.specific_variance).cwiseQuotient(cold.specific_variance).cwiseAbs().maxCoeff(), 1e-3);
+  EXPECT_NEAR(warm.log_likelihood, cold.log_likelihood, 1e-10 * std::abs(cold.log_likelihood));
+  EXPECT_LT((warm.uniqueness - cold.uniqueness).cwiseAbs().maxCoeff(), 1e-6);
+  if (assets <= 200) {
+    EXPECT_GT(warm.newton_steps, 0);
+    EXPECT_LE(warm.iterations, cold.iterations) << "warm " << warm.em_passes << " + " << warm.newton_steps
+                                                << ", cold " << cold.em_passes << " + " << cold.newton_steps;
+  }
 }
+INSTANTIATE_TEST_SUITE_P(NewtonStageAndEmAlone, WarmStarted, ::testing::Values(150, 300));
 
 // Canonical form (stated rule): factors ordered by variance explained; each column's sum is positive.
 TEST(Canonical, OrderedByVarianceWithPositiveColumnSums) {

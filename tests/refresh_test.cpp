@@ -5,6 +5,7 @@
 
 #include <SQLiteCpp/SQLiteCpp.h>
 
+#include <cmath>
 #include <cstring>
 
 #include "factorwatch/storage/content_hash.h"
@@ -197,6 +198,67 @@ TEST(Refresh, ChangedConfigurationIsANewVersionAndOldWindowsStay) {
   EXPECT_EQ(storage::read_window(db, v2.model.id, "")->fit.factors, 2);
   EXPECT_NE(storage::read_window(db, v2.model.id, "")->configuration_hash,
             storage::read_window(db, v1.model.id, "")->configuration_hash);
+}
+
+// The ML stopping rule's tolerance is a model option. Left at its default it does not enter
+// the configuration's fingerprint, so models defined before the option keep their version
+// and windows; set, it starts a new version whose windows meet it and record the evidence.
+TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
+  TempDir dir;
+  testing::write_long_csv(dir.file("r.csv"), planted());
+  storage::Database db(dir.database());
+  load(db, dir.file("r.csv"));
+  const auto v1 = storage::set_model(db, "m", ml_config(100, 20));
+  // A configuration stored before the option existed has no "tolerance" member.
+  nlohmann::json old_form = v1.model.config.to_json();
+  old_form.erase("tolerance");
+  const storage::ModelConfig old_config = storage::ModelConfig::from_json(old_form);
+  EXPECT_EQ(old_config.tolerance, engine::FitOptions{}.tolerance);
+  EXPECT_EQ(old_config.hash(), v1.model.configuration_hash);
+  storage::refresh_model(db, "m");
+  for (const auto& w : storage::list_windows(db, v1.model.id)) {
+    EXPECT_TRUE(std::isfinite(w.largest_scaled_gradient)) << w.as_of;
+    EXPECT_LE(w.largest_scaled_gradient, 1e-8) << w.as_of;
+  }
+  const auto first = storage::read_window(db, v1.model.id, "");
+  EXPECT_EQ(first->fit.tolerance, 1e-8);
+  EXPECT_EQ(first->fit.iterations, first->fit.em_passes + first->fit.newton_steps);
+
+  storage::ModelConfig tighter = ml_config(100, 20);
+  tighter.tolerance = 1e-12;
+  const auto v2 = storage::set_model(db, "m", tighter);
+  EXPECT_TRUE(v2.new_version);
+  storage::refresh_model(db, "m");
+  const auto windows = storage::list_windows(db, v2.model.id);
+  ASSERT_EQ(windows.size(), 4u);
+  for (const auto& w : windows) {
+    EXPECT_EQ(w.termination, "converged");
+    EXPECT_LE(w.largest_scaled_gradient, 1e-12) << w.as_of;
+  }
+  EXPECT_EQ(storage::read_window(db, v2.model.id, "")->fit.tolerance, 1e-12);
+
+  std::string error;
+  tighter.tolerance = 0.5;
+  EXPECT_FALSE(tighter.IsValid(&error));
+  EXPECT_NE(error.find("'--tolerance'"), std::string::npos) << error;
+}
+
+// A window stored before the gradient rule has no criterion: it reads back as NaN (shown
+// as missing), not as a made-up value.
+TEST(Refresh, WindowFromBeforeTheGradientRuleReadsWithoutACriterion) {
+  TempDir dir;
+  testing::write_long_csv(dir.file("r.csv"), planted());
+  storage::Database db(dir.database());
+  load(db, dir.file("r.csv"));
+  const auto v1 = storage::set_model(db, "m", ml_config(100, 20));
+  storage::refresh_model(db, "m");
+  db.sql().exec("UPDATE windows SET statistics = json_remove(statistics, '$.largest_scaled_gradient', "
+                "'$.tolerance', '$.em_passes', '$.newton_steps')");
+  const auto w = storage::read_window(db, v1.model.id, "");
+  ASSERT_TRUE(w);
+  EXPECT_TRUE(std::isnan(w->fit.largest_scaled_gradient));
+  EXPECT_TRUE(std::isnan(w->fit.tolerance));
+  for (const auto& s : storage::list_windows(db, v1.model.id)) EXPECT_TRUE(std::isnan(s.largest_scaled_gradient));
 }
 
 TEST(Refresh, UniverseListRestrictsTheAssets) {

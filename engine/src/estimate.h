@@ -1,6 +1,7 @@
 // What every estimator hands back, on the basis scale, before canonical form.
 #pragma once
 
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -12,7 +13,11 @@ struct Estimate {
   Eigen::MatrixXd loadings;           // N x k, basis scale
   Eigen::VectorXd specific_variance;  // N, basis scale
   std::vector<bool> heywood;          // N
-  int iterations = 0;
+  int iterations = 0;   // em_passes + newton_steps for ML
+  int em_passes = 0;
+  int newton_steps = 0;
+  // ML's stopping criterion at the returned point (max_likelihood.cpp); NaN elsewhere.
+  double largest_scaled_gradient = std::numeric_limits<double>::quiet_NaN();
   Termination termination = Termination::not_run;
   std::string message;
   std::string solver_path;

@@ -127,8 +127,8 @@ FactorFit fit_prepared(PreparedData d, const FitOptions& options,
       if (!warm) detail::cold_start(S, spectrum, out.trace, k, L, psi);
       e = detail::ml_estimate(S, std::move(L), std::move(psi), options);
       e.warm_started = warm;
-      e.solver_path = "EM (Woodbury form" + std::string(options.accelerate ? ", SQUAREM" : "") +
-                      ") over " + (S.panel() ? "the panel, one fused pass per step" : "the given matrix") +
+      e.solver_path = "EM (Woodbury form" + std::string(options.accelerate ? ", SQUAREM" : "") + ")" +
+                      (e.newton_steps > 0 ? " then Newton on the likelihood concentrated in psi" : "") + " over " + (S.panel() ? "the panel, one fused pass per step" : "the given matrix") +
                       "; eigenvalues by " + spectrum.path;
       if (warm) e.message += "; warm-started from the previous fit";
       break;
@@ -137,6 +137,10 @@ FactorFit fit_prepared(PreparedData d, const FitOptions& options,
   out.termination = e.termination;
   out.message = e.message;
   out.iterations = e.iterations;
+  out.em_passes = e.em_passes;
+  out.newton_steps = e.newton_steps;
+  out.largest_scaled_gradient = e.largest_scaled_gradient;
+  if (options.method != Method::pca) out.tolerance = options.tolerance;
   out.converged = e.termination == Termination::converged;
   out.solver_path = e.solver_path;
   out.warm_started = e.warm_started;

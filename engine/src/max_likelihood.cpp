@@ -1,6 +1,9 @@
 #include "max_likelihood.h"
 
+#include "ml_polish.h"
+
 #include <cmath>
+#include <string>
 
 namespace factorwatch::engine::detail {
 namespace {
@@ -19,6 +22,13 @@ class EmMap {
 
   // Returns false on a numerical failure (M not positive definite).
   bool step(const Params& in, Params& out, double& loglik) {
+    double unused;
+    return step(in, out, loglik, unused);
+  }
+
+  // The same, with the largest scaled gradient of the log-likelihood at `in` (see
+  // stationarity below).
+  bool step(const Params& in, Params& out, double& loglik, double& gradient) {
     const Eigen::Index N = in.L.rows(), k = in.L.cols();
     const Eigen::VectorXd psi_inv = in.psi.cwiseInverse();
     const Eigen::MatrixXd LtPinv = in.L.transpose() * psi_inv.asDiagonal();  // k x N
@@ -37,6 +47,8 @@ class EmMap {
     const double trace_term = s_.cwiseProduct(psi_inv).sum() - (BP * M).trace();
     loglik = -0.5 * (double(N) * kLog2Pi + log_det_sigma + trace_term);
 
+    gradient = stationarity(in, B, BP);
+
     out.L = czz.solve(P_.transpose()).transpose();
     out.psi = s_ - out.L.cwiseProduct(P_).rowwise().sum();
     out.psi = out.psi.cwiseMax(floor_);
@@ -44,6 +56,32 @@ class EmMap {
   }
 
   void project(Params& p) const { p.psi = p.psi.cwiseMax(floor_); }
+  const Eigen::VectorXd& floor() const { return floor_; }
+
+  // Largest scaled partial derivative of the per-observation log-likelihood l at
+  // theta = (L, psi), from the step's products (P = S W M^-1 with W = Psi^-1 L,
+  // B = M^-1 W', BP = B S B'); with A = Sigma^-1:
+  //   dl/dpsi_i = -1/2 [A - A S A]_ii,   dl/dL = -(A - A S A) L = -(B' - Psi^-1 P + B' W' P).
+  // Scaled to be free of the assets' units: psi_i dl/dpsi_i (a derivative in log psi_i)
+  // and sqrt(s_ii) |dl/dL_i.| (the row's Euclidean norm, unchanged by a rotation of the
+  // factors). A specific variance held at its floor whose derivative
+  // points below the floor is at its constrained optimum and does not count.
+  double stationarity(const Params& in, const Eigen::MatrixXd& B, const Eigen::MatrixXd& BP) const {
+    const Eigen::MatrixXd Bt = B.transpose();                       // W M^-1, N x k
+    const Eigen::VectorXd bl = Bt.cwiseProduct(in.L).rowwise().sum();  // psi_i [A L]_i . L_i / psi_i
+    const Eigen::VectorXd pl = P_.cwiseProduct(in.L).rowwise().sum();
+    const Eigen::VectorXd lbl = (in.L * BP).cwiseProduct(in.L).rowwise().sum();
+    double worst = 0;
+    for (Eigen::Index i = 0; i < in.psi.size(); ++i) {
+      const double g = -0.5 * (1.0 - bl[i] - (s_[i] - 2.0 * pl[i] + lbl[i]) / in.psi[i]);
+      if (in.psi[i] <= floor_[i] && g < 0) continue;
+      worst = std::max(worst, std::abs(g));
+    }
+    const Eigen::MatrixXd WtP = in.L.transpose() * in.psi.cwiseInverse().asDiagonal() * P_;  // W' P, k x k
+    const Eigen::MatrixXd gL = -(Bt - in.psi.cwiseInverse().asDiagonal() * P_ + Bt * WtP);
+    for (Eigen::Index i = 0; i < gL.rows(); ++i) worst = std::max(worst, std::sqrt(s_[i]) * gL.row(i).norm());
+    return worst;
+  }
 
  private:
   const SecondMoments& S_;
@@ -53,10 +91,6 @@ class EmMap {
 
 double squared_distance(const Params& a, const Params& b) {
   return (a.L - b.L).squaredNorm() + (a.psi - b.psi).squaredNorm();
-}
-
-bool small_change(double before, double after, double tolerance) {
-  return std::abs(after - before) <= tolerance * std::max(1.0, std::abs(after));
 }
 
 }  // namespace
@@ -95,25 +129,46 @@ Estimate ml_estimate(const SecondMoments& S, Eigen::MatrixXd L, Eigen::VectorXd 
   Params theta{std::move(L), std::move(psi)};
   em.project(theta);
   Params next, next2, jump, jump_next;
-  double ll = 0, ll_next = 0, ll_jump = 0, previous = -INFINITY;
-  int passes = 0;
+  Params measured;  // the last point whose criterion is known
+  double ll = 0, ll_next = 0, ll_jump = 0;
+  int passes = 0, newton_steps = 0;
+  // The Newton stage needs S dense (and positive definite, which it checks); its width
+  // limit is justified in max_likelihood.h.
+  const Eigen::Index N = S.size();
+  const bool can_polish = options.polish && N <= kPolishMaxWidth && N > options.factors + 1;
+  Eigen::MatrixXd dense;
+  double polish_tried_at = INFINITY;  // gradient at the last failed Newton stage
   e.termination = Termination::iteration_limit;
   e.message = "iteration limit reached before the tolerance";
 
-  while (passes < options.max_iterations) {
-    if (!em.step(theta, next, ll)) {
+  while (passes + newton_steps < options.max_iterations) {
+    double grad = 0;
+    if (!em.step(theta, next, ll, grad)) {
       e.termination = Termination::numerical_failure;
       e.message = "non-finite or indefinite intermediate in the EM step";
       break;
     }
     ++passes;
-    if (small_change(previous, ll, options.tolerance)) {
-      theta = std::move(next);  // one more monotone step, already paid for
+    e.largest_scaled_gradient = grad;
+    measured = theta;
+    if (grad <= options.tolerance) {
+      // theta itself is returned, so the reported criterion is the returned point's.
       e.termination = Termination::converged;
-      e.message = "relative change of the log-likelihood below the tolerance";
+      e.message = "largest scaled gradient of the log-likelihood below the tolerance";
       break;
     }
-    previous = ll;
+    if (can_polish && grad <= kPolishEntry && grad < 0.1 * polish_tried_at) {
+      if (dense.size() == 0) dense = S.dense();
+      polish_tried_at = grad;
+      PolishOutcome p = newton_polish(dense, options.factors, em.floor(), theta.psi, 0.1 * options.tolerance,
+                                      std::min(kPolishMaxSteps, options.max_iterations - passes - newton_steps));
+      newton_steps += p.steps;
+      if (p.ok) {
+        theta.L = std::move(p.loadings);
+        theta.psi = std::move(p.psi);
+        continue;  // the next EM evaluation measures the criterion at the polished point
+      }
+    }
     if (!options.accelerate || passes + 2 > options.max_iterations) {
       theta = std::move(next);
       continue;
@@ -146,7 +201,14 @@ Estimate ml_estimate(const SecondMoments& S, Eigen::MatrixXd L, Eigen::VectorXd 
     }
     if (!accepted) theta = std::move(next2);
   }
-  e.iterations = passes;
+  // Stopped by the limit: hand back the point the reported criterion belongs to (the
+  // extrapolated or polished point after it has not been measured).
+  if (e.termination == Termination::iteration_limit && measured.L.size() > 0) theta = std::move(measured);
+  if (newton_steps > 0)
+    e.message += " (" + std::to_string(passes) + " EM passes, " + std::to_string(newton_steps) + " Newton steps)";
+  e.iterations = passes + newton_steps;
+  e.em_passes = passes;
+  e.newton_steps = newton_steps;
   e.loadings = std::move(theta.L);
   e.specific_variance = std::move(theta.psi);
   apply_specific_floor(S.diagonal(), options.specific_floor, e.specific_variance, e.heywood);

@@ -28,7 +28,8 @@ bool FitOptions::IsValid(std::string* error) const {
     return fail(error, "constant_threshold", constant_threshold, "must be in [0, 1)");
   if (!(specific_floor > 0 && specific_floor < 1))
     return fail(error, "specific_floor", specific_floor, "must be in (0, 1)");
-  if (!(tolerance > 0 && tolerance < 1)) return fail(error, "tolerance", tolerance, "must be in (0, 1)");
+  // Above 0.01 "converged" would be far from the optimum for either meaning of the tolerance.
+  if (!(tolerance > 0 && tolerance <= 0.01)) return fail(error, "tolerance", tolerance, "must be in (0, 0.01]");
   if (max_iterations < 1) return fail(error, "max_iterations", max_iterations, "must be at least 1");
   if (eigenvalues_to_report < 0)
     return fail(error, "eigenvalues_to_report", eigenvalues_to_report, "must be 0 (default) or positive");

@@ -151,7 +151,9 @@ CLI::App* add_fit_command(CLI::App& app, FitArguments& a) {
   fit->add_option("--max-iterations", a.max_iterations, "Iteration limit of principal-axis and ml")
       ->type_name("N")
       ->capture_default_str();
-  fit->add_option("--tolerance", a.tolerance, "Relative change at which principal-axis and ml stop")
+  fit->add_option("--tolerance", a.tolerance,
+                  "Where ml and principal-axis stop: ml, the largest scaled gradient of the log-likelihood; "
+                  "principal-axis, the largest change of a communality")
       ->type_name("X")
       ->capture_default_str();
   return fit;

@@ -76,6 +76,9 @@ void write_summary(std::ostream& out, const engine::FactorFit& f, const FitSourc
   line(out, "assets", printf_string("%zu fitted, %zu excluded", f.assets.size(), f.excluded.size()));
   line(out, "outcome", printf_string("%s after %d iterations, %.3f s", engine::to_string(f.termination),
                                      f.iterations, f.fit_seconds));
+  if (std::isfinite(f.largest_scaled_gradient))
+    line(out, "criterion", printf_string("largest scaled gradient %.2g (tolerance %.2g)",
+                                         f.largest_scaled_gradient, f.tolerance));
   if (!f.message.empty()) line(out, "", f.message);
   line(out, "log-likelihood", printf_string("%.8g per observation (Gaussian, on the basis matrix)", f.log_likelihood));
   line(out, "LR test", lr_test_words(f));

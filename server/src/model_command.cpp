@@ -42,6 +42,12 @@ std::string describe(const storage::ModelConfig& c) {
   }
   out += ", with at least " + std::to_string(c.effective_min_shared_assets()) + " shared assets\n";
   out += "  pinned window: " + (c.pinned_window.empty() ? std::string("the first window") : c.pinned_window) + "\n";
+  char tolerance[96];
+  std::snprintf(tolerance, sizeof tolerance, "  tolerance:     %g (%s)\n", c.tolerance,
+                c.method == engine::Method::max_likelihood ? "largest scaled gradient of the log-likelihood"
+                : c.method == engine::Method::principal_axis ? "largest change of a communality"
+                                                             : "not used by pca");
+  out += tolerance;
   out += "  drift alerts:  against the previous window " + threshold_text(c.alert_below) +
          "; against the pinned window " + threshold_text(c.alert_below_pinned) + "\n";
   return out;
@@ -79,6 +85,7 @@ int run_model_set(const ModelArguments& a, storage::Database& db) {
     config.half_life = 0;
   }
   if (a.min_coverage_opt->count()) config.min_coverage = a.min_coverage;
+  if (a.tolerance_opt->count()) config.tolerance = a.tolerance;
   if (a.first_as_of_opt->count()) config.first_as_of = a.first_as_of == "none" ? "" : a.first_as_of;
   if (a.rotation_opt->count()) config.rotation = *engine::parse_rotation(a.rotation);
   if (a.kaiser_opt->count()) config.kaiser_normalize = a.kaiser_normalize == "yes";
@@ -173,6 +180,11 @@ CLI::App* add_model_command(CLI::App& app, ModelArguments& a) {
                                         "Fit no window ending before this date ('none': no limit)")
                           ->type_name("DATE");
   const storage::ModelConfig defaults;  // the help states the defaults the storage applies
+  a.tolerance_opt = a.set->add_option("--tolerance", a.tolerance,
+                                      "Where ml and principal-axis fits stop: ml, the largest scaled gradient of the "
+                                      "log-likelihood; principal-axis, the largest change of a communality (default " +
+                                          number_text(defaults.tolerance) + ")")
+                        ->type_name("X");
   a.rotation_opt = a.set->add_option("--rotation", a.rotation,
                                      std::string("Rotation of every window's loadings: none, varimax or promax (default ") +
                                          engine::to_string(defaults.rotation) + ")")

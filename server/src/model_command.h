@@ -31,13 +31,15 @@ struct ModelArguments {
   int min_shared_assets = 0;
   double alert_below = 0;
   double alert_below_pinned = 0;
+  double tolerance = 0;
   std::string format = "table";
   // Which options were given (CLI11 fills these after parsing).
   CLI::Option *universe_opt = nullptr, *window_opt = nullptr, *step_opt = nullptr, *method_opt = nullptr,
               *factors_opt = nullptr, *basis_opt = nullptr, *half_life_opt = nullptr, *min_coverage_opt = nullptr,
               *first_as_of_opt = nullptr, *rotation_opt = nullptr, *kaiser_opt = nullptr, *align_to_opt = nullptr,
               *pinned_window_opt = nullptr, *smoothing_opt = nullptr, *min_shared_opt = nullptr,
-              *alert_below_opt = nullptr, *alert_below_pinned_opt = nullptr;
+              *alert_below_opt = nullptr, *alert_below_pinned_opt = nullptr,
+              *tolerance_opt = nullptr;
   CLI::App *set = nullptr, *show = nullptr, *list = nullptr;
 };
 

@@ -99,15 +99,17 @@ std::optional<BodyProblem> apply_definition(const json& body, storage::ModelConf
       const auto n = value.get<long long>();
       if (n < -1000000000LL || n > 1000000000LL) return bad(member, "out of range");
       config.min_shared_assets = static_cast<int>(n);
-    } else if (member == "smoothing_half_life" || member == "alert_below" || member == "alert_below_pinned") {
+    } else if (member == "smoothing_half_life" || member == "alert_below" || member == "alert_below_pinned" ||
+               member == "tolerance") {
       if (!value.is_number()) return bad(member, "must be a number");
       (member == "smoothing_half_life" ? config.smoothing_half_life
        : member == "alert_below"       ? config.alert_below
+       : member == "tolerance"         ? config.tolerance
                                        : config.alert_below_pinned) = value.get<double>();
     } else {
       return bad(member, "unknown member; known: universe, window, step, method, factors, basis, half_life, "
                          "min_coverage, first_as_of, rotation, kaiser_normalize, align_to, pinned_window, "
-                         "smoothing_half_life, min_shared_assets, alert_below, alert_below_pinned");
+                         "smoothing_half_life, min_shared_assets, alert_below, alert_below_pinned, tolerance");
     }
   }
   return std::nullopt;

@@ -42,6 +42,7 @@ nlohmann::ordered_json windows_json(const storage::ModelVersion& model, const st
                     {"usable", w.usable},
                     {"warm_started", w.warm_started},
                     {"iterations", w.iterations},
+                    {"largest_scaled_gradient", json_number(w.largest_scaled_gradient)},
                     {"log_likelihood", w.log_likelihood},
                     {"explained_share", w.explained_total},
                     {"heywood_cases", w.heywood_count},
@@ -57,12 +58,12 @@ nlohmann::ordered_json windows_json(const storage::ModelVersion& model, const st
 std::string windows_csv(const std::vector<storage::WindowSummary>& windows) {
   std::string out = csv_caution_line();
   out += "as_of,first_date,periods,assets,excluded,factors,termination,usable,warm_started,iterations,"
-         "log_likelihood,explained_share,heywood_cases,fit_seconds,total_seconds,stale,alignment,alignment_residual\n";
+         "largest_scaled_gradient,log_likelihood,explained_share,heywood_cases,fit_seconds,total_seconds,stale,alignment,alignment_residual\n";
   for (const auto& w : windows) {
     out += w.as_of + "," + w.first_date + "," + std::to_string(w.periods) + "," + std::to_string(w.asset_count) + "," +
            std::to_string(w.excluded_count) + "," + std::to_string(w.factors) + "," + csv_field(w.termination) + "," +
            yes_no(w.usable) + "," + yes_no(w.warm_started) + "," + std::to_string(w.iterations) + "," +
-           exact_number(w.log_likelihood) + "," + exact_number(w.explained_total) + "," +
+           csv_number(w.largest_scaled_gradient) + "," + exact_number(w.log_likelihood) + "," + exact_number(w.explained_total) + "," +
            std::to_string(w.heywood_count) + "," + exact_number(w.fit_seconds) + "," + exact_number(w.total_seconds) +
            "," + yes_no(w.stale) + "," + csv_field(w.alignment) + "," + csv_number(w.alignment_residual) + "\n";
   }

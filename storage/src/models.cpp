@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cctype>
 #include <cmath>
+#include <cstdio>
 #include <fstream>
 #include <set>
 #include <stdexcept>
@@ -19,6 +20,12 @@ namespace factorwatch::storage {
 namespace {
 
 const char* weighting_name(engine::Weighting w) { return w == engine::Weighting::ewma ? "ewma" : "equal"; }
+
+std::string number_text(double x) {
+  char text[32];
+  std::snprintf(text, sizeof text, "%g", x);
+  return text;
+}
 
 ModelVersion read_version(SQLite::Statement& q) {
   ModelVersion m;
@@ -65,6 +72,8 @@ bool ModelConfig::IsValid(std::string* error) const {
                 std::to_string(window) + " dates)");
   if (weighting == engine::Weighting::ewma && !(half_life > 0 && std::isfinite(half_life)))
     return fail("option '--half-life': exponential weighting needs a half-life above 0 dates");
+  if (!(tolerance > 0 && tolerance <= 0.01))
+    return fail("option '--tolerance' = " + number_text(tolerance) + ": must be in (0, 0.01]");
   if (!(min_coverage > 0 && min_coverage <= 1))
     return fail("option '--min-coverage' = " + std::to_string(min_coverage) + ": must be in (0, 1]");
   if (!first_as_of.empty() && !detail::parse_iso_date(first_as_of))
@@ -109,6 +118,7 @@ engine::FitOptions ModelConfig::fit_options() const {
   o.weighting = weighting;
   o.half_life = weighting == engine::Weighting::ewma ? half_life : 0;
   o.min_coverage = min_coverage;
+  o.tolerance = tolerance;
   return o;
 }
 
@@ -124,6 +134,7 @@ nlohmann::ordered_json ModelConfig::to_json() const {
   j["half_life"] = half_life;
   j["min_coverage"] = min_coverage;
   j["first_as_of"] = first_as_of;
+  j["tolerance"] = tolerance;
   j["rotation"] = engine::to_string(rotation);
   j["kaiser_normalize"] = kaiser_normalize;
   j["align_to"] = to_string(align_to);
@@ -168,6 +179,7 @@ ModelConfig ModelConfig::from_json(const nlohmann::json& j) {
     if (j.contains("min_shared_assets")) c.min_shared_assets = j.at("min_shared_assets").get<int>();
     if (j.contains("alert_below")) c.alert_below = j.at("alert_below").get<double>();
     if (j.contains("alert_below_pinned")) c.alert_below_pinned = j.at("alert_below_pinned").get<double>();
+    if (j.contains("tolerance")) c.tolerance = j.at("tolerance").get<double>();
   } catch (const nlohmann::json::exception& e) {
     throw std::runtime_error(std::string("stored model configuration is not readable: ") + e.what());
   }
@@ -179,7 +191,7 @@ std::string ModelConfig::hash() const {
   const ModelConfig defaults;
   const nlohmann::ordered_json d = defaults.to_json();
   for (const char* member : {"rotation", "kaiser_normalize", "align_to", "pinned_window", "smoothing_half_life",
-                             "min_shared_assets", "alert_below", "alert_below_pinned"})
+                             "min_shared_assets", "alert_below", "alert_below_pinned", "tolerance"})
     if (j[member] == d[member]) j.erase(member);
   detail::Fingerprint f;
   f.add(j.dump());

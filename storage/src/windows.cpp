@@ -68,7 +68,12 @@ json statistics(const engine::FactorFit& fit) {
             {"dof", number(fit.lr_test.dof)},
             {"p_value", number(fit.lr_test.p_value)}}},
           {"iterations", fit.iterations},
-          {"converged", fit.converged}};
+          {"converged", fit.converged},
+          // From the gradient stopping rule on (absent in windows fitted before it).
+          {"largest_scaled_gradient", number(fit.largest_scaled_gradient)},
+          {"tolerance", number(fit.tolerance)},
+          {"em_passes", fit.em_passes},
+          {"newton_steps", fit.newton_steps}};
 }
 
 void restore_statistics(const json& j, engine::FactorFit& fit) {
@@ -92,6 +97,14 @@ void restore_statistics(const json& j, engine::FactorFit& fit) {
   fit.lr_test.p_value = number(lr.at("p_value"));
   fit.iterations = j.at("iterations").get<int>();
   fit.converged = j.at("converged").get<bool>();
+  // Windows fitted under the old stopping rule (relative change of the log-likelihood)
+  // carry no criterion: it stays NaN and the surfaces show it as missing.
+  if (j.contains("largest_scaled_gradient")) {
+    fit.largest_scaled_gradient = number(j.at("largest_scaled_gradient"));
+    fit.tolerance = number(j.at("tolerance"));
+    fit.em_passes = j.at("em_passes").get<int>();
+    fit.newton_steps = j.at("newton_steps").get<int>();
+  }
 }
 
 void bind_blob(SQLite::Statement& q, int index, const std::string& bytes) {
@@ -238,6 +251,8 @@ std::vector<WindowSummary> list_windows(Database& db, long model_version_id) {
     s.excluded_count = static_cast<int>(stats.at("excluded").size());
     s.warm_started = stats.at("warm_started").get<bool>();
     s.iterations = stats.at("iterations").get<int>();
+    if (stats.contains("largest_scaled_gradient"))
+      s.largest_scaled_gradient = number(stats.at("largest_scaled_gradient"));
     s.log_likelihood = number(stats.at("log_likelihood"));
     s.explained_total = number(stats.at("explained_total"));
     s.heywood_count = stats.at("heywood_count").get<int>();

@@ -6,6 +6,7 @@
 #pragma once
 
 #include <Eigen/Dense>
+#include <limits>
 #include <optional>
 #include <string>
 #include <vector>
@@ -42,11 +43,17 @@ struct FitOptions {
   // Specific variance floor, as a fraction of the asset's variance s_ii.
   // Reaching it is a Heywood case: floored and flagged, never silently clipped.
   double specific_floor = 0.005;
-  // Iterative methods stop when the relative change of the objective
-  // (log-likelihood for ML, communalities for principal axis) falls below this.
+  // When the iterative methods stop. Maximum likelihood: the largest scaled gradient of
+  // the log-likelihood per observation, max over assets of |psi_i dl/dpsi_i| and
+  // sqrt(s_ii) |dl/dL_i.| (docs/methodology.md, "When maximum likelihood stops"), is at
+  // most this. Principal axis: the largest change of a communality (share of variance)
+  // between iterations is below this.
   double tolerance = 1e-8;
-  int max_iterations = 10000;
+  int max_iterations = 10000;  // EM passes plus Newton steps for ML
   bool accelerate = true;  // SQUAREM extrapolation of the EM steps (ML only)
+  // Newton steps on the likelihood concentrated in psi once EM is close (ML only, up to
+  // a few hundred assets; see engine/src/ml_polish.h).
+  bool polish = true;
   SolverChoice solver = SolverChoice::automatic;
   // Eigenvalues to report; 0 means the default 2k + 10 (capped at the rank bound).
   int eigenvalues_to_report = 0;
@@ -113,8 +120,15 @@ struct FactorFit {
   // Fit statistics.
   double log_likelihood = 0;  // per observation, up to constants (ML; also evaluated for others)
   LikelihoodRatioTest lr_test;
-  int iterations = 0;
-  bool converged = false;
+  int iterations = 0;        // ML: EM passes plus Newton steps
+  bool converged = false;    // termination == converged
+  // ML only (NaN otherwise): the stopping criterion at the returned estimate, the largest
+  // scaled gradient of the log-likelihood (see FitOptions::tolerance), and how the
+  // iterations split between EM passes and Newton steps.
+  double largest_scaled_gradient = std::numeric_limits<double>::quiet_NaN();
+  double tolerance = std::numeric_limits<double>::quiet_NaN();  // asked for (ML, principal axis)
+  int em_passes = 0;
+  int newton_steps = 0;
   double fit_seconds = 0;  // wall time of the estimation alone
 
   bool IsSolutionUsable() const {

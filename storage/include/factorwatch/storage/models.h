@@ -29,6 +29,9 @@ struct ModelConfig {
   double half_life = 0;               // dates; only with EWMA weighting
   double min_coverage = 0.8;          // share of a window's dates an asset needs
   std::string first_as_of;            // earliest as-of date to fit; "" = as early as the data allow
+  // Where the iterative fits stop (engine::FitOptions::tolerance): ML, the largest scaled
+  // gradient of the log-likelihood; principal axis, the largest change of a communality.
+  double tolerance = engine::FitOptions{}.tolerance;
 
   // Rotation of every window's loadings (none, varimax, promax), with or without Kaiser
   // normalisation of the rows.
@@ -67,7 +70,7 @@ struct ModelConfig {
   int effective_min_shared_assets() const { return min_shared_assets > factors ? min_shared_assets : factors; }
   // The rotation options of every window of this configuration.
   engine::RotationOptions rotation_options() const;
-  // Fingerprint of the canonical JSON. Members added after schema 4 (rotation onwards)
+  // Fingerprint of the canonical JSON. Members added after schema 4 (rotation, tolerance and on)
   // enter it only when they differ from their defaults, so a model defined before they
   // existed keeps its hash, its version and its windows.
   std::string hash() const;

@@ -58,6 +58,9 @@ struct WindowSummary {
   bool usable = false;
   bool warm_started = false;
   int iterations = 0;
+  // ML's stopping criterion at the stored estimate; NaN for other methods and for windows
+  // fitted before the gradient rule.
+  double largest_scaled_gradient = std::numeric_limits<double>::quiet_NaN();
   double log_likelihood = 0;
   double explained_total = 0;
   int heywood_count = 0;
