@@ -20,6 +20,7 @@
 #include <sys/resource.h>
 
 #include <algorithm>
+#include <cmath>
 #include <chrono>
 #include <cstdio>
 #include <cstdlib>
@@ -154,6 +155,7 @@ class JsonLine {
   }
   JsonLine& str(const std::string& key, const std::string& value) { return raw(key, json_string(value)); }
   JsonLine& num(const std::string& key, double value) {
+    if (!std::isfinite(value)) return raw(key, "null");  // JSON has no NaN (pca's criterion)
     std::ostringstream os;
     os.precision(17);
     os << value;
