@@ -142,6 +142,41 @@ TEST_P(WarmStarted, ReachesTheColdOptimum) {
 }
 INSTANTIATE_TEST_SUITE_P(NewtonStageAndEmAlone, WarmStarted, ::testing::Values(150, 300));
 
+// Wide universes (above the Newton stage's 200 assets) start with the fixed point in psi
+// alone (ml_profiled.h): it must land on the optimum plain EM reaches (no acceleration, no
+// profile stage), with T above N and below it, cold and warm.
+class ProfiledFixedPoint : public ::testing::TestWithParam<std::pair<int, int>> {};
+TEST_P(ProfiledFixedPoint, ReachesThePlainEmOptimum) {
+  const auto [periods, assets] = GetParam();
+  const auto m = simulate_planted_model(periods + 1, assets, 4, 21);
+  ReturnsPanel yesterday = m.panel, today = m.panel;
+  yesterday.values = m.panel.values.topRows(periods);
+  yesterday.dates.pop_back();
+  today.values = m.panel.values.bottomRows(periods);
+  today.dates.erase(today.dates.begin());
+  FitOptions o = ml(4);
+  const FactorFit fast = fit(today, o);
+  ASSERT_TRUE(fast.converged) << fast.message;
+  EXPECT_GT(fast.profile_steps, 0);
+  EXPECT_LE(fast.largest_scaled_gradient, o.tolerance);
+  EXPECT_EQ(fast.iterations, fast.em_passes + fast.newton_steps + fast.profile_steps);
+  FitOptions plain = o;
+  plain.accelerate = false;
+  plain.max_iterations = 200000;
+  const FactorFit reference = fit(today, plain);
+  ASSERT_TRUE(reference.converged) << reference.message;
+  EXPECT_EQ(reference.profile_steps, 0);
+  EXPECT_LT((fast.uniqueness - reference.uniqueness).cwiseAbs().maxCoeff(), 1e-6);
+  EXPECT_NEAR(fast.log_likelihood, reference.log_likelihood, 1e-9 * std::abs(reference.log_likelihood));
+  const FactorFit prior = fit(yesterday, o);
+  o.warm_start = WarmStart{prior.assets, prior.loadings, prior.specific_variance};
+  const FactorFit warm = fit(today, o);
+  ASSERT_TRUE(warm.converged && warm.warm_started);
+  EXPECT_LT((warm.uniqueness - reference.uniqueness).cwiseAbs().maxCoeff(), 1e-6);
+}
+INSTANTIATE_TEST_SUITE_P(LongAndWidePanels, ProfiledFixedPoint,
+                         ::testing::Values(std::make_pair(600, 250), std::make_pair(150, 400)));
+
 // Canonical form (stated rule): factors ordered by variance explained; each column's sum is positive.
 TEST(Canonical, OrderedByVarianceWithPositiveColumnSums) {
   const auto m = simulate_planted_model(1000, 40, 3, 13);

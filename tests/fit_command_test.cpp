@@ -50,7 +50,8 @@ TEST(FitCommand, JsonOnHarman74MatchesFactanal) {
   // The evidence for "converged": the criterion at the returned estimate, within the default.
   EXPECT_LE(j["largest_scaled_gradient"].get<double>(), 1e-8);
   EXPECT_EQ(j["tolerance"].get<double>(), 1e-8);
-  EXPECT_EQ(j["iterations"].get<int>(), j["em_passes"].get<int>() + j["newton_steps"].get<int>());
+  EXPECT_EQ(j["iterations"].get<int>(),
+            j["em_passes"].get<int>() + j["newton_steps"].get<int>() + j["profile_steps"].get<int>());
   EXPECT_EQ(j["caution"], factorwatch::engine::kCaution);
   EXPECT_GE(j["eigenvalues"].size(), 14u);  // 2k + 10
   EXPECT_GT(j["fit_seconds"].get<double>(), 0.0);

@@ -70,7 +70,7 @@ void expect_converged_with_evidence(const FactorFit& f, double tolerance) {
   EXPECT_TRUE(f.converged);
   ASSERT_TRUE(std::isfinite(f.largest_scaled_gradient));
   EXPECT_LE(f.largest_scaled_gradient, tolerance);
-  EXPECT_EQ(f.iterations, f.em_passes + f.newton_steps);
+  EXPECT_EQ(f.iterations, f.em_passes + f.newton_steps + f.profile_steps);
 }
 
 struct Case {

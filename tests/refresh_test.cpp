@@ -222,7 +222,7 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
   }
   const auto first = storage::read_window(db, v1.model.id, "");
   EXPECT_EQ(first->fit.tolerance, 1e-8);
-  EXPECT_EQ(first->fit.iterations, first->fit.em_passes + first->fit.newton_steps);
+  EXPECT_EQ(first->fit.iterations, first->fit.em_passes + first->fit.newton_steps + first->fit.profile_steps);
 
   storage::ModelConfig tighter = ml_config(100, 20);
   tighter.tolerance = 1e-12;

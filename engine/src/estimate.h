@@ -16,6 +16,7 @@ struct Estimate {
   int iterations = 0;   // em_passes + newton_steps for ML
   int em_passes = 0;
   int newton_steps = 0;
+  int profile_steps = 0;  // evaluations of the fixed point in psi (wide panels)
   // ML's stopping criterion at the returned point (max_likelihood.cpp); NaN elsewhere.
   double largest_scaled_gradient = std::numeric_limits<double>::quiet_NaN();
   Termination termination = Termination::not_run;

@@ -139,6 +139,7 @@ FactorFit fit_prepared(PreparedData d, const FitOptions& options,
   out.iterations = e.iterations;
   out.em_passes = e.em_passes;
   out.newton_steps = e.newton_steps;
+  out.profile_steps = e.profile_steps;
   out.largest_scaled_gradient = e.largest_scaled_gradient;
   if (options.method != Method::pca) out.tolerance = options.tolerance;
   out.converged = e.termination == Termination::converged;

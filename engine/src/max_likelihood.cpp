@@ -1,6 +1,7 @@
 #include "max_likelihood.h"
 
 #include "ml_polish.h"
+#include "ml_profiled.h"
 
 #include <cmath>
 #include <string>
@@ -141,7 +142,18 @@ Estimate ml_estimate(const SecondMoments& S, Eigen::MatrixXd L, Eigen::VectorXd 
   e.termination = Termination::iteration_limit;
   e.message = "iteration limit reached before the tolerance";
 
-  while (passes + newton_steps < options.max_iterations) {
+  // Wide universes: the fixed point in psi alone first (ml_profiled.h); EM then measures
+  // the full criterion at its result and goes on only if that is still above the tolerance.
+  int profile_steps = 0;
+  if (options.accelerate && S.panel() && N > kPolishMaxWidth) {
+    ProfiledOutcome p = profiled_fixed_point(S, em.floor(), theta.psi, options.factors, 0.5 * options.tolerance,
+                                             std::min(kProfileMaxEvaluations, options.max_iterations - 1),
+                                             options.seed);
+    profile_steps = p.evaluations;
+    if (p.ok) theta = Params{std::move(p.loadings), std::move(p.psi)};
+  }
+
+  while (passes + newton_steps + profile_steps < options.max_iterations) {
     double grad = 0;
     if (!em.step(theta, next, ll, grad)) {
       e.termination = Termination::numerical_failure;
@@ -161,7 +173,7 @@ Estimate ml_estimate(const SecondMoments& S, Eigen::MatrixXd L, Eigen::VectorXd 
       if (dense.size() == 0) dense = S.dense();
       polish_tried_at = grad;
       PolishOutcome p = newton_polish(dense, options.factors, em.floor(), theta.psi, 0.1 * options.tolerance,
-                                      std::min(kPolishMaxSteps, options.max_iterations - passes - newton_steps));
+                                      std::min(kPolishMaxSteps, options.max_iterations - passes - newton_steps - profile_steps));
       newton_steps += p.steps;
       if (p.ok) {
         theta.L = std::move(p.loadings);
@@ -206,7 +218,11 @@ Estimate ml_estimate(const SecondMoments& S, Eigen::MatrixXd L, Eigen::VectorXd 
   if (e.termination == Termination::iteration_limit && measured.L.size() > 0) theta = std::move(measured);
   if (newton_steps > 0)
     e.message += " (" + std::to_string(passes) + " EM passes, " + std::to_string(newton_steps) + " Newton steps)";
-  e.iterations = passes + newton_steps;
+  if (profile_steps > 0)
+    e.message += " (" + std::to_string(profile_steps) + " steps of the fixed point in psi, " + std::to_string(passes) +
+                 " EM passes)";
+  e.iterations = passes + newton_steps + profile_steps;
+  e.profile_steps = profile_steps;
   e.em_passes = passes;
   e.newton_steps = newton_steps;
   e.loadings = std::move(theta.L);

@@ -21,6 +21,9 @@ inline constexpr double kPolishEntry = 1e-2;
 // cases); a stage that needs more than this has met a region it cannot handle, and EM
 // goes on.
 inline constexpr int kPolishMaxSteps = 30;
+// Evaluations of the fixed point in psi (ml_profiled.h) before EM takes over; it needed 7
+// on the benchmark panel at N = 2000 to 20 000.
+inline constexpr int kProfileMaxEvaluations = 60;
 
 // Gaussian log-likelihood per observation of Sigma = L L' + diag(psi) given S:
 // -(1/2) [N log(2 pi) + log|Sigma| + tr(Sigma^-1 S)], by the matrix determinant

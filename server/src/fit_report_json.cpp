@@ -64,6 +64,7 @@ json fit_report_json(const engine::FactorFit& fit, const FitSource& source) {
       {"iterations", fit.iterations},
       {"em_passes", fit.em_passes},
       {"newton_steps", fit.newton_steps},
+      {"profile_steps", fit.profile_steps},
       {"largest_scaled_gradient", fit.largest_scaled_gradient},
       {"tolerance", fit.tolerance},
       {"message", fit.message},

@@ -73,7 +73,8 @@ json statistics(const engine::FactorFit& fit) {
           {"largest_scaled_gradient", number(fit.largest_scaled_gradient)},
           {"tolerance", number(fit.tolerance)},
           {"em_passes", fit.em_passes},
-          {"newton_steps", fit.newton_steps}};
+          {"newton_steps", fit.newton_steps},
+          {"profile_steps", fit.profile_steps}};
 }
 
 void restore_statistics(const json& j, engine::FactorFit& fit) {
@@ -104,6 +105,7 @@ void restore_statistics(const json& j, engine::FactorFit& fit) {
     fit.tolerance = number(j.at("tolerance"));
     fit.em_passes = j.at("em_passes").get<int>();
     fit.newton_steps = j.at("newton_steps").get<int>();
+    if (j.contains("profile_steps")) fit.profile_steps = j.at("profile_steps").get<int>();
   }
 }
 

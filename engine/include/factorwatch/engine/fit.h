@@ -120,7 +120,7 @@ struct FactorFit {
   // Fit statistics.
   double log_likelihood = 0;  // per observation, up to constants (ML; also evaluated for others)
   LikelihoodRatioTest lr_test;
-  int iterations = 0;        // ML: EM passes plus Newton steps
+  int iterations = 0;        // ML: EM passes plus Newton steps plus profile steps
   bool converged = false;    // termination == converged
   // ML only (NaN otherwise): the stopping criterion at the returned estimate, the largest
   // scaled gradient of the log-likelihood (see FitOptions::tolerance), and how the
@@ -129,6 +129,7 @@ struct FactorFit {
   double tolerance = std::numeric_limits<double>::quiet_NaN();  // asked for (ML, principal axis)
   int em_passes = 0;
   int newton_steps = 0;
+  int profile_steps = 0;  // evaluations of the fixed point in psi (panels above 200 assets)
   double fit_seconds = 0;  // wall time of the estimation alone
 
   bool IsSolutionUsable() const {
