@@ -116,15 +116,21 @@ TEST(Heywood, NearZeroSpecificVarianceIsFlooredAndFlagged) {
 // directions dominate either way (at N = 300 here, 67 passes warm against 58 cold). The
 // old rule (relative change of the log-likelihood) showed fewer passes only because it
 // stopped both fits early. Speed is the benchmark's business (bench/fit_bench.cpp, ml-warm).
+// Two windows a date apart: all but the last date, and all but the first.
+std::pair<ReturnsPanel, ReturnsPanel> consecutive_windows(const ReturnsPanel& all) {
+  const Eigen::Index periods = all.values.rows() - 1;
+  ReturnsPanel yesterday = all, today = all;
+  yesterday.values = all.values.topRows(periods);
+  yesterday.dates.pop_back();
+  today.values = all.values.bottomRows(periods);
+  today.dates.erase(today.dates.begin());
+  return {yesterday, today};
+}
+
 class WarmStarted : public ::testing::TestWithParam<int> {};
 TEST_P(WarmStarted, ReachesTheColdOptimum) {
   const int assets = GetParam();
-  const auto m = simulate_planted_model(701, assets, 6, 12);
-  ReturnsPanel yesterday = m.panel, today = m.panel;
-  yesterday.values = m.panel.values.topRows(700);
-  yesterday.dates.pop_back();
-  today.values = m.panel.values.bottomRows(700);
-  today.dates.erase(today.dates.begin());
+  const auto [yesterday, today] = consecutive_windows(simulate_planted_model(701, assets, 6, 12).panel);
   FitOptions o = ml(6);
   const FactorFit prior = fit(yesterday, o);
   const FactorFit cold = fit(today, o);
@@ -148,12 +154,7 @@ INSTANTIATE_TEST_SUITE_P(NewtonStageAndEmAlone, WarmStarted, ::testing::Values(1
 class ProfiledFixedPoint : public ::testing::TestWithParam<std::pair<int, int>> {};
 TEST_P(ProfiledFixedPoint, ReachesThePlainEmOptimum) {
   const auto [periods, assets] = GetParam();
-  const auto m = simulate_planted_model(periods + 1, assets, 4, 21);
-  ReturnsPanel yesterday = m.panel, today = m.panel;
-  yesterday.values = m.panel.values.topRows(periods);
-  yesterday.dates.pop_back();
-  today.values = m.panel.values.bottomRows(periods);
-  today.dates.erase(today.dates.begin());
+  const auto [yesterday, today] = consecutive_windows(simulate_planted_model(periods + 1, assets, 4, 21).panel);
   FitOptions o = ml(4);
   const FactorFit fast = fit(today, o);
   ASSERT_TRUE(fast.converged) << fast.message;

@@ -19,6 +19,7 @@
 
 #include "eustock_returns.h"
 #include "factorwatch/engine/fit.h"
+#include "factorwatch/storage/covariance_csv.h"
 #include "reference_table.h"
 
 namespace {
@@ -28,17 +29,9 @@ using factorwatch::testing::read_reference;
 
 constexpr double kTarget = 1e-6;
 
+// The reference matrices are in the project's matrix file format ('#' provenance lines).
 CovarianceInput covariance_from(const std::string& file, double observations) {
-  const auto table = read_reference(file);
-  CovarianceInput in;
-  const Eigen::Index p = Eigen::Index(table.rows.size());
-  in.matrix.resize(p, p);
-  for (Eigen::Index i = 0; i < p; ++i) {
-    in.assets.push_back(table.rows[std::size_t(i)][0]);
-    for (Eigen::Index j = 0; j < p; ++j) in.matrix(i, j) = std::stod(table.rows[std::size_t(i)][std::size_t(j + 1)]);
-  }
-  in.observations = observations;
-  return in;
+  return factorwatch::storage::read_covariance_csv(std::string(FACTORWATCH_REFERENCE_DIR) + "/" + file, observations);
 }
 
 FitOptions defaults(int k, bool polish) {

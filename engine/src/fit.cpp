@@ -128,7 +128,8 @@ FactorFit fit_prepared(PreparedData d, const FitOptions& options,
       e = detail::ml_estimate(S, std::move(L), std::move(psi), options);
       e.warm_started = warm;
       e.solver_path = "EM (Woodbury form" + std::string(options.accelerate ? ", SQUAREM" : "") + ")" +
-                      (e.newton_steps > 0 ? " then Newton on the likelihood concentrated in psi" : "") + " over " + (S.panel() ? "the panel, one fused pass per step" : "the given matrix") +
+                      (e.newton_steps > 0 ? " then Newton on the likelihood concentrated in psi" : "") +
+                      " over " + (S.panel() ? "the panel, one fused pass per step" : "the given matrix") +
                       "; eigenvalues by " + spectrum.path;
       if (warm) e.message += "; warm-started from the previous fit";
       break;

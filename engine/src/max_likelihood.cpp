@@ -48,7 +48,7 @@ class EmMap {
     const double trace_term = s_.cwiseProduct(psi_inv).sum() - (BP * M).trace();
     loglik = -0.5 * (double(N) * kLog2Pi + log_det_sigma + trace_term);
 
-    gradient = stationarity(in, B, BP);
+    gradient = stationarity(in, psi_inv, B, BP);
 
     out.L = czz.solve(P_.transpose()).transpose();
     out.psi = s_ - out.L.cwiseProduct(P_).rowwise().sum();
@@ -66,20 +66,21 @@ class EmMap {
   // Scaled to be free of the assets' units: psi_i dl/dpsi_i (a derivative in log psi_i)
   // and sqrt(s_ii) |dl/dL_i.| (the row's Euclidean norm, unchanged by a rotation of the
   // factors). A specific variance held at its floor whose derivative
-  // points below the floor is at its constrained optimum and does not count.
-  double stationarity(const Params& in, const Eigen::MatrixXd& B, const Eigen::MatrixXd& BP) const {
+  // points below the floor is at its constrained optimum and does not count (held_at_floor).
+  double stationarity(const Params& in, const Eigen::VectorXd& psi_inv, const Eigen::MatrixXd& B,
+                      const Eigen::MatrixXd& BP) const {
     const Eigen::MatrixXd Bt = B.transpose();                       // W M^-1, N x k
     const Eigen::VectorXd bl = Bt.cwiseProduct(in.L).rowwise().sum();  // psi_i [A L]_i . L_i / psi_i
     const Eigen::VectorXd pl = P_.cwiseProduct(in.L).rowwise().sum();
     const Eigen::VectorXd lbl = (in.L * BP).cwiseProduct(in.L).rowwise().sum();
     double worst = 0;
     for (Eigen::Index i = 0; i < in.psi.size(); ++i) {
-      const double g = -0.5 * (1.0 - bl[i] - (s_[i] - 2.0 * pl[i] + lbl[i]) / in.psi[i]);
-      if (in.psi[i] <= floor_[i] && g < 0) continue;
-      worst = std::max(worst, std::abs(g));
+      const double g = -0.5 * (1.0 - bl[i] - (s_[i] - 2.0 * pl[i] + lbl[i]) * psi_inv[i]);
+      if (!held_at_floor(in.psi[i], floor_[i], g)) worst = std::max(worst, std::abs(g));
     }
-    const Eigen::MatrixXd WtP = in.L.transpose() * in.psi.cwiseInverse().asDiagonal() * P_;  // W' P, k x k
-    const Eigen::MatrixXd gL = -(Bt - in.psi.cwiseInverse().asDiagonal() * P_ + Bt * WtP);
+    const Eigen::MatrixXd PinvP = psi_inv.asDiagonal() * P_;  // Psi^-1 P, N x k
+    const Eigen::MatrixXd WtP = in.L.transpose() * PinvP;    // W' P = L' Psi^-1 P, k x k
+    const Eigen::MatrixXd gL = -(Bt - PinvP + Bt * WtP);
     for (Eigen::Index i = 0; i < gL.rows(); ++i) worst = std::max(worst, std::sqrt(s_[i]) * gL.row(i).norm());
     return worst;
   }
@@ -218,7 +219,7 @@ Estimate ml_estimate(const SecondMoments& S, Eigen::MatrixXd L, Eigen::VectorXd 
   if (e.termination == Termination::iteration_limit && measured.L.size() > 0) theta = std::move(measured);
   if (newton_steps > 0)
     e.message += " (" + std::to_string(passes) + " EM passes, " + std::to_string(newton_steps) + " Newton steps)";
-  if (profile_steps > 0)
+  else if (profile_steps > 0)
     e.message += " (" + std::to_string(profile_steps) + " steps of the fixed point in psi, " + std::to_string(passes) +
                  " EM passes)";
   e.iterations = passes + newton_steps + profile_steps;

@@ -21,6 +21,9 @@ inline constexpr double kPolishEntry = 1e-2;
 // cases); a stage that needs more than this has met a region it cannot handle, and EM
 // goes on.
 inline constexpr int kPolishMaxSteps = 30;
+// A specific variance at its floor whose derivative dl/dlog(psi_i) points below the floor
+// is at its constrained optimum: the stopping criterion leaves it out.
+inline bool held_at_floor(double psi, double floor, double dl_dlog_psi) { return psi <= floor && dl_dlog_psi < 0; }
 // Evaluations of the fixed point in psi (ml_profiled.h) before EM takes over; it needed 7
 // on the benchmark panel at N = 2000 to 20 000.
 inline constexpr int kProfileMaxEvaluations = 60;

@@ -23,17 +23,18 @@ MapValue apply_map(const RowMatrix& X, const Eigen::VectorXd& s, const Eigen::Ve
   const DenseMoments G(gram_matrix(Y));
   const TopEigen top = top_eigenpairs(G, k, k, nullptr, SolverChoice::matrix_free, seed);
   if (!top.ok || !(top.values[k - 1] > 0)) return m;
-  Eigen::MatrixXd V = Y.transpose() * top.vectors;  // Psi^-1/2 X' U, columns of norm sqrt(g)
-  m.L.resize(psi.size(), k);
+  // The eigenvectors of S* are v_j = Psi^-1/2 X' u_j / sqrt(g_j), so the Psi^1/2 in L(psi)
+  // cancels: L = X' U diag(sqrt((g - 1) / g)).
+  m.L.noalias() = X.transpose() * top.vectors;
   for (int j = 0; j < k; ++j) {
     const double g = top.values[j];
-    m.L.col(j) = psi.cwiseSqrt().cwiseProduct(V.col(j)) * (std::sqrt(std::max(g - 1.0, 0.0)) / std::sqrt(g));
+    m.L.col(j) *= std::sqrt(std::max(g - 1.0, 0.0) / g);
   }
-  m.image = (s - m.L.rowwise().squaredNorm()).cwiseMax(floor);
+  const Eigen::VectorXd specific = s - m.L.rowwise().squaredNorm();
+  m.image = specific.cwiseMax(floor);
   for (Eigen::Index i = 0; i < psi.size(); ++i) {
-    const double g = 0.5 * ((s[i] - m.L.row(i).squaredNorm()) / psi[i] - 1.0);
-    if (psi[i] <= floor[i] && g < 0) continue;
-    m.criterion = std::max(m.criterion, std::abs(g));
+    const double g = 0.5 * (specific[i] / psi[i] - 1.0);  // psi_i dl/dpsi_i at L(psi)
+    if (!held_at_floor(psi[i], floor[i], g)) m.criterion = std::max(m.criterion, std::abs(g));
   }
   m.ok = m.L.allFinite() && m.image.allFinite();
   return m;

@@ -5,7 +5,6 @@
 #include <algorithm>
 #include <cctype>
 #include <cmath>
-#include <cstdio>
 #include <fstream>
 #include <set>
 #include <stdexcept>
@@ -21,11 +20,6 @@ namespace {
 
 const char* weighting_name(engine::Weighting w) { return w == engine::Weighting::ewma ? "ewma" : "equal"; }
 
-std::string number_text(double x) {
-  char text[32];
-  std::snprintf(text, sizeof text, "%g", x);
-  return text;
-}
 
 ModelVersion read_version(SQLite::Statement& q) {
   ModelVersion m;
@@ -73,7 +67,7 @@ bool ModelConfig::IsValid(std::string* error) const {
   if (weighting == engine::Weighting::ewma && !(half_life > 0 && std::isfinite(half_life)))
     return fail("option '--half-life': exponential weighting needs a half-life above 0 dates");
   if (!(tolerance > 0 && tolerance <= 0.01))
-    return fail("option '--tolerance' = " + number_text(tolerance) + ": must be in (0, 0.01]");
+    return fail("option '--tolerance' = " + detail::shortest(tolerance) + ": must be in (0, 0.01]");
   if (!(min_coverage > 0 && min_coverage <= 1))
     return fail("option '--min-coverage' = " + std::to_string(min_coverage) + ": must be in (0, 1]");
   if (!first_as_of.empty() && !detail::parse_iso_date(first_as_of))
