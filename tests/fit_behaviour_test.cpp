@@ -6,6 +6,10 @@
 #include <limits>
 
 #include "factorwatch/engine/fit.h"
+#include "eigen_top.h"
+#include "max_likelihood.h"
+#include "ml_profiled.h"
+#include "prepare.h"
 #include "simulated_model.h"
 #include "weights.h"
 
@@ -175,6 +179,31 @@ TEST_P(ProfiledFixedPoint, ReachesThePlainEmOptimum) {
   ASSERT_TRUE(warm.converged && warm.warm_started);
   EXPECT_LT((warm.uniqueness - reference.uniqueness).cwiseAbs().maxCoeff(), 1e-6);
 }
+// The safeguard's likelihood comes from the top-k eigenvalues of Psi^-1/2 S Psi^-1/2 alone
+// (ml_profiled.h); it must equal the full Woodbury-form likelihood at (L(psi), psi),
+// including a psi at which some eigenvalues fall below 1 (their factor drops out).
+TEST(ProfiledFixedPoint, EigenvalueLikelihoodEqualsTheFullOne) {
+  const auto m = simulate_planted_model(300, 500, 4, 8);
+  FitOptions o = ml(6);
+  const detail::PreparedData d = detail::prepare(m.panel, o);
+  const detail::SecondMoments& S = *d.moments;
+  const RowMatrix& X = *S.panel();
+  for (double share : {0.3, 0.9, 4.0}) {
+    const Eigen::VectorXd psi = share * S.diagonal();
+    RowMatrix scratch;
+    const detail::DenseMoments G(detail::scaled_gram_matrix(X, psi.cwiseInverse(), scratch));
+    const detail::TopEigen top = detail::top_eigenpairs(G, 6, 6, nullptr, SolverChoice::dense, 1);
+    ASSERT_TRUE(top.ok);
+    Eigen::MatrixXd L = X.transpose() * top.vectors;
+    for (int j = 0; j < 6; ++j) L.col(j) *= std::sqrt(std::max(top.values[j] - 1.0, 0.0) / top.values[j]);
+    if (share == 4.0) {
+      EXPECT_LT(top.values[5], 1.0) << "the case where factors drop out";
+    }
+    const double full = detail::log_likelihood(S, L, psi);
+    EXPECT_NEAR(detail::profiled_log_likelihood(top.values, psi, S.diagonal()), full, 1e-11 * std::abs(full));
+  }
+}
+
 INSTANTIATE_TEST_SUITE_P(LongAndWidePanels, ProfiledFixedPoint,
                          ::testing::Values(std::make_pair(600, 250), std::make_pair(150, 400)));
 

@@ -38,6 +38,17 @@ TEST_P(PanelKernels, MatchEigen) {
   } else {
     EXPECT_GT(s.m, kKernelMaxColumns);
   }
+
+  // X diag(d) X' without the scaled copy, twice with one scratch (the second call
+  // reuses memory the first one sized).
+  RowMatrix scratch;
+  for (int round = 0; round < 2; ++round) {
+    const Eigen::VectorXd d = Eigen::VectorXd::Random(s.N).array() + 1.5;
+    const Eigen::MatrixXd expected_g = X * d.asDiagonal() * X.transpose();
+    const Eigen::MatrixXd got_g = scaled_gram_matrix(X, d, scratch);
+    EXPECT_LT((got_g - expected_g).cwiseAbs().maxCoeff(), 1e-13 * expected_g.cwiseAbs().maxCoeff());
+    EXPECT_EQ(got_g, got_g.transpose());
+  }
 }
 
 INSTANTIATE_TEST_SUITE_P(Shapes, PanelKernels,

@@ -26,6 +26,12 @@ struct ProfiledOutcome {
   std::string problem;
 };
 
+// The log-likelihood per observation at (L(psi), psi) from the top-k eigenvalues g of
+// S* = Psi^-1/2 S Psi^-1/2 alone: Sigma* = I + V (G' - I) V' with g'_j = max(g_j, 1), so
+// l = -1/2 [N log 2 pi + sum log psi_i + sum_j (log g'_j - g'_j + 1) + sum s_ii / psi_i].
+double profiled_log_likelihood(const Eigen::VectorXd& top_eigenvalues, const Eigen::VectorXd& psi,
+                               const Eigen::VectorXd& s);
+
 // S must hold the panel (S = X'X, S.panel() not null); psi > 0 the start.
 ProfiledOutcome profiled_fixed_point(const SecondMoments& S, const Eigen::VectorXd& floor, Eigen::VectorXd psi,
                                      int factors, double target, int max_evaluations, unsigned seed);

@@ -3,6 +3,10 @@
 #include <algorithm>
 #include <vector>
 
+#ifdef _OPENMP
+#include <omp.h>
+#endif
+
 #include "panel_kernels.h"
 
 namespace factorwatch::engine::detail {
@@ -93,6 +97,34 @@ Eigen::MatrixXd gram_matrix(const RowMatrix& X) {
     const Eigen::Index i0 = pairs[p].first * block, j0 = pairs[p].second * block;
     const Eigen::Index ri = std::min(block, T - i0), rj = std::min(block, T - j0);
     G.block(i0, j0, ri, rj).noalias() = X.middleRows(i0, ri) * X.middleRows(j0, rj).transpose();
+  }
+  return G.selfadjointView<Eigen::Lower>();
+}
+
+Eigen::MatrixXd scaled_gram_matrix(const RowMatrix& X, const Eigen::VectorXd& d, RowMatrix& scratch) {
+  // Row block i is scaled once into this thread's slice of scratch, then multiplied by
+  // the unscaled row blocks j <= i: the lower block triangle of (X_i D) X_j'. Blocks go
+  // largest first so that two threads finish together.
+  const Eigen::Index T = X.rows(), N = X.cols();
+  const Eigen::Index block = 64;
+  const Eigen::Index blocks = (T + block - 1) / block;
+  const bool parallel = X.size() >= kParallelEntries;
+  int threads = 1;
+#ifdef _OPENMP
+  if (parallel) threads = omp_get_max_threads();
+#endif
+  if (scratch.rows() < threads * block || scratch.cols() != N) scratch.resize(threads * block, N);
+  Eigen::MatrixXd G(T, T);
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (parallel)
+  for (Eigen::Index b = blocks - 1; b >= 0; --b) {
+    int id = 0;
+#ifdef _OPENMP
+    id = omp_get_thread_num();
+#endif
+    const Eigen::Index i0 = b * block, ri = std::min(block, T - i0);
+    auto Yi = scratch.middleRows(id * block, ri);
+    Yi.noalias() = X.middleRows(i0, ri) * d.asDiagonal();
+    G.block(i0, 0, ri, i0 + ri).noalias() = Yi * X.topRows(i0 + ri).transpose();
   }
   return G.selfadjointView<Eigen::Lower>();
 }

@@ -61,4 +61,10 @@ class DenseMoments final : public SecondMoments {
 // X X' (T x T), the Gram twin of X'X: same nonzero eigenvalues.
 Eigen::MatrixXd gram_matrix(const RowMatrix& X);
 
+// X diag(d) X' (T x T) without a scaled copy of the panel: each task scales one row
+// block into `scratch` (resized to threads x block rows by N, and kept by the caller
+// so that repeated calls reuse memory already touched; a fresh panel-sized buffer
+// costs more in page faults than the product on the machines we measured).
+Eigen::MatrixXd scaled_gram_matrix(const RowMatrix& X, const Eigen::VectorXd& d, RowMatrix& scratch);
+
 }  // namespace factorwatch::engine::detail

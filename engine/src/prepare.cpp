@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdio>
 
+#include "page_hint.h"
 #include "panel_kernels.h"
 #include "weights.h"
 
@@ -136,6 +137,7 @@ PreparedData prepare(const ReturnsPanel& panel, const FitOptions& options) {
   }
 
   RowMatrix X(T, N);
+  advise_huge_pages(X.data(), std::size_t(X.size()) * sizeof(double));
   bool any_gap = false;
 #pragma omp parallel for schedule(static) reduction(|| : any_gap) if (panel.values.size() >= kParallelEntries)
   for (Eigen::Index t = 0; t < T; ++t) {
