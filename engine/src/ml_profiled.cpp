@@ -66,36 +66,50 @@ ProfiledOutcome profiled_fixed_point(const SecondMoments& S, const Eigen::Vector
     out.problem = why;
     return out;
   };
-  while (out.evaluations < max_evaluations) {
-    const MapValue a = apply_map(X, s, floor, psi, factors, seed, scratch);
+  auto done = [&](const Eigen::VectorXd& at, const MapValue& m) {
+    out.ok = true;
+    out.loadings = m.L;
+    out.psi = at;
+    out.criterion = m.criterion;
+    return out;
+  };
+  auto evaluate = [&](const Eigen::VectorXd& at) {
     ++out.evaluations;
-    if (!a.ok) return fail("the top eigenpairs of the scaled Gram matrix were not found");
-    if (a.criterion <= target) {
-      out.ok = true;
-      out.loadings = a.L;
-      out.psi = psi;
-      out.criterion = a.criterion;
-      return out;
-    }
+    return apply_map(X, s, floor, at, factors, seed, scratch);
+  };
+  const char* const lost = "the top eigenpairs of the scaled Gram matrix were not found";
+  // Every evaluation measures the criterion at its input, so the loop stops at the first
+  // point that meets it, whichever step produced that point.
+  MapValue a = evaluate(psi);
+  while (true) {
+    if (!a.ok) return fail(lost);
+    if (a.criterion <= target) return done(psi, a);
     if (out.evaluations + 2 > max_evaluations) {
+      if (out.evaluations >= max_evaluations) break;
       psi = a.image;
+      a = evaluate(psi);
       continue;
     }
     // SQUAREM (scheme S3) on psi, in units of s_ii so that every asset weighs alike.
-    const MapValue b = apply_map(X, s, floor, a.image, factors, seed, scratch);
-    ++out.evaluations;
-    if (!b.ok) return fail("the top eigenpairs of the scaled Gram matrix were not found");
+    const MapValue b = evaluate(a.image);
+    if (!b.ok) return fail(lost);
+    if (b.criterion <= target) return done(a.image, b);
     const Eigen::VectorXd r = (a.image - psi).cwiseQuotient(s);
     const Eigen::VectorXd v = (b.image - 2.0 * a.image + psi).cwiseQuotient(s);
     const double alpha = std::min(-1.0, v.norm() > 0 ? -r.norm() / v.norm() : -1.0);
     const Eigen::VectorXd jump = (psi - 2.0 * alpha * r.cwiseProduct(s) + alpha * alpha * v.cwiseProduct(s)).cwiseMax(floor);
     // Keep the extrapolated point only if its profiled likelihood is not below that of the
-    // plain double step's start a.image (whose profile b.L is known).
-    const MapValue c = apply_map(X, s, floor, jump, factors, seed, scratch);
-    ++out.evaluations;
-    const double l_jump = c.ok ? c.log_likelihood : -INFINITY;
-    const double l_plain = b.log_likelihood;
-    psi = (c.ok && l_jump >= l_plain) ? c.image : b.image;
+    // plain step's point a.image (whose profile b.L is known). Its evaluation then starts
+    // the next cycle; otherwise the plain double step's end b.image does.
+    MapValue c = evaluate(jump);
+    if (c.ok && c.log_likelihood >= b.log_likelihood) {
+      psi = jump;
+      a = std::move(c);
+    } else {
+      if (out.evaluations >= max_evaluations) break;
+      psi = b.image;
+      a = evaluate(psi);
+    }
   }
   return fail("evaluation limit reached before the target");
 }
