@@ -1,7 +1,7 @@
 // Times one fit configuration on the planted benchmark panel and prints one JSON line.
 //
 //   fit_bench --assets N [--periods T] [--factors K] [--repeat R]
-//             [--write-panel PATH] [--method pca|ml|ml-warm]
+//             [--write-panel PATH] [--method pca|pca-warm|ml|ml-warm]
 //             [--solver automatic|dense|matrix-free] [--eigenvalues E] [--tolerance TOL]
 //             [--polish yes|no]
 //
@@ -17,6 +17,11 @@
 //   ml       cold ML fit of today (tolerance 1e-8); median of R calls
 //   ml-warm  ML fit of yesterday (untimed), then R timed fits of today warm-started
 //            from it, then one untimed cold fit of today for comparison
+//   pca-warm as ml-warm for pca (no start values: the warm part is the products)
+//
+// The warm modes carry the window products (window_products.h) from yesterday's fit:
+// every timed fit starts from a copy of yesterday's (copied untimed), as the next day's
+// refit in a rolling refresh does.
 #include <sys/resource.h>
 
 #include <algorithm>
@@ -53,7 +58,7 @@ struct Args {
 [[noreturn]] void usage(const std::string& problem) {
   std::fprintf(stderr,
                "fit_bench: %s\nusage: fit_bench --assets N [--periods T] [--factors K] [--repeat R]\n"
-               "                 [--write-panel PATH] [--method pca|ml|ml-warm]\n"
+               "                 [--write-panel PATH] [--method pca|pca-warm|ml|ml-warm]\n"
                "                 [--solver automatic|dense|matrix-free] [--eigenvalues E] [--tolerance TOL]\n"
                "                 [--polish yes|no]\n",
                problem.c_str());
@@ -98,8 +103,8 @@ Args parse(int argc, char** argv) {
     else usage("unknown flag " + flag);
   }
   if (a.assets == 0) usage("--assets is required");
-  if (!a.method.empty() && a.method != "pca" && a.method != "ml" && a.method != "ml-warm")
-    usage("--method must be pca, ml or ml-warm");
+  if (!a.method.empty() && a.method != "pca" && a.method != "pca-warm" && a.method != "ml" && a.method != "ml-warm")
+    usage("--method must be pca, pca-warm, ml or ml-warm");
   if (a.method.empty() && a.write_panel.empty()) usage("nothing to do: give --method or --write-panel");
   return a;
 }
@@ -223,7 +228,8 @@ int main(int argc, char** argv) {
   options.factors = args.factors;
   options.tolerance = args.tolerance;
   options.polish = args.polish;
-  options.method = args.method == "pca" ? fe::Method::pca : fe::Method::max_likelihood;
+  const bool warm = args.method == "ml-warm" || args.method == "pca-warm";
+  options.method = args.method.rfind("pca", 0) == 0 ? fe::Method::pca : fe::Method::max_likelihood;
   options.solver = args.solver;
   options.eigenvalues_to_report = args.eigenvalues;
 
@@ -238,20 +244,29 @@ int main(int argc, char** argv) {
 
   long long rss_before = 0;
   fe::FactorFit yesterday_fit;
-  if (args.method == "ml-warm") {
+  fe::WindowProducts yesterday_products;
+  if (warm) {
     {
       const fe::ReturnsPanel yesterday = make_panel(total, N, 0, T);
-      yesterday_fit = fe::fit(yesterday, options);
+      fe::FitOptions first = options;
+      first.products = &yesterday_products;
+      yesterday_fit = fe::fit(yesterday, first);
     }  // yesterday's panel is released: a rolling service keeps the fit, not the panel
-    options.warm_start = fe::WarmStart{yesterday_fit.assets, yesterday_fit.loadings,
-                                       yesterday_fit.specific_variance};
+    if (args.method == "ml-warm")
+      options.warm_start = fe::WarmStart{yesterday_fit.assets, yesterday_fit.loadings,
+                                         yesterday_fit.specific_variance};
     line.num("yesterday_iterations", static_cast<long long>(yesterday_fit.iterations))
         .str("yesterday_termination", fe::to_string(yesterday_fit.termination));
   }
 
   const fe::ReturnsPanel today = make_panel(total, N, 1, T);
   rss_before = current_rss_bytes();
+  fe::WindowProducts products;
   for (int r = 0; r < args.repeat; ++r) {
+    if (warm) {
+      products = yesterday_products;
+      options.products = &products;
+    }
     Timed t = timed_fit(today, options);
     call.push_back(t.call_seconds);
     estimation.push_back(t.fit.fit_seconds);
@@ -276,14 +291,20 @@ int main(int argc, char** argv) {
       .num("assets_fitted", static_cast<long long>(last.assets.size()))
       .num("heywood", static_cast<long long>(std::count(last.heywood.begin(), last.heywood.end(), true)));
 
-  if (args.method == "ml-warm") {
-    // The cold fit of the same window, for the likelihood comparison (untimed; the
-    // panel is the same size, so the peak RSS recorded above is not affected).
+  if (warm) {
+    // The cold fit of the same window, for the comparison (untimed; the panel is the
+    // same size, so the peak RSS recorded above is not affected).
+    line.num("products_reused_rows", static_cast<long long>(products.last_update().reused_rows))
+        .num("products_computed_rows", static_cast<long long>(products.last_update().computed_rows));
     options.warm_start.reset();
+    options.products = nullptr;
     const fe::FactorFit cold = fe::fit(today, options);
     line.num("cold_iterations", static_cast<long long>(cold.iterations))
         .num("cold_log_likelihood", cold.log_likelihood)
-        .num("log_likelihood_minus_cold", last.log_likelihood - cold.log_likelihood);
+        .num("log_likelihood_minus_cold", last.log_likelihood - cold.log_likelihood)
+        .num("uniqueness_max_difference_from_cold",
+             last.uniqueness.size() == cold.uniqueness.size() ? (last.uniqueness - cold.uniqueness).cwiseAbs().maxCoeff()
+                                                              : std::nan(""));
   }
   line.num("rss_before_fit_bytes", rss_before)
       .num("peak_rss_bytes", peak)

@@ -105,9 +105,13 @@ TopEigen top_eigenpairs(const SecondMoments& S, int count, int vectors_needed,
   const bool gram_possible = X && !shift && X->rows() < N;
   if (choice == SolverChoice::automatic && gram_possible && count < X->rows() - 1) {
     // Nonzero eigenvalues of X'X equal those of X X'; v = X'u / sqrt(lambda).
-    const Eigen::MatrixXd G = gram_matrix(*X);
+    const Eigen::MatrixXd* carried = S.gram();
+    const Eigen::MatrixXd formed = carried ? Eigen::MatrixXd() : gram_matrix(*X);
+    const Eigen::MatrixXd& G = carried ? *carried : formed;
     Spectra::DenseSymMatProd<double> op(G);
-    TopEigen r = spectra_top(op, count, seed, "spectra on the T x T gram matrix");
+    TopEigen r = spectra_top(op, count, seed,
+                             carried ? "spectra on the T x T gram matrix (from the carried window products)"
+                                     : "spectra on the T x T gram matrix");
     if (!r.ok) {
       r = dense_top_eigenpairs(G, count);
       r.path = "dense on the T x T gram matrix (spectra did not converge)";

@@ -23,6 +23,8 @@ class SecondMoments {
   virtual Eigen::MatrixXd dense() const = 0;
   // The panel X with S = X'X, or nullptr when S was given as a matrix.
   virtual const RowMatrix* panel() const { return nullptr; }
+  // X X' when it was formed ahead (from carried window products), else nullptr.
+  virtual const Eigen::MatrixXd* gram() const { return nullptr; }
 };
 
 // S = X'X, X the centred, weighted, gap-filled T x N panel (see prepare.h).
@@ -37,10 +39,14 @@ class PanelMoments final : public SecondMoments {
   void multiply_vector(const double* x, double* y) const override;
   Eigen::MatrixXd dense() const override;
   const RowMatrix* panel() const override { return &X_; }
+  const Eigen::MatrixXd* gram() const override { return G_.size() ? &G_ : nullptr; }
+  // Hands over X X' formed another way (it must equal X X' to round-off).
+  void set_gram(Eigen::MatrixXd G) { G_ = std::move(G); }
 
  private:
   RowMatrix X_;
   Eigen::VectorXd diag_;
+  Eigen::MatrixXd G_;
 };
 
 // S given as a dense symmetric matrix.

@@ -96,6 +96,34 @@ void column_statistics(const RowMatrix& values, const Eigen::VectorXd& w, Eigen:
   }
 }
 
+// X X' of the prepared panel from the carried raw products R = Z Z' (window_products.h),
+// for a gap-free window on the covariance basis, where X_t = sqrt(w_t) (z_t - mu) / sqrt(c)
+// on the kept columns, mu = Z'w / c, c the common coverage (the weights' sum). With A = R
+// less the excluded columns' part, a = A w / c and m = w'a / c:
+//   (X X')_st = sqrt(w_s w_t) / c * (A_st - a_s - a_t + m).
+Eigen::MatrixXd gram_from_products(const Eigen::MatrixXd& R, const RowMatrix& Z, const std::vector<Eigen::Index>& keep,
+                                   const Eigen::VectorXd& w, double c) {
+  Eigen::MatrixXd A = R;
+  std::vector<bool> kept(std::size_t(Z.cols()), false);
+  for (Eigen::Index j : keep) kept[std::size_t(j)] = true;
+  std::vector<Eigen::Index> dropped;
+  for (Eigen::Index j = 0; j < Z.cols(); ++j)
+    if (!kept[std::size_t(j)]) dropped.push_back(j);
+  if (!dropped.empty()) {
+    Eigen::MatrixXd E(Z.rows(), Eigen::Index(dropped.size()));
+    for (std::size_t i = 0; i < dropped.size(); ++i) E.col(Eigen::Index(i)) = Z.col(dropped[i]);
+    A.noalias() -= E * E.transpose();
+  }
+  const Eigen::VectorXd a = A * w / c;
+  const double m = w.dot(a) / c;
+  const Eigen::VectorXd root_w = w.cwiseSqrt();
+  Eigen::MatrixXd G = A;
+  G.colwise() -= a;
+  G.rowwise() -= a.transpose();
+  G.array() += m;
+  return root_w.asDiagonal() * G * root_w.asDiagonal() / c;
+}
+
 }  // namespace
 
 PreparedData prepare(const ReturnsPanel& panel, const FitOptions& options) {
@@ -154,9 +182,19 @@ PreparedData prepare(const ReturnsPanel& panel, const FitOptions& options) {
   out.gap_handling = any_gap ? "gaps set to the asset's window mean; column rescaled by "
                                "1/sqrt(coverage) so variances use observed dates only"
                              : "no gaps among the fitted assets";
+  // Carried products give X X' at O(s T N) for s new dates. They serve the Gram route of
+  // wide windows (T < N) on the covariance basis without gaps, when few columns were
+  // excluded (each costs T^2 to take out).
+  Eigen::MatrixXd carried;
+  if (options.products && options.basis == Basis::covariance && T < N) {
+    const WindowProducts::Update& u = options.products->update(panel);
+    if (u.usable && !any_gap && 8 * (width - N) <= N)
+      carried = gram_from_products(options.products->raw(), panel.values, keep, w, coverage[keep.front()]);
+  }
   // diag(X'X) is the variance on the basis scale (1 for correlation), known already.
-  out.moments = std::make_unique<PanelMoments>(
-      std::move(X), out.variance.cwiseQuotient(out.basis_scale.cwiseAbs2()));
+  auto moments = std::make_unique<PanelMoments>(std::move(X), out.variance.cwiseQuotient(out.basis_scale.cwiseAbs2()));
+  if (carried.size()) moments->set_gram(std::move(carried));
+  out.moments = std::move(moments);
   return out;
 }
 

@@ -151,6 +151,9 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
                                 " universe assets has stored returns");
   const auto window = static_cast<std::size_t>(config.window);
   std::optional<engine::FactorFit> previous;  // the fit of the grid point before the next one
+  // Date-by-date products carried from each window to the next (window_products.h): a
+  // window one date later computes one new row of them instead of all.
+  engine::WindowProducts products;
   std::size_t previous_point = static_cast<std::size_t>(-1);
 
   for (std::size_t chunk = 0; chunk < pending.size(); chunk += kWindowsPerSpan) {
@@ -179,6 +182,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       const GridPoint& point = points[p];
       const auto t_window = Clock::now();
       engine::FitOptions options = base;
+      options.products = &products;
       // Warm start from the grid point before this one: in memory when this run fitted
       // it, else as stored (identical numbers either way).
       if (p > 0) {

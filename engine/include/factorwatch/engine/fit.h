@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "factorwatch/engine/panel.h"
+#include "factorwatch/engine/window_products.h"
 
 namespace factorwatch::engine {
 
@@ -59,6 +60,10 @@ struct FitOptions {
   int eigenvalues_to_report = 0;
   unsigned seed = 20261201;  // start vector of the iterative eigen-solver
   std::optional<WarmStart> warm_start;
+  // Products carried between consecutive windows (window_products.h), owned by the caller
+  // and brought up to date by the fit; null forms them afresh. The figures do not depend
+  // on it beyond round-off (the bound is in window_products.h).
+  WindowProducts* products = nullptr;
 
   // True when usable; otherwise *error names the field, its value and the rule.
   bool IsValid(std::string* error) const;
