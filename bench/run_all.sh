@@ -108,8 +108,11 @@ ROUND=1
 our_fits() {  # N
   timed "$FIT" --assets "$1" --method pca --repeat 5
   timed "$FIT" --assets "$1" --method pca --repeat 5 --eigenvalues 10
+  timed "$FIT" --assets "$1" --method pca-warm --repeat 5
   timed "$FIT" --assets "$1" --method ml --repeat 5
   timed "$FIT" --assets "$1" --method ml-warm --repeat 5
+  # The T x T Gram matrix alone, the yardstick of the PCA target (once per size).
+  if [ "$ROUND" = 1 ]; then timed "$BUILD/bench/stage_bench" --assets "$1" --repeat 5 --only gram; fi
 }
 peer_runs() {  # N PANEL [extra skip]
   local skip

@@ -2,7 +2,9 @@
 // the planted benchmark panel (white-box: includes engine/src headers), plus the
 // machine's read bandwidth, which sets the floor for one pass over the panel.
 //
-//   stage_bench --assets N [--periods T] [--factors K] [--repeat R]
+//   stage_bench --assets N [--periods T] [--factors K] [--repeat R] [--only gram]
+//
+// --only gram stops after the Gram matrix (the yardstick of the PCA target at each size).
 //
 // Prints one JSON line per stage: {"bench":"stage","stage":...,"seconds":median,...}.
 #include <algorithm>
@@ -46,9 +48,11 @@ double time_it(int repeat, const std::function<void()>& call) {
   return median(t);
 }
 
+long long g_assets = 0;  // N of this run, on every line so that runs at several sizes can be told apart
+
 void emit(const char* stage, double seconds, const std::string& extra = "") {
-  std::printf("{\"bench\":\"stage\",\"stage\":\"%s\",\"seconds\":%.6g%s%s}\n", stage, seconds,
-              extra.empty() ? "" : ",", extra.c_str());
+  std::printf("{\"bench\":\"stage\",\"assets\":%lld,\"stage\":\"%s\",\"seconds\":%.6g%s%s}\n", g_assets, stage,
+              seconds, extra.empty() ? "" : ",", extra.c_str());
   std::fflush(stdout);
 }
 
@@ -76,20 +80,23 @@ double read_bandwidth(std::size_t bytes, int repeat) {
 int main(int argc, char** argv) {
   fb::Index N = 5000, T = 504;
   int k = 10, repeat = 5;
+  bool gram_only = false;
   for (int i = 1; i < argc; i += 2) {
     const std::string flag = argv[i];
     const long long v = i + 1 < argc ? std::atoll(argv[i + 1]) : 0;
-    if (flag == "--assets" && v >= 20) N = v;
+    if (flag == "--only" && i + 1 < argc && std::string(argv[i + 1]) == "gram") gram_only = true;
+    else if (flag == "--assets" && v >= 20) N = v;
     else if (flag == "--periods" && v >= 20) T = v;
     else if (flag == "--factors" && v >= 1) k = int(v);
     else if (flag == "--repeat" && v >= 1) repeat = int(v);
     else {
-      std::fprintf(stderr, "usage: stage_bench --assets N [--periods T] [--factors K] [--repeat R]\n");
+      std::fprintf(stderr, "usage: stage_bench --assets N [--periods T] [--factors K] [--repeat R] [--only gram]\n");
       return 2;
     }
   }
   const fb::Index total = T + 1;
   const double panel_bytes = 8.0 * double(T) * double(N);
+  g_assets = static_cast<long long>(N);
   std::printf("{\"bench\":\"stage_config\",\"assets\":%lld,\"periods\":%lld,\"factors\":%d,\"repeat\":%d}\n",
               static_cast<long long>(N), static_cast<long long>(T), k, repeat);
 
@@ -100,10 +107,19 @@ int main(int argc, char** argv) {
   fe::FitOptions options;
   options.factors = k;
 
+  char extra[256];
+  if (gram_only) {
+    const fd::PreparedData prepared = fd::prepare(today, options);
+    Eigen::MatrixXd G;
+    const double gram_s = time_it(repeat, [&] { G = fd::gram_matrix(*prepared.moments->panel()); });
+    std::snprintf(extra, sizeof extra, "\"gflop_per_s\":%.1f", double(T) * double(T + 1) * double(N) / gram_s / 1e9);
+    emit("gram_matrix", gram_s, extra);
+    return 0;
+  }
+
   // Memory floor: bytes of one panel pass over the measured read bandwidth.
   const double bw_panel = read_bandwidth(std::size_t(panel_bytes), 20);
   const double bw_dram = read_bandwidth(std::size_t(1) << 30, 5);
-  char extra[256];
   std::snprintf(extra, sizeof extra, "\"bytes\":%.0f,\"gb_per_s\":%.2f,\"dram_gb_per_s\":%.2f,\"dram_pass_seconds\":%.6g",
                 panel_bytes, bw_panel / 1e9, bw_dram / 1e9, panel_bytes / bw_dram);
   emit("panel_read_floor", panel_bytes / bw_panel, extra);
