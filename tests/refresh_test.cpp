@@ -261,6 +261,47 @@ TEST(Refresh, WindowFromBeforeTheGradientRuleReadsWithoutACriterion) {
   for (const auto& s : storage::list_windows(db, v1.model.id)) EXPECT_TRUE(std::isnan(s.largest_scaled_gradient));
 }
 
+// A backfill of wide windows without gaps (fewer dates than assets, a date apart) carries
+// the window products from each window to the next (window_products.h) and warm-starts
+// each fit; every stored window must still hold the figures of a cold fit of its dates
+// with neither: PCA to round-off, ML within the accuracy its tests hold (1e-6 in a
+// uniqueness, tests/ml_default_accuracy_test.cpp).
+TEST(Refresh, BackfillWithCarriedProductsEqualsColdFits) {
+  TempDir dir;
+  engine::ReturnsPanel p = testing::simulate_planted_model(90, 250, kK, 17).panel;
+  p.dates = testing::business_dates(90);
+  testing::write_long_csv(dir.file("wide.csv"), p);
+  storage::Database db(dir.database());
+  load(db, dir.file("wide.csv"));
+  const engine::ReturnsPanel file = storage::read_returns_csv(dir.file("wide.csv"));
+  for (const engine::Method method : {engine::Method::pca, engine::Method::max_likelihood}) {
+    storage::ModelConfig config = ml_config(60, 1);
+    config.method = method;
+    const std::string name = engine::to_string(method);
+    storage::set_model(db, name, config);
+    EXPECT_EQ(storage::refresh_model(db, name).fitted, 31u);
+    const auto model = storage::find_model(db, name);
+    int carried = 0;
+    for (int end = 59; end < 90; end += 5) {
+      engine::ReturnsPanel w;
+      w.assets = file.assets;
+      w.dates.assign(file.dates.begin() + end - 59, file.dates.begin() + end + 1);
+      w.values = file.values.middleRows(end - 59, 60);
+      const engine::FactorFit cold = engine::fit(w, config.fit_options());
+      const auto stored = storage::read_window(db, model->id, file.dates[static_cast<std::size_t>(end)], false,
+                                               storage::WindowForm::as_fitted);
+      ASSERT_TRUE(stored && cold.converged) << name << " " << end;
+      const engine::FactorFit& s = stored->fit;
+      ASSERT_EQ(s.assets, cold.assets);
+      if (s.solver_path.find("carried window products") != std::string::npos) ++carried;
+      const double tolerance = method == engine::Method::pca ? 1e-10 : 1e-6;
+      EXPECT_LT((s.uniqueness - cold.uniqueness).cwiseAbs().maxCoeff(), tolerance) << name << " " << end;
+      EXPECT_LT(((s.eigenvalues - cold.eigenvalues).array() / cold.eigenvalues.array()).abs().maxCoeff(), 1e-10);
+    }
+    EXPECT_EQ(carried, 7) << name;
+  }
+}
+
 TEST(Refresh, UniverseListRestrictsTheAssets) {
   TempDir dir;
   const engine::ReturnsPanel p = planted();
