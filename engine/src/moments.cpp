@@ -108,14 +108,10 @@ Eigen::MatrixXd scaled_gram_matrix(const RowMatrix& X, const Eigen::VectorXd& d,
   const Eigen::Index T = X.rows(), N = X.cols();
   const Eigen::Index block = 64;
   const Eigen::Index blocks = (T + block - 1) / block;
-  const bool parallel = X.size() >= kParallelEntries;
-  int threads = 1;
-#ifdef _OPENMP
-  if (parallel) threads = omp_get_max_threads();
-#endif
+  const int threads = thread_count(X);
   if (scratch.rows() < threads * block || scratch.cols() != N) scratch.resize(threads * block, N);
   Eigen::MatrixXd G(T, T);
-#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (parallel)
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (threads > 1)
   for (Eigen::Index b = blocks - 1; b >= 0; --b) {
     int id = 0;
 #ifdef _OPENMP

@@ -110,14 +110,6 @@ bool dispatch_width(int m, F&& f) {
   }
 }
 
-int thread_count(const RowMatrix& X) {
-#ifdef _OPENMP
-  if (X.size() >= kParallelEntries) return omp_get_max_threads();
-#endif
-  (void)X;
-  return 1;
-}
-
 struct FusedCall {
   const RowMatrix& X;
   const double* V;
@@ -137,6 +129,14 @@ struct TransposeCall {
 };
 
 }  // namespace
+
+int thread_count(const RowMatrix& X) {
+#ifdef _OPENMP
+  if (X.size() >= kParallelEntries) return omp_get_max_threads();
+#endif
+  (void)X;
+  return 1;
+}
 
 bool fused_gram_product(const RowMatrix& X, const Eigen::MatrixXd& V, Eigen::MatrixXd& out) {
   const int m = int(V.cols());

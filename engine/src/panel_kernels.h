@@ -14,6 +14,9 @@ namespace factorwatch::engine::detail {
 // thread costs more than it saves (and stalls badly when the cores are busy).
 inline constexpr Eigen::Index kParallelEntries = Eigen::Index(1) << 18;
 
+// Threads for a pass over X: OpenMP's count from kParallelEntries entries up, else one.
+int thread_count(const RowMatrix& X);
+
 // Widest V the kernels are instantiated for; wider products fall back to Eigen.
 inline constexpr int kKernelMaxColumns = 16;
 

@@ -117,11 +117,10 @@ Eigen::MatrixXd gram_from_products(const Eigen::MatrixXd& R, const RowMatrix& Z,
   const Eigen::VectorXd a = A * w / c;
   const double m = w.dot(a) / c;
   const Eigen::VectorXd root_w = w.cwiseSqrt();
-  Eigen::MatrixXd G = A;
-  G.colwise() -= a;
-  G.rowwise() -= a.transpose();
-  G.array() += m;
-  return root_w.asDiagonal() * G * root_w.asDiagonal() / c;
+  A.colwise() -= a;
+  A.rowwise() -= a.transpose();
+  A.array() += m;
+  return root_w.asDiagonal() * A * root_w.asDiagonal() / c;
 }
 
 }  // namespace
