@@ -9,7 +9,7 @@
 //
 // Setup (not timed): a temporary data directory; the planted panel (planted_panel.h) of
 // N assets x D dates stored with storage::store_returns; a model of one window (the last
-// W dates) fitted and stored by storage::refresh_model; an M-name portfolio (names drawn
+// W dates) fitted and stored by pipeline::refresh_model; an M-name portfolio (names drawn
 // from the N, long-short weights, seeded) naming an N-name benchmark as its usual one,
 // both stored with storage::save_portfolio.
 //
@@ -61,21 +61,21 @@
 
 #include "api_context.h"
 #include "factorwatch/engine/risk.h"
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/risk_query.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "factorwatch/storage/data_directory.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/portfolios.h"
-#include "factorwatch/storage/refresh.h"
 #include "json_body.h"
 #include "planted_panel.h"
 #include "refresh_jobs.h"
 #include "response_cache.h"
 #include "risk_endpoints.h"
 #include "risk_model_cache.h"
-#include "risk_query.h"
 #include "risk_view.h"
-#include "window_query.h"
 
 #ifndef FACTORWATCH_BENCH_DIR
 #define FACTORWATCH_BENCH_DIR "bench"

@@ -11,16 +11,17 @@
 #include <random>
 
 #include "factorwatch/engine/alignment.h"
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/content_hash.h"
 #include "factorwatch/storage/drift.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
 #include "factorwatch/storage/returns_csv.h"
 #include "factorwatch/storage/windows.h"
 #include "simulated_model.h"
-#include "stored_returns.h"
 #include "storage_fixtures.h"
+#include "stored_returns.h"
 
 namespace {
 
@@ -62,8 +63,8 @@ std::vector<Stored> stored_windows(storage::Database& db, const std::string& mod
   const auto m = storage::find_model(db, model);
   std::vector<Stored> out;
   for (const auto& s : storage::list_windows(db, m->id))
-    out.push_back({*storage::read_window(db, m->id, s.as_of, false),
-                   *storage::read_window(db, m->id, s.as_of, false, storage::WindowForm::as_fitted)});
+    out.push_back({*pipeline::read_served_window(db, m->id, s.as_of, false),
+                   *storage::read_window(db, m->id, s.as_of, false)});
   return out;
 }
 
@@ -94,7 +95,7 @@ TEST(AlignmentRefresh, EveryWindowIsAlignedOntoThePreviousAndRiskIsUnchanged) {
   storage::Database db(dir.database());
   load(db, dir.file("r.csv"));
   storage::set_model(db, "m", config());
-  const storage::RefreshSummary summary = storage::refresh_model(db, "m");
+  const pipeline::RefreshSummary summary = pipeline::refresh_model(db, "m");
   const auto windows = stored_windows(db, "m");
   ASSERT_EQ(windows.size(), 21u);  // as-of indices 99, 104, ..., 199
   EXPECT_EQ(summary.aligned, windows.size());
@@ -179,14 +180,14 @@ TEST(AlignmentRefresh, IncrementalRunsEqualOneFullRun) {
   storage::Database full(dir.file("full.db"));
   load(nightly, dir.file("first.csv"));
   storage::set_model(nightly, "m", config());
-  storage::refresh_model(nightly, "m");
+  pipeline::refresh_model(nightly, "m");
   load(nightly, dir.file("all.csv"));
-  const storage::RefreshSummary second = storage::refresh_model(nightly, "m");
+  const pipeline::RefreshSummary second = pipeline::refresh_model(nightly, "m");
   EXPECT_EQ(second.fitted, 10u);   // as-of indices 154 ... 199
   EXPECT_EQ(second.aligned, 10u);  // only the new windows: the chain before them stands
   load(full, dir.file("all.csv"));
   storage::set_model(full, "m", config());
-  storage::refresh_model(full, "m");
+  pipeline::refresh_model(full, "m");
   // The same arithmetic on the same numbers, read back from the database or kept in memory.
   expect_same_served(nightly, full, 1e-12);
 }
@@ -201,15 +202,15 @@ TEST(AlignmentRefresh, RefittingAMiddleWindowRealignsEveryLaterOne) {
   storage::Database a(dir.file("a.db"));
   load(a, dir.file("original.csv"));
   storage::set_model(a, "m", config());
-  storage::refresh_model(a, "m");
+  pipeline::refresh_model(a, "m");
   load(a, dir.file("corrected.csv"));
-  const storage::RefreshSummary again = storage::refresh_model(a, "m");
+  const pipeline::RefreshSummary again = pipeline::refresh_model(a, "m");
   EXPECT_GT(again.refitted_stale, 0u);
   EXPECT_EQ(again.aligned, again.refitted_stale);  // the stale windows run to the last one
   storage::Database b(dir.file("b.db"));
   load(b, dir.file("corrected.csv"));
   storage::set_model(b, "m", config());
-  storage::refresh_model(b, "m");
+  pipeline::refresh_model(b, "m");
   expect_same_served(a, b, 1e-12);
 }
 
@@ -219,12 +220,12 @@ TEST(AlignmentRefresh, WindowsStoredBeforeAlignmentExistedAreAlignedByTheNextRef
   storage::Database db(dir.database());
   load(db, dir.file("r.csv"));
   storage::set_model(db, "m", config());
-  storage::refresh_model(db, "m");
+  pipeline::refresh_model(db, "m");
   const auto before = stored_windows(db, "m");
   // As a database migrated from schema 4 looks: windows, no alignment, no drift.
   db.sql().exec("DELETE FROM window_alignments; DELETE FROM window_drift; DELETE FROM drift_alerts;");
   EXPECT_FALSE(stored_windows(db, "m")[3].served.alignment);
-  const storage::RefreshSummary again = storage::refresh_model(db, "m");
+  const pipeline::RefreshSummary again = pipeline::refresh_model(db, "m");
   EXPECT_EQ(again.fitted, 0u);
   EXPECT_EQ(again.aligned, before.size());
   const auto after = stored_windows(db, "m");
@@ -240,7 +241,7 @@ TEST(AlignmentRefresh, TooFewSharedAssetsLeavesAWindowAsFittedWithAStatus) {
   storage::ModelConfig c = config();
   c.min_shared_assets = 1000;
   storage::set_model(db, "m", c);
-  const storage::RefreshSummary summary = storage::refresh_model(db, "m");
+  const pipeline::RefreshSummary summary = pipeline::refresh_model(db, "m");
   EXPECT_EQ(summary.alerts, 0u);
   const auto windows = stored_windows(db, "m");
   for (std::size_t i = 1; i < windows.size(); ++i) {
@@ -265,7 +266,7 @@ TEST(AlignmentRefresh, PinnedAndSmoothedReferences) {
   pinned.align_to = storage::AlignTo::pinned;
   pinned.pinned_window = p.dates[149];  // a middle window: earlier windows align to it too
   storage::set_model(db, "m", pinned);
-  storage::refresh_model(db, "m");
+  pipeline::refresh_model(db, "m");
   for (const auto& w : stored_windows(db, "m")) {
     SCOPED_TRACE(w.served.as_of);
     if (w.served.as_of == p.dates[149]) {
@@ -286,7 +287,7 @@ TEST(AlignmentRefresh, PinnedAndSmoothedReferences) {
   smoothed.align_to = storage::AlignTo::smoothed;
   smoothed.smoothing_half_life = 3;
   storage::set_model(db, "s", smoothed);
-  storage::refresh_model(db, "s");
+  pipeline::refresh_model(db, "s");
   const auto windows = stored_windows(db, "s");
   EXPECT_EQ(windows.front().served.alignment->status, "no reference");
   for (std::size_t i = 1; i < windows.size(); ++i) {
@@ -307,7 +308,7 @@ TEST(AlignmentRefresh, RotatedModelsStoreTheirRotationAndKeepTheirRisk) {
     c.rotation = method;
     const std::string name = engine::to_string(method);
     storage::set_model(db, name, c);
-    storage::refresh_model(db, name);
+    pipeline::refresh_model(db, name);
     for (const auto& w : stored_windows(db, name)) {
       SCOPED_TRACE(name + " " + w.served.as_of);
       ASSERT_EQ(w.fitted.rotation.rows(), kK);

@@ -10,11 +10,11 @@
 #include <map>
 #include <set>
 
+#include "factorwatch/pipeline/refresh.h"
 #include "factorwatch/storage/content_hash.h"
 #include "factorwatch/storage/drift.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
 #include "factorwatch/storage/returns_csv.h"
 #include "factorwatch/storage/windows.h"
 #include "generator.h"
@@ -61,7 +61,7 @@ DemoRun refresh_demo(storage::AlignTo align_to) {
   c.step = 5;
   c.align_to = align_to;
   storage::set_model(db, "demo", c);
-  storage::refresh_model(db, "demo");
+  pipeline::refresh_model(db, "demo");
   const auto model = storage::find_model(db, "demo");
   return {storage::list_windows(db, model->id), storage::read_alerts(db, model->id, "", ""),
           storage::read_drift(db, model->id, "", "", "pinned")};

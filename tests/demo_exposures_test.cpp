@@ -5,9 +5,10 @@
 
 #include <unordered_map>
 
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
 #include "factorwatch/storage/windows.h"
 #include "generator.h"
 #include "linear_algebra_checks.h"
@@ -49,20 +50,20 @@ TEST(DemoExposures, StoredWindowsRecoverThePlantedLoadingsOnEachSideOfTheChange)
   config.step = 97;                // grid as-of indices 503, 600, ..., 1473
   config.first_as_of = u.dates[600];
   storage::set_model(db, "demo", config);
-  const auto summary = storage::refresh_model(db, "demo");
+  const auto summary = pipeline::refresh_model(db, "demo");
   EXPECT_EQ(summary.fitted, 10u);
   EXPECT_EQ(summary.unusable, 0u);
   const long id = storage::find_model(db, "demo")->id;
 
   ASSERT_LT(600, u.change_index);
-  const auto before = storage::read_window(db, id, u.dates[600], false);
+  const auto before = pipeline::read_served_window(db, id, u.dates[600], false);
   ASSERT_TRUE(before);
   const double before_sine = factorwatch::testing::largest_subspace_sine(
       before->fit.loadings, planted_rows(u, u.loadings_before, before->fit.assets));
   EXPECT_LT(before_sine, 0.46);
 
   ASSERT_GE(1473 - 503, u.change_index);  // the window starts after the change
-  const auto after = storage::read_window(db, id, u.dates[1473], false);
+  const auto after = pipeline::read_served_window(db, id, u.dates[1473], false);
   ASSERT_TRUE(after);
   EXPECT_GT(after->fit.assets.size(), 500u);
   const double after_sine =

@@ -1,4 +1,4 @@
-// Factor returns and residual returns from stored windows (storage/factor_returns.h): the
+// Factor returns and residual returns from stored windows (pipeline/factor_returns.h): the
 // stored path equals the engine (engine/factor_scores.h) applied to the returns as written
 // to the file, under each window's served (rotated and aligned) factors; the series across
 // windows repeats each window's own score of its as-of date; failures are values.
@@ -13,9 +13,10 @@
 #include <memory>
 
 #include "factorwatch/engine/factor_scores.h"
-#include "factorwatch/storage/factor_returns.h"
+#include "factorwatch/pipeline/factor_returns.h"
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
 #include "factorwatch/storage/windows.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
@@ -58,7 +59,7 @@ struct Store {
     c.step = kStep;
     c.rotation = engine::RotationMethod::promax;
     storage::set_model(*db, "m", c);
-    storage::refresh_model(*db, "m");
+    pipeline::refresh_model(*db, "m");
     version = storage::find_model(*db, "m")->id;
   }
 
@@ -87,11 +88,11 @@ TEST(FactorReturnsStore, WindowScoresEqualTheEngineOnTheFileUnderServedFactors) 
   double worst = 0;
   for (const auto& summary : windows) {
     ASSERT_TRUE(summary.usable) << summary.as_of;
-    const auto window = storage::read_window(*s.db, s.version, summary.as_of, false);  // served
+    const auto window = pipeline::read_served_window(*s.db, s.version, summary.as_of, false);  // served
     ASSERT_TRUE(window);
     const engine::ReturnsPanel file = s.slice(window->first_date, window->as_of);
     for (auto method : {engine::ScoreMethod::bartlett, engine::ScoreMethod::regression}) {
-      const storage::WindowScores stored = storage::window_scores(*s.db, s.version, summary.as_of, method);
+      const pipeline::WindowScores stored = pipeline::window_scores(*s.db, s.version, summary.as_of, method);
       ASSERT_TRUE(stored.ok()) << stored.failure;
       EXPECT_EQ(stored.as_of, window->as_of);
       EXPECT_EQ(stored.first_date, window->first_date);
@@ -104,14 +105,14 @@ TEST(FactorReturnsStore, WindowScoresEqualTheEngineOnTheFileUnderServedFactors) 
           << summary.as_of << " " << engine::to_string(method);
       worst = std::max(worst, (stored.scores.scores - direct.scores).cwiseAbs().maxCoeff());
       // The served basis matters: the fitted (unrotated) factors give other scores.
-      const auto fitted = storage::read_window(*s.db, s.version, summary.as_of, false, storage::WindowForm::as_fitted);
+      const auto fitted = storage::read_window(*s.db, s.version, summary.as_of, false);
       const engine::FactorScores unrotated = engine::factor_scores(file, fitted->fit, method);
       EXPECT_GT((unrotated.scores - direct.scores).cwiseAbs().maxCoeff(), 1e-3);
     }
   }
   std::printf("[ measured ] max |stored - engine on the file| = %.2e\n", worst);
   // The window with the gaps on date 130: 4 fewer assets used that date.
-  const storage::WindowScores last = storage::window_scores(*s.db, s.version, "", engine::ScoreMethod::bartlett);
+  const pipeline::WindowScores last = pipeline::window_scores(*s.db, s.version, "", engine::ScoreMethod::bartlett);
   ASSERT_TRUE(last.ok());
   EXPECT_EQ(last.as_of, s.panel.dates[159]);
   const auto at130 =
@@ -124,19 +125,19 @@ TEST(FactorReturnsStore, SeriesHasOneRowPerWindowWithThatWindowsScoreOfItsAsOfDa
   const auto windows = storage::list_windows(*s.db, s.version);
   double worst = 0;
   for (auto method : {engine::ScoreMethod::bartlett, engine::ScoreMethod::regression}) {
-    const storage::FactorReturnSeries series = storage::factor_return_series(*s.db, s.version, "", "", method);
+    const pipeline::FactorReturnSeries series = pipeline::factor_return_series(*s.db, s.version, "", "", method);
     EXPECT_EQ(series.method, method);
     EXPECT_TRUE(series.skipped.empty());
     ASSERT_EQ(series.rows.size(), windows.size());
     for (std::size_t w = 0; w < windows.size(); ++w) {
-      const storage::FactorReturnRow& row = series.rows[w];
+      const pipeline::FactorReturnRow& row = series.rows[w];
       EXPECT_EQ(row.as_of, windows[w].as_of);
       EXPECT_EQ(row.window_first_date, windows[w].first_date);
       EXPECT_EQ(row.alignment, windows[w].alignment);
       // The served factors are aligned ones (the first window is the chain's start).
       EXPECT_EQ(row.alignment, w == 0 ? "no reference" : "aligned");
       EXPECT_TRUE(row.unscored_reason.empty());
-      const storage::WindowScores own = storage::window_scores(*s.db, s.version, row.as_of, method);
+      const pipeline::WindowScores own = pipeline::window_scores(*s.db, s.version, row.as_of, method);
       ASSERT_TRUE(own.ok());
       ASSERT_EQ(own.scores.dates.back(), row.as_of);
       EXPECT_EQ(row.assets_used, own.scores.assets_used.back());
@@ -147,18 +148,18 @@ TEST(FactorReturnsStore, SeriesHasOneRowPerWindowWithThatWindowsScoreOfItsAsOfDa
     }
     // The last as-of date has a gap in asset 8.
     EXPECT_EQ(series.rows.back().assets_used,
-              storage::window_scores(*s.db, s.version, "", method).scores.modelled_assets - 1);
+              pipeline::window_scores(*s.db, s.version, "", method).scores.modelled_assets - 1);
   }
   std::printf("[ measured ] max |series row - window's own last row| = %.2e\n", worst);
   // A date range keeps the windows inside it.
-  const auto some = storage::factor_return_series(*s.db, s.version, windows[2].as_of, windows[4].as_of,
+  const auto some = pipeline::factor_return_series(*s.db, s.version, windows[2].as_of, windows[4].as_of,
                                                   engine::ScoreMethod::bartlett);
   ASSERT_EQ(some.rows.size(), 3u);
   EXPECT_EQ(some.rows.front().as_of, windows[2].as_of);
   EXPECT_EQ(some.rows.back().as_of, windows[4].as_of);
   EXPECT_TRUE(
-      storage::factor_return_series(*s.db, s.version, "2030-01-01", "", engine::ScoreMethod::bartlett).rows.empty());
-  EXPECT_THROW(storage::factor_return_series(*s.db, s.version, "2021-13-01", "", engine::ScoreMethod::bartlett),
+      pipeline::factor_return_series(*s.db, s.version, "2030-01-01", "", engine::ScoreMethod::bartlett).rows.empty());
+  EXPECT_THROW(pipeline::factor_return_series(*s.db, s.version, "2021-13-01", "", engine::ScoreMethod::bartlett),
                std::invalid_argument);
 }
 
@@ -168,14 +169,14 @@ TEST(FactorReturnsStore, SeriesHasOneRowPerWindowWithThatWindowsScoreOfItsAsOfDa
 TEST(FactorReturnsStore, ResidualsOfAnAssetAreReturnMinusMeanMinusLoadingsTimesScores) {
   Store s;
   const std::string as_of = s.panel.dates[129];  // the window of dates 30..129
-  const auto window = storage::read_window(*s.db, s.version, as_of, false);
+  const auto window = pipeline::read_served_window(*s.db, s.version, as_of, false);
   ASSERT_TRUE(window);
   const engine::ReturnsPanel file = s.slice(window->first_date, window->as_of);
   double worst = 0;
   for (auto method : {engine::ScoreMethod::bartlett, engine::ScoreMethod::regression}) {
     const engine::FactorScores scores = engine::factor_scores(file, window->fit, method);
     for (const std::string asset : {"P1007", "P1012", "P1000"}) {
-      const storage::AssetResiduals r = storage::asset_residuals(*s.db, s.version, as_of, asset, method);
+      const pipeline::AssetResiduals r = pipeline::asset_residuals(*s.db, s.version, as_of, asset, method);
       ASSERT_TRUE(r.ok()) << r.failure;
       EXPECT_EQ(r.as_of, window->as_of);
       EXPECT_EQ(r.method, method);
@@ -208,25 +209,25 @@ TEST(FactorReturnsStore, FailuresAreValues) {
   Store s;
   const auto windows = storage::list_windows(*s.db, s.version);
   // Asset 5 listed on index 70: 30 of the first window's 100 dates, below the 0.8 coverage.
-  const storage::AssetResiduals excluded =
-      storage::asset_residuals(*s.db, s.version, windows.front().as_of, "P1005", engine::ScoreMethod::bartlett);
+  const pipeline::AssetResiduals excluded =
+      pipeline::asset_residuals(*s.db, s.version, windows.front().as_of, "P1005", engine::ScoreMethod::bartlett);
   EXPECT_FALSE(excluded.ok());
   EXPECT_NE(excluded.failure.find("coverage"), std::string::npos) << excluded.failure;
-  const storage::AssetResiduals unknown =
-      storage::asset_residuals(*s.db, s.version, windows.front().as_of, "NOPE", engine::ScoreMethod::bartlett);
+  const pipeline::AssetResiduals unknown =
+      pipeline::asset_residuals(*s.db, s.version, windows.front().as_of, "NOPE", engine::ScoreMethod::bartlett);
   EXPECT_FALSE(unknown.ok());
   EXPECT_NE(unknown.failure.find("no returns in the window"), std::string::npos) << unknown.failure;
   EXPECT_TRUE(unknown.residuals.size() == 0);
   // Before the first window there is none.
-  const storage::WindowScores early =
-      storage::window_scores(*s.db, s.version, s.panel.dates[10], engine::ScoreMethod::bartlett);
+  const pipeline::WindowScores early =
+      pipeline::window_scores(*s.db, s.version, s.panel.dates[10], engine::ScoreMethod::bartlett);
   EXPECT_FALSE(early.ok());
   EXPECT_NE(early.failure.find("no window"), std::string::npos) << early.failure;
-  const storage::AssetResiduals none =
-      storage::asset_residuals(*s.db, s.version, s.panel.dates[10], "P1000", engine::ScoreMethod::bartlett);
+  const pipeline::AssetResiduals none =
+      pipeline::asset_residuals(*s.db, s.version, s.panel.dates[10], "P1000", engine::ScoreMethod::bartlett);
   EXPECT_FALSE(none.ok());
   // A malformed date is misuse.
-  EXPECT_THROW(storage::window_scores(*s.db, s.version, "2021-02-30", engine::ScoreMethod::bartlett),
+  EXPECT_THROW(pipeline::window_scores(*s.db, s.version, "2021-02-30", engine::ScoreMethod::bartlett),
                std::invalid_argument);
 }
 

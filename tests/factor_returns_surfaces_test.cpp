@@ -4,7 +4,7 @@
 // the same CSV bytes and the same JSON.
 //
 // What the numbers are checked against:
-// - storage::window_scores and storage::factor_return_series on the same database, opened
+// - pipeline::window_scores and pipeline::factor_return_series on the same database, opened
 //   here (the CLI must show what storage computes, to the last bit);
 // - Bartlett's (1937) formula f = (L' Psi^-1 L)^-1 L' Psi^-1 (x - mu), formed here with
 //   dense matrices from the served loadings and specific variances (`exposures --format
@@ -29,8 +29,9 @@
 #include "csv_text.h"
 #include "daemon_fixture.h"
 #include "factorwatch/engine/caution.h"
+#include "factorwatch/pipeline/factor_returns.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/database.h"
-#include "factorwatch/storage/factor_returns.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
 #include "served_model.h"
@@ -129,7 +130,7 @@ TEST_F(FactorReturnsSurfaces, OneWindowJsonEqualsStorageExactly) {
     for (const auto method : {engine::ScoreMethod::bartlett, engine::ScoreMethod::regression}) {
       const json cli =
           json_of("factor-returns m --window " + as_of + " --method " + engine::to_string(method) + " --format json");
-      const storage::WindowScores stored = storage::window_scores(db, version_id(db), as_of, method, false);
+      const pipeline::WindowScores stored = pipeline::window_scores(db, version_id(db), as_of, method, false);
       ASSERT_TRUE(stored.ok()) << stored.failure;
       EXPECT_EQ(cli["caution"], engine::kCaution);
       EXPECT_EQ(cli["as_of"], as_of);
@@ -177,7 +178,7 @@ TEST_F(FactorReturnsSurfaces, BartlettScoresFollowTheFormulaOnTheServedModel) {
   storage::Database db(dir_->database());
   const std::string as_of = windows_.back();
   const ServedModel m = served_model(json_of("exposures m --as-of " + as_of + " --format json"));
-  const auto window = storage::read_window(db, version_id(db), as_of, false);  // served
+  const auto window = pipeline::read_served_window(db, version_id(db), as_of, false);  // served
   ASSERT_TRUE(window);
   const json cli = json_of("factor-returns m --window " + as_of + " --format json");
   const json regression = json_of("factor-returns m --window " + as_of + " --method regression --format json");
@@ -226,7 +227,7 @@ TEST_F(FactorReturnsSurfaces, BartlettScoresFollowTheFormulaOnTheServedModel) {
 }
 
 // The series: one row per usable window, each equal to that window's own scores of its
-// last date, and bit for bit what storage::factor_return_series computes.
+// last date, and bit for bit what pipeline::factor_return_series computes.
 // Tolerance 1e-12 against the window's own last row: the series reads one date of every
 // stored asset and the window its fitted assets, so the sums run in another order.
 TEST_F(FactorReturnsSurfaces, SeriesHasOneRowPerWindowEqualToItsLastDate) {
@@ -239,7 +240,7 @@ TEST_F(FactorReturnsSurfaces, SeriesHasOneRowPerWindowEqualToItsLastDate) {
     EXPECT_EQ(series["method"], name);
     EXPECT_EQ(series["factors"], kFactors);
     EXPECT_TRUE(series["skipped"].empty());
-    const storage::FactorReturnSeries stored = storage::factor_return_series(db, version_id(db), "", "", method);
+    const pipeline::FactorReturnSeries stored = pipeline::factor_return_series(db, version_id(db), "", "", method);
     ASSERT_EQ(series["rows"].size(), windows_.size());
     ASSERT_EQ(stored.rows.size(), windows_.size());
     for (std::size_t w = 0; w < windows_.size(); ++w) {
@@ -281,7 +282,7 @@ TEST_F(FactorReturnsSurfaces, ResidualsAreReturnMinusMeanMinusLoadingsTimesFacto
   double worst = 0;
   for (const std::string& as_of : {windows_[4], windows_.back()}) {
     const ServedModel m = served_model(json_of("exposures m --as-of " + as_of + " --format json"));
-    const auto window = storage::read_window(db, version_id(db), as_of, false);
+    const auto window = pipeline::read_served_window(db, version_id(db), as_of, false);
     ASSERT_TRUE(window);
     for (const auto method : {engine::ScoreMethod::bartlett, engine::ScoreMethod::regression}) {
       const std::string name = engine::to_string(method);

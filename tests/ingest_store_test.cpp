@@ -8,13 +8,14 @@
 #include <cmath>
 #include <cstring>
 
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/content_hash.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
 #include "factorwatch/storage/returns_csv.h"
+#include "factorwatch/storage/returns_span.h"
 #include "factorwatch/storage/windows.h"
-#include "returns_span.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
 
@@ -35,8 +36,8 @@ storage::LoadSummary load(storage::Database& db, const std::string& path) {
 }
 
 engine::ReturnsPanel stored_panel(storage::Database& db) {
-  const auto dates = storage::detail::stored_dates(db.sql());
-  storage::detail::ReturnsSpan span(db.sql(), db.assets(), dates.front(), dates.back(), {});
+  const auto dates = storage::stored_dates(db);
+  storage::ReturnsSpan span(db, dates.front(), dates.back(), {});
   return span.window(0, dates.size());
 }
 
@@ -131,7 +132,7 @@ TEST(IngestStore, CorrectionIsRecordedAndMarksCoveringWindowsStale) {
   config.window = 20;
   config.step = 5;
   storage::set_model(db, "m", config);
-  const auto refreshed = storage::refresh_model(db, "m");
+  const auto refreshed = pipeline::refresh_model(db, "m");
   ASSERT_EQ(refreshed.fitted, 9u);  // as-of indices 19, 24, ..., 59
 
   // Correct the return of asset a3 on date index 30: windows ending at 34..49 hold it.
@@ -150,12 +151,12 @@ TEST(IngestStore, CorrectionIsRecordedAndMarksCoveringWindowsStale) {
   int stale = 0;
   for (const auto& w : storage::list_windows(db, model->id)) stale += w.stale;
   EXPECT_EQ(stale, 4);
-  const auto again = storage::refresh_model(db, "m");
+  const auto again = pipeline::refresh_model(db, "m");
   EXPECT_EQ(again.fitted, 4u);
   EXPECT_EQ(again.refitted_stale, 4u);
   for (const auto& w : storage::list_windows(db, model->id)) EXPECT_FALSE(w.stale) << w.as_of;
   // The refitted window saw the corrected value: its input fingerprint changed.
-  const auto window = storage::read_window(db, model->id, p.dates[34], false);
+  const auto window = pipeline::read_served_window(db, model->id, p.dates[34], false);
   ASSERT_TRUE(window);
   EXPECT_EQ(window->fit.assets.size(), 10u);
 }

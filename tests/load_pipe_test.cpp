@@ -22,7 +22,7 @@
 #include "factorwatch/storage/content_hash.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/returns_csv.h"
-#include "returns_span.h"
+#include "factorwatch/storage/returns_span.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
 
@@ -55,8 +55,8 @@ fwt::CommandResult shell(const std::string& data_dir, const std::string& line) {
 const std::string kCommand = FACTORWATCH_COMMAND;
 
 engine::ReturnsPanel stored_panel(storage::Database& db) {
-  const auto dates = storage::detail::stored_dates(db.sql());
-  storage::detail::ReturnsSpan span(db.sql(), db.assets(), dates.front(), dates.back(), {});
+  const auto dates = storage::stored_dates(db);
+  storage::ReturnsSpan span(db, dates.front(), dates.back(), {});
   return span.window(0, dates.size());
 }
 

@@ -2,20 +2,21 @@
 // after the load must be marked current only for the returns it was fitted on. The
 // refresh reads the returns once per span, so the load is made to commit at exactly the
 // worst moment, between that read and the writes, through the refresh's test seam
-// (storage/src/refresh_hooks.h) rather than by racing two processes.
+// (pipeline/src/refresh_hooks.h) rather than by racing two processes.
 #include <gtest/gtest.h>
 
 #include <SQLiteCpp/SQLiteCpp.h>
 
 #include <cmath>
 
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/served_windows.h"
+#include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
+#include "factorwatch/storage/returns_span.h"
 #include "factorwatch/storage/windows.h"
-#include "date_key.h"
 #include "refresh_hooks.h"
-#include "returns_span.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
 
@@ -63,7 +64,7 @@ engine::ReturnsPanel correction(const engine::ReturnsPanel& p, int date, int ass
 
 // Clears the seam even when an assertion fails.
 struct HookGuard {
-  ~HookGuard() { storage::detail::refresh_hooks() = {}; }
+  ~HookGuard() { pipeline::detail::refresh_hooks() = {}; }
 };
 
 // The reproduction: the load commits after the refresh read the returns and before it
@@ -79,7 +80,7 @@ TEST(RefreshConsistency, ALoadCommittingDuringARefreshLeavesItsWindowsStale) {
 
   HookGuard guard;
   int loads = 0;
-  storage::detail::refresh_hooks().after_read = [&] {
+  pipeline::detail::refresh_hooks().after_read = [&] {
     if (loads++ > 0) return;
     storage::Database other(dir.database());  // another process's connection
     // Date 80 lies inside every window (the first holds dates 0..99, the last 60..159).
@@ -87,8 +88,8 @@ TEST(RefreshConsistency, ALoadCommittingDuringARefreshLeavesItsWindowsStale) {
     EXPECT_EQ(s.values_corrected, 1u);
     EXPECT_EQ(s.windows_marked_stale, 0u);  // none stored yet: the load cannot mark them
   };
-  const storage::RefreshSummary first = storage::refresh_model(db, "m");
-  storage::detail::refresh_hooks().after_read = nullptr;
+  const pipeline::RefreshSummary first = pipeline::refresh_model(db, "m");
+  pipeline::detail::refresh_hooks().after_read = nullptr;
   EXPECT_EQ(loads, 1);
   EXPECT_EQ(first.fitted, 7u);
   EXPECT_EQ(first.changed_during, 7u);
@@ -96,12 +97,12 @@ TEST(RefreshConsistency, ALoadCommittingDuringARefreshLeavesItsWindowsStale) {
   EXPECT_EQ(storage::count_windows(db, model).stale, 7u);
 
   // The next refresh refits them on the corrected returns, and then all is current.
-  const storage::RefreshSummary second = storage::refresh_model(db, "m");
+  const pipeline::RefreshSummary second = pipeline::refresh_model(db, "m");
   EXPECT_EQ(second.fitted, 7u);
   EXPECT_EQ(second.refitted_stale, 7u);
   EXPECT_EQ(second.changed_during, 0u);
   EXPECT_EQ(storage::count_windows(db, model).stale, 0u);
-  EXPECT_EQ(storage::refresh_model(db, "m").note, "every window is current");
+  EXPECT_EQ(pipeline::refresh_model(db, "m").note, "every window is current");
 
   // And they equal a refresh of a database that had the correction from the start.
   TempDir clean_dir;
@@ -109,12 +110,12 @@ TEST(RefreshConsistency, ALoadCommittingDuringARefreshLeavesItsWindowsStale) {
   store(clean, p, "first");
   store(clean, correction(p, 80, 3), "fix");
   storage::set_model(clean, "m", config());
-  storage::refresh_model(clean, "m");
+  pipeline::refresh_model(clean, "m");
   const long clean_model = storage::find_model(clean, "m")->id;
   for (int end = kWindow - 1; end < kT; end += kStep) {
     const std::string as_of = p.dates[static_cast<std::size_t>(end)];
-    const auto a = storage::read_window(db, model, as_of, false, storage::WindowForm::as_fitted);
-    const auto b = storage::read_window(clean, clean_model, as_of, false, storage::WindowForm::as_fitted);
+    const auto a = storage::read_window(db, model, as_of, false);
+    const auto b = storage::read_window(clean, clean_model, as_of, false);
     ASSERT_TRUE(a && b) << as_of;
     EXPECT_EQ(a->input_hash, b->input_hash) << as_of;
   }
@@ -130,12 +131,12 @@ TEST(RefreshConsistency, ALoadOutsideAWindowsDatesLeavesItCurrent) {
   storage::set_model(db, "m", config());
   HookGuard guard;
   int loads = 0;
-  storage::detail::refresh_hooks().after_read = [&] {
+  pipeline::detail::refresh_hooks().after_read = [&] {
     if (loads++ > 0) return;
     storage::Database other(dir.database());
     store(other, correction(p, 155, 3), "fix");  // only in the windows ending 159 (dates 60..159)
   };
-  const storage::RefreshSummary s = storage::refresh_model(db, "m");
+  const pipeline::RefreshSummary s = pipeline::refresh_model(db, "m");
   EXPECT_EQ(s.fitted, 7u);
   EXPECT_EQ(s.changed_during, 1u);  // the window as of date 159 only
   const auto model = storage::find_model(db, "m");
@@ -163,12 +164,12 @@ TEST(RefreshConsistency, ALateDateArrivingDuringARefreshIsPlannedAgain) {
   storage::set_model(db, "m", config());
   HookGuard guard;
   int loads = 0;
-  storage::detail::refresh_hooks().before_read = [&] {  // planned without the date, not read yet
+  pipeline::detail::refresh_hooks().before_read = [&] {  // planned without the date, not read yet
     if (loads++ > 0) return;
     storage::Database other(dir.database());
     store(other, late, "late");
   };
-  const storage::RefreshSummary s = storage::refresh_model(db, "m");
+  const pipeline::RefreshSummary s = pipeline::refresh_model(db, "m");
   EXPECT_EQ(loads, 2);  // planned, read, planned again, read again
   EXPECT_EQ(s.fitted, 7u);
   EXPECT_EQ(s.changed_during, 0u);
@@ -177,7 +178,7 @@ TEST(RefreshConsistency, ALateDateArrivingDuringARefreshIsPlannedAgain) {
   storage::Database clean(clean_dir.database());
   store(clean, p, "all");
   storage::set_model(clean, "m", config());
-  storage::refresh_model(clean, "m");
+  pipeline::refresh_model(clean, "m");
   const auto mine = storage::list_windows(db, storage::find_model(db, "m")->id);
   const auto theirs = storage::list_windows(clean, storage::find_model(clean, "m")->id);
   ASSERT_EQ(mine.size(), theirs.size());
@@ -185,8 +186,8 @@ TEST(RefreshConsistency, ALateDateArrivingDuringARefreshIsPlannedAgain) {
     EXPECT_EQ(mine[i].as_of, theirs[i].as_of);
     EXPECT_EQ(mine[i].first_date, theirs[i].first_date);
     EXPECT_FALSE(mine[i].stale);
-    const auto a = storage::read_window(db, storage::find_model(db, "m")->id, mine[i].as_of);
-    const auto b = storage::read_window(clean, storage::find_model(clean, "m")->id, theirs[i].as_of);
+    const auto a = pipeline::read_served_window(db, storage::find_model(db, "m")->id, mine[i].as_of);
+    const auto b = pipeline::read_served_window(clean, storage::find_model(clean, "m")->id, theirs[i].as_of);
     EXPECT_EQ(a->input_hash, b->input_hash) << mine[i].as_of;
   }
 }
@@ -199,16 +200,15 @@ TEST(RefreshConsistency, SaveWindowComparesTheRowsReadWithTheRowsStored) {
   storage::Database db(dir.database());
   store(db, p, "first");
   storage::set_model(db, "m", config());
-  storage::refresh_model(db, "m");
+  pipeline::refresh_model(db, "m");
   const long model = storage::find_model(db, "m")->id;
-  storage::WindowRecord w = *storage::read_window(db, model, p.dates[99], false, storage::WindowForm::as_fitted);
-  namespace detail = storage::detail;
-  const std::uint64_t read = detail::stored_rows_digest(db.sql(), detail::date_key(w.first_date), detail::date_key(w.as_of));
+  storage::WindowRecord w = *storage::read_window(db, model, p.dates[99], false);
+  const std::uint64_t read = storage::stored_rows_digest(db, storage::date_key(w.first_date), storage::date_key(w.as_of));
   EXPECT_TRUE(storage::save_window(db, model, w, read));
-  EXPECT_FALSE(storage::read_window(db, model, w.as_of)->stale);
+  EXPECT_FALSE(pipeline::read_served_window(db, model, w.as_of)->stale);
   store(db, correction(p, 10, 0), "fix");
   EXPECT_FALSE(storage::save_window(db, model, w, read));
-  EXPECT_TRUE(storage::read_window(db, model, w.as_of)->stale);
+  EXPECT_TRUE(pipeline::read_served_window(db, model, w.as_of)->stale);
 }
 
 }  // namespace

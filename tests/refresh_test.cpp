@@ -8,15 +8,16 @@
 #include <cmath>
 #include <cstring>
 
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/content_hash.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
 #include "factorwatch/storage/returns_csv.h"
 #include "factorwatch/storage/windows.h"
 #include "simulated_model.h"
-#include "stored_returns.h"
 #include "storage_fixtures.h"
+#include "stored_returns.h"
 
 namespace {
 
@@ -87,22 +88,22 @@ TEST(Refresh, GridIsAnchoredOnTheFirstDateAndASecondRunDoesNothing) {
   load(db, dir.file("r.csv"));
   storage::set_model(db, "m", ml_config(100, 7));
   const auto model = storage::find_model(db, "m");
-  const auto pending = storage::pending_windows(db, *model);
+  const auto pending = pipeline::pending_windows(db, *model);
   // As-of indices 99, 106, ..., 155: (160 - 100) / 7 + 1 = 9 windows.
   ASSERT_EQ(pending.size(), 9u);
   EXPECT_EQ(pending.front(), p.dates[99]);
   EXPECT_EQ(pending.back(), p.dates[155]);
-  const auto first = storage::refresh_model(db, "m");
+  const auto first = pipeline::refresh_model(db, "m");
   EXPECT_EQ(first.fitted, 9u);
   EXPECT_EQ(first.unusable, 0u);
-  const auto second = storage::refresh_model(db, "m");
+  const auto second = pipeline::refresh_model(db, "m");
   EXPECT_EQ(second.fitted, 0u);
   EXPECT_EQ(second.already_current, 9u);
   // first_as_of skips the grid points before it.
   storage::ModelConfig later = ml_config(100, 7);
   later.first_as_of = p.dates[140];
   storage::set_model(db, "late", later);
-  EXPECT_EQ(storage::pending_windows(db, *storage::find_model(db, "late")).size(), 3u);  // 141, 148, 155
+  EXPECT_EQ(pipeline::pending_windows(db, *storage::find_model(db, "late")).size(), 3u);  // 141, 148, 155
 }
 
 // The equality the issue asks for: each stored window equals engine::fit on the same
@@ -116,7 +117,7 @@ TEST(Refresh, WindowThroughTheDatabaseEqualsTheEngineOnTheFile) {
   load(db, dir.file("r.csv"));
   const storage::ModelConfig config = ml_config(120, 10);
   storage::set_model(db, "m", config);
-  storage::refresh_model(db, "m");
+  pipeline::refresh_model(db, "m");
   const auto model = storage::find_model(db, "m");
 
   const engine::ReturnsPanel file = storage::read_returns_csv(dir.file("r.csv"));
@@ -131,8 +132,7 @@ TEST(Refresh, WindowThroughTheDatabaseEqualsTheEngineOnTheFile) {
     if (previous) options.warm_start = engine::WarmStart{previous->assets, previous->loadings, previous->specific_variance};
     const engine::FactorFit direct = engine::fit(w, options);
     // As fitted: the served form is also rotated and aligned (tests/alignment_refresh_test.cpp).
-    const auto stored = storage::read_window(db, model->id, file.dates[static_cast<std::size_t>(end)], false,
-                                             storage::WindowForm::as_fitted);
+    const auto stored = storage::read_window(db, model->id, file.dates[static_cast<std::size_t>(end)], false);
     ASSERT_TRUE(stored) << file.dates[static_cast<std::size_t>(end)];
     const engine::FactorFit& s = stored->fit;
     EXPECT_EQ(s.assets, direct.assets);
@@ -163,13 +163,13 @@ TEST(Refresh, ResumedRefreshEqualsAnUninterruptedOne) {
   load(db_b, a.file("r.csv"));
   storage::set_model(db_a, "m", ml_config(100, 3));
   storage::set_model(db_b, "m", ml_config(100, 3));
-  storage::refresh_model(db_a, "m");
-  storage::refresh_model(db_b, "m");
+  pipeline::refresh_model(db_a, "m");
+  pipeline::refresh_model(db_b, "m");
   // Rows are written in as-of order; a window's alignment and drift refer to it.
   db_b.sql().exec("DELETE FROM window_alignments WHERE window_id > 6; DELETE FROM window_drift WHERE window_id > 6; "
                   "DELETE FROM drift_alerts WHERE window_id > 6; DELETE FROM windows WHERE rowid > 6");
   ASSERT_LT(window_rows(db_b).size(), window_rows(db_a).size());
-  const auto resumed = storage::refresh_model(db_b, "m");
+  const auto resumed = pipeline::refresh_model(db_b, "m");
   EXPECT_GT(resumed.fitted, 0u);
   EXPECT_EQ(window_rows(db_b), window_rows(db_a));
   EXPECT_EQ(alignment_rows(db_b), alignment_rows(db_a));
@@ -182,7 +182,7 @@ TEST(Refresh, ChangedConfigurationIsANewVersionAndOldWindowsStay) {
   load(db, dir.file("r.csv"));
   const auto v1 = storage::set_model(db, "m", ml_config(100, 20));
   EXPECT_TRUE(v1.created);
-  storage::refresh_model(db, "m");
+  pipeline::refresh_model(db, "m");
   const auto same = storage::set_model(db, "m", ml_config(100, 20));
   EXPECT_FALSE(same.new_version);
   EXPECT_EQ(same.model.version, 1);
@@ -192,12 +192,12 @@ TEST(Refresh, ChangedConfigurationIsANewVersionAndOldWindowsStay) {
   EXPECT_TRUE(v2.new_version);
   EXPECT_EQ(v2.model.version, 2);
   EXPECT_EQ(storage::list_windows(db, v1.model.id).size(), 4u);  // as-of 99, 119, 139, 159: kept, 3 factors
-  EXPECT_EQ(storage::read_window(db, v1.model.id, "")->fit.factors, 3);
+  EXPECT_EQ(pipeline::read_served_window(db, v1.model.id, "")->fit.factors, 3);
   EXPECT_EQ(storage::list_windows(db, v2.model.id).size(), 0u);
-  storage::refresh_model(db, "m");
-  EXPECT_EQ(storage::read_window(db, v2.model.id, "")->fit.factors, 2);
-  EXPECT_NE(storage::read_window(db, v2.model.id, "")->configuration_hash,
-            storage::read_window(db, v1.model.id, "")->configuration_hash);
+  pipeline::refresh_model(db, "m");
+  EXPECT_EQ(pipeline::read_served_window(db, v2.model.id, "")->fit.factors, 2);
+  EXPECT_NE(pipeline::read_served_window(db, v2.model.id, "")->configuration_hash,
+            pipeline::read_served_window(db, v1.model.id, "")->configuration_hash);
 }
 
 // The ML stopping rule's tolerance is a model option. Left at its default it does not enter
@@ -215,12 +215,12 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
   const storage::ModelConfig old_config = storage::ModelConfig::from_json(old_form);
   EXPECT_EQ(old_config.tolerance, engine::FitOptions{}.tolerance);
   EXPECT_EQ(old_config.hash(), v1.model.configuration_hash);
-  storage::refresh_model(db, "m");
+  pipeline::refresh_model(db, "m");
   for (const auto& w : storage::list_windows(db, v1.model.id)) {
     EXPECT_TRUE(std::isfinite(w.largest_scaled_gradient)) << w.as_of;
     EXPECT_LE(w.largest_scaled_gradient, 1e-8) << w.as_of;
   }
-  const auto first = storage::read_window(db, v1.model.id, "");
+  const auto first = pipeline::read_served_window(db, v1.model.id, "");
   EXPECT_EQ(first->fit.tolerance, 1e-8);
   EXPECT_EQ(first->fit.iterations, first->fit.em_passes + first->fit.newton_steps + first->fit.profile_steps);
 
@@ -228,14 +228,14 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
   tighter.tolerance = 1e-12;
   const auto v2 = storage::set_model(db, "m", tighter);
   EXPECT_TRUE(v2.new_version);
-  storage::refresh_model(db, "m");
+  pipeline::refresh_model(db, "m");
   const auto windows = storage::list_windows(db, v2.model.id);
   ASSERT_EQ(windows.size(), 4u);
   for (const auto& w : windows) {
     EXPECT_EQ(w.termination, "converged");
     EXPECT_LE(w.largest_scaled_gradient, 1e-12) << w.as_of;
   }
-  EXPECT_EQ(storage::read_window(db, v2.model.id, "")->fit.tolerance, 1e-12);
+  EXPECT_EQ(pipeline::read_served_window(db, v2.model.id, "")->fit.tolerance, 1e-12);
 
   std::string error;
   tighter.tolerance = 0.5;
@@ -251,10 +251,10 @@ TEST(Refresh, WindowFromBeforeTheGradientRuleReadsWithoutACriterion) {
   storage::Database db(dir.database());
   load(db, dir.file("r.csv"));
   const auto v1 = storage::set_model(db, "m", ml_config(100, 20));
-  storage::refresh_model(db, "m");
+  pipeline::refresh_model(db, "m");
   db.sql().exec("UPDATE windows SET statistics = json_remove(statistics, '$.largest_scaled_gradient', "
                 "'$.tolerance', '$.em_passes', '$.newton_steps')");
-  const auto w = storage::read_window(db, v1.model.id, "");
+  const auto w = pipeline::read_served_window(db, v1.model.id, "");
   ASSERT_TRUE(w);
   EXPECT_TRUE(std::isnan(w->fit.largest_scaled_gradient));
   EXPECT_TRUE(std::isnan(w->fit.tolerance));
@@ -279,7 +279,7 @@ TEST(Refresh, BackfillWithCarriedProductsEqualsColdFits) {
     config.method = method;
     const std::string name = engine::to_string(method);
     storage::set_model(db, name, config);
-    EXPECT_EQ(storage::refresh_model(db, name).fitted, 31u);
+    EXPECT_EQ(pipeline::refresh_model(db, name).fitted, 31u);
     const auto model = storage::find_model(db, name);
     int carried = 0;
     for (int end = 59; end < 90; end += 5) {
@@ -288,8 +288,7 @@ TEST(Refresh, BackfillWithCarriedProductsEqualsColdFits) {
       w.dates.assign(file.dates.begin() + end - 59, file.dates.begin() + end + 1);
       w.values = file.values.middleRows(end - 59, 60);
       const engine::FactorFit cold = engine::fit(w, config.fit_options());
-      const auto stored = storage::read_window(db, model->id, file.dates[static_cast<std::size_t>(end)], false,
-                                               storage::WindowForm::as_fitted);
+      const auto stored = storage::read_window(db, model->id, file.dates[static_cast<std::size_t>(end)], false);
       ASSERT_TRUE(stored && cold.converged) << name << " " << end;
       const engine::FactorFit& s = stored->fit;
       ASSERT_EQ(s.assets, cold.assets);
@@ -313,8 +312,8 @@ TEST(Refresh, UniverseListRestrictsTheAssets) {
   config.universe.assign(p.assets.begin() + 10, p.assets.begin() + 30);
   config.universe.push_back("ZQ-not-yet-listed");
   storage::set_model(db, "part", config);
-  storage::refresh_model(db, "part");
-  const auto w = storage::read_window(db, storage::find_model(db, "part")->id, "");
+  pipeline::refresh_model(db, "part");
+  const auto w = pipeline::read_served_window(db, storage::find_model(db, "part")->id, "");
   ASSERT_TRUE(w);
   EXPECT_EQ(w->fit.assets, std::vector<std::string>(p.assets.begin() + 10, p.assets.begin() + 30));
 }
@@ -325,10 +324,10 @@ TEST(Refresh, TooFewDatesIsANoteNotAnError) {
   storage::Database db(dir.database());
   load(db, dir.file("r.csv"));
   storage::set_model(db, "long", ml_config(500, 1));
-  const auto s = storage::refresh_model(db, "long");
+  const auto s = pipeline::refresh_model(db, "long");
   EXPECT_EQ(s.fitted, 0u);
   EXPECT_NE(s.note.find("fewer than the window"), std::string::npos) << s.note;
-  EXPECT_THROW(storage::refresh_model(db, "missing"), std::invalid_argument);
+  EXPECT_THROW(pipeline::refresh_model(db, "missing"), std::invalid_argument);
 }
 
 }  // namespace

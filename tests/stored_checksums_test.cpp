@@ -9,15 +9,16 @@
 #include <nlohmann/json.hpp>
 
 #include "blob_codec.h"
-#include "date_key.h"
-#include "migrations.h"
 #include "daemon_fixture.h"
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/damaged_data.h"
+#include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
 #include "factorwatch/storage/verify.h"
 #include "factorwatch/storage/windows.h"
+#include "migrations.h"
 #include "returns_rows.h"
 #include "simulated_model.h"
 #include "storage_fixtures.h"
@@ -123,7 +124,7 @@ class DamagedDatabase : public ::testing::Test {
   }
   fw::CommandResult run(const std::string& arguments) { return fw::run_factorwatch(dir_.path(), arguments); }
   std::string as_of(int index) const { return panel_.dates[static_cast<std::size_t>(index)]; }
-  std::string key(int index) const { return std::to_string(detail::date_key(as_of(index))); }
+  std::string key(int index) const { return std::to_string(storage::date_key(as_of(index))); }
 
   TempDir dir_;
   engine::ReturnsPanel panel_;
@@ -221,9 +222,9 @@ TEST(StoredChecksums, MigrationFromSchema6BackFillsEveryChecksum) {
     c.window = kWindow;
     c.step = kStep;
     storage::set_model(db, "m", c);
-    storage::refresh_model(db, "m");
+    pipeline::refresh_model(db, "m");
     for (const auto& w : storage::list_windows(db, storage::find_model(db, "m")->id))
-      before.push_back(*storage::read_window(db, storage::find_model(db, "m")->id, w.as_of));
+      before.push_back(*pipeline::read_served_window(db, storage::find_model(db, "m")->id, w.as_of));
     ASSERT_EQ(before.size(), 3u);
     SQLite::Database& sql = db.sql();
     // Back to schema 6: blobs without their 8-byte checksum, no checksum column.
@@ -255,14 +256,14 @@ TEST(StoredChecksums, MigrationFromSchema6BackFillsEveryChecksum) {
   EXPECT_EQ(report.alignments, 3u);
   const long model = storage::find_model(db, "m")->id;
   for (const storage::WindowRecord& w : before) {
-    const auto after = storage::read_window(db, model, w.as_of);
+    const auto after = pipeline::read_served_window(db, model, w.as_of);
     ASSERT_TRUE(after) << w.as_of;
     EXPECT_EQ(after->fit.loadings, w.fit.loadings) << w.as_of;
     EXPECT_EQ(after->fit.specific_variance, w.fit.specific_variance) << w.as_of;
     EXPECT_EQ(after->fit.assets, w.fit.assets) << w.as_of;
   }
   // And the returns still read, refresh finds nothing to do, and a new load writes checksums.
-  EXPECT_EQ(storage::refresh_model(db, "m").note, "every window is current");
+  EXPECT_EQ(pipeline::refresh_model(db, "m").note, "every window is current");
   fw::load_returns(db, dir.file("r.csv"));
   EXPECT_TRUE(storage::verify_database(db).problems.empty());
 }

@@ -125,24 +125,6 @@ SharedRows shared_rows(const NamedLoadings& a, const NamedLoadings& b) {
   return s;
 }
 
-const char* to_string(AlignmentStatus s) {
-  switch (s) {
-    case AlignmentStatus::aligned: return "aligned";
-    case AlignmentStatus::no_reference: return "no reference";
-    case AlignmentStatus::too_few_shared: return "too few shared assets";
-    case AlignmentStatus::factors_differ: return "factor counts differ";
-  }
-  return "unknown";
-}
-
-bool AlignmentOptions::IsValid(std::string* error) const {
-  if (min_shared_assets >= 1) return true;
-  if (error)
-    *error = "option 'min_shared_assets' (minimum shared assets) = " + std::to_string(min_shared_assets) +
-             ": must be at least 1";
-  return false;
-}
-
 Alignment align_to_reference(const NamedLoadings& window, const NamedLoadings& reference,
                              const AlignmentOptions& options) {
   std::string error;

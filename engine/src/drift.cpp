@@ -42,15 +42,6 @@ Eigen::VectorXd communality(const Eigen::MatrixXd& loadings, const Eigen::Matrix
 
 }  // namespace
 
-const char* to_string(DriftStatus s) {
-  switch (s) {
-    case DriftStatus::compared: return "compared";
-    case DriftStatus::too_few_shared: return "too few shared assets";
-    case DriftStatus::factors_differ: return "factor counts differ";
-  }
-  return "unknown";
-}
-
 DriftComparison compare_factors(const WindowFactors& now, const WindowFactors& then, Eigen::Index min_shared) {
   require_consistent(now, "now");
   require_consistent(then, "then");

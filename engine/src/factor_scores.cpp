@@ -111,14 +111,6 @@ void gather_rows(const Eigen::MatrixXd& from, const std::vector<Eigen::Index>& r
 
 }  // namespace
 
-const char* to_string(ScoreMethod m) { return m == ScoreMethod::bartlett ? "bartlett" : "regression"; }
-
-std::optional<ScoreMethod> parse_score_method(const std::string& s) {
-  if (s == "bartlett") return ScoreMethod::bartlett;
-  if (s == "regression") return ScoreMethod::regression;
-  return std::nullopt;
-}
-
 FactorScores factor_scores(const ReturnsPanel& panel, const FactorFit& fit, ScoreMethod method) {
   check_fit(fit);
   require(panel.values.rows() == static_cast<Eigen::Index>(panel.dates.size()) &&

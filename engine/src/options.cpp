@@ -1,7 +1,11 @@
+// Options of the engine: their validation and the names of the fit methods and bases.
+// Values every layer reads; the algorithms that take them are elsewhere.
 #include <cmath>
 #include <sstream>
 
+#include "factorwatch/engine/alignment.h"
 #include "factorwatch/engine/fit.h"
+#include "factorwatch/engine/rotation.h"
 
 namespace factorwatch::engine {
 namespace {
@@ -11,6 +15,17 @@ bool fail(std::string* error, const char* field, T value, const char* rule) {
   if (error) {
     std::ostringstream os;
     os << "option '" << field << "' = " << value << ": " << rule;
+    *error = os.str();
+  }
+  return false;
+}
+
+// The rotation's messages name the field without "option" (they are not a fit's options).
+template <typename T>
+bool fail_rotation(std::string* error, const char* field, T value, const char* rule) {
+  if (error) {
+    std::ostringstream os;
+    os << field << " = " << value << ": " << rule;
     *error = os.str();
   }
   return false;
@@ -77,6 +92,23 @@ std::optional<Basis> parse_basis(const std::string& s) {
   if (s == "covariance") return Basis::covariance;
   if (s == "correlation") return Basis::correlation;
   return std::nullopt;
+}
+
+bool RotationOptions::IsValid(std::string* error) const {
+  if (!(tolerance > 0 && std::isfinite(tolerance)))
+    return fail_rotation(error, "rotation tolerance", tolerance, "must be a positive finite number");
+  if (max_iterations < 1) return fail_rotation(error, "rotation max_iterations", max_iterations, "must be at least 1");
+  if (!(promax_power > 1 && std::isfinite(promax_power)))
+    return fail_rotation(error, "promax power", promax_power, "must be a finite number greater than 1");
+  return true;
+}
+
+bool AlignmentOptions::IsValid(std::string* error) const {
+  if (min_shared_assets >= 1) return true;
+  if (error)
+    *error = "option 'min_shared_assets' (minimum shared assets) = " + std::to_string(min_shared_assets) +
+             ": must be at least 1";
+  return false;
 }
 
 }  // namespace factorwatch::engine

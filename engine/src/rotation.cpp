@@ -16,16 +16,6 @@
 namespace factorwatch::engine {
 namespace {
 
-template <typename T>
-bool fail(std::string* error, const char* field, T value, const char* rule) {
-  if (error) {
-    std::ostringstream os;
-    os << field << " = " << value << ": " << rule;
-    *error = os.str();
-  }
-  return false;
-}
-
 struct Varimax {
   Eigen::MatrixXd rotation;  // T, orthogonal
   int iterations = 0;
@@ -127,15 +117,6 @@ void check(const RotationOptions& options) {
 
 }  // namespace
 
-bool RotationOptions::IsValid(std::string* error) const {
-  if (!(tolerance > 0 && std::isfinite(tolerance)))
-    return fail(error, "rotation tolerance", tolerance, "must be a positive finite number");
-  if (max_iterations < 1) return fail(error, "rotation max_iterations", max_iterations, "must be at least 1");
-  if (!(promax_power > 1 && std::isfinite(promax_power)))
-    return fail(error, "promax power", promax_power, "must be a finite number greater than 1");
-  return true;
-}
-
 RotationResult rotate_loadings(const Eigen::MatrixXd& loadings, const RotationOptions& options) {
   check(options);
   const Eigen::Index k = loadings.cols();
@@ -212,22 +193,6 @@ void apply_factor_transform(const Eigen::MatrixXd& transform, Eigen::MatrixXd& l
   // A covariance is symmetric; keep it exactly so for the Cholesky factorisations downstream.
   factor_covariance = 0.5 * (moved + moved.transpose());
   loadings = loadings * transform;
-}
-
-const char* to_string(RotationMethod m) {
-  switch (m) {
-    case RotationMethod::none: return "none";
-    case RotationMethod::varimax: return "varimax";
-    case RotationMethod::promax: return "promax";
-  }
-  return "?";
-}
-
-std::optional<RotationMethod> parse_rotation(const std::string& s) {
-  if (s == "none") return RotationMethod::none;
-  if (s == "varimax") return RotationMethod::varimax;
-  if (s == "promax") return RotationMethod::promax;
-  return std::nullopt;
 }
 
 }  // namespace factorwatch::engine

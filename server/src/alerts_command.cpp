@@ -6,14 +6,14 @@
 #include <iostream>
 
 #include "alerts_view.h"
-#include "drift_query.h"
 #include "drift_selection.h"
-#include "window_query.h"
+#include "factorwatch/pipeline/drift_query.h"
+#include "factorwatch/pipeline/window_query.h"
 
 namespace factorwatch::server {
 namespace {
 
-void print_alerts_table(const AlertList& a) {
+void print_alerts_table(const pipeline::AlertList& a) {
   const storage::ModelConfig& c = a.model.config;
   std::printf("model %s, version %d: %zu alert%s\n", a.model.name.c_str(), a.model.version, a.alerts.size(),
               a.alerts.size() == 1 ? "" : "s");
@@ -26,7 +26,7 @@ void print_alerts_table(const AlertList& a) {
                 "threshold", "assets that moved most (standardized change)");
     for (const storage::DriftAlert& x : a.alerts)
       std::printf("%-10s  %-8s  %-13s %-6s %10.4f %9.3f  %s\n", x.as_of.c_str(), x.against.c_str(),
-                  x.against_as_of.c_str(), factor_name(x.factor - 1).c_str(), x.congruence, x.threshold,
+                  x.against_as_of.c_str(), pipeline::factor_name(x.factor - 1).c_str(), x.congruence, x.threshold,
                   table_text(movers_text(x.movers, kMoversShown)).c_str());
   }
   const bool vanished = std::any_of(a.alerts.begin(), a.alerts.end(),
@@ -50,8 +50,8 @@ int run_alerts_command(const AlertsArguments& a, const GlobalArguments& global) 
   auto db = open_database(global, "alerts");
   if (!db) return kExitFailed;
   try {
-    AlertList list;
-    if (auto f = find_alerts(*db, {a.model, a.from, a.to}, list)) return report_query_failure("alerts", f, a.model);
+    pipeline::AlertList list;
+    if (auto f = pipeline::find_alerts(*db, {a.model, a.from, a.to}, list)) return report_query_failure("alerts", f, a.model);
     if (a.format == "csv") std::cout << alerts_csv(list);
     else if (a.format == "json") std::cout << alerts_json(list).dump(2) << "\n";
     else print_alerts_table(list);

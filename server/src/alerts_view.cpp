@@ -4,8 +4,8 @@
 
 #include "drift_view.h"
 #include "factorwatch/engine/caution.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "text_format.h"
-#include "window_query.h"
 
 namespace factorwatch::server {
 
@@ -19,17 +19,17 @@ std::string movers_text(const std::vector<engine::AssetMove>& movers, std::size_
   return out;
 }
 
-std::string alerts_csv(const AlertList& a) {
+std::string alerts_csv(const pipeline::AlertList& a) {
   std::string out = csv_caution_line();
   out += "as_of,against,against_as_of,factor,congruence,threshold,moved_most\n";
   for (const storage::DriftAlert& x : a.alerts)
-    out += x.as_of + "," + x.against + "," + x.against_as_of + "," + factor_name(x.factor - 1) + "," +
+    out += x.as_of + "," + x.against + "," + x.against_as_of + "," + pipeline::factor_name(x.factor - 1) + "," +
            csv_number(x.congruence) + "," + exact_number(x.threshold) + "," +
            csv_field(movers_text(x.movers, kMoversShown)) + "\n";
   return out;
 }
 
-nlohmann::ordered_json alerts_json(const AlertList& a) {
+nlohmann::ordered_json alerts_json(const pipeline::AlertList& a) {
   nlohmann::ordered_json j;
   j["caution"] = engine::kCaution;
   j["model"] = a.model.name;
@@ -45,7 +45,7 @@ nlohmann::ordered_json alerts_json(const AlertList& a) {
     alerts.push_back({{"as_of", x.as_of},
                       {"against", x.against},
                       {"against_as_of", x.against_as_of},
-                      {"factor", factor_name(x.factor - 1)},
+                      {"factor", pipeline::factor_name(x.factor - 1)},
                       {"congruence", json_number(x.congruence)},
                       {"threshold", x.threshold},
                       {"moved_most", std::move(movers)}});

@@ -5,7 +5,7 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "drift_query.h"
+#include "factorwatch/pipeline/drift_query.h"
 
 namespace factorwatch::server {
 
@@ -15,10 +15,10 @@ inline constexpr std::size_t kMoversShown = 5;
 
 // The caution line, one header row (as_of, against, against_as_of, factor, congruence,
 // threshold, moved_most), one row per flagged factor.
-std::string alerts_csv(const AlertList& alerts);
+std::string alerts_csv(const pipeline::AlertList& alerts);
 
 // {caution, model, version, thresholds, alerts: [...]}.
-nlohmann::ordered_json alerts_json(const AlertList& alerts);
+nlohmann::ordered_json alerts_json(const pipeline::AlertList& alerts);
 
 // "P1003 (+1.250); P1017 (-0.980)": the first `count` movers with their standardized
 // change, rounded to 3 decimals (a label for people; JSON has the exact numbers).

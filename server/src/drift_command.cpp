@@ -5,24 +5,24 @@
 #include <iostream>
 #include <set>
 
-#include "drift_query.h"
 #include "drift_selection.h"
 #include "drift_view.h"
+#include "factorwatch/pipeline/drift_query.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "window_drift_view.h"
-#include "window_query.h"
 
 namespace factorwatch::server {
 namespace {
 
-void print_series_table(const DriftSeries& s) {
+void print_series_table(const pipeline::DriftSeries& s) {
   const storage::ModelConfig& c = s.model.config;
-  const Eigen::Index k = factor_columns(c, s.rows);
+  const Eigen::Index k = pipeline::factor_columns(c, s.rows);
   std::printf("model %s, version %d: %zu comparison%s\n", s.model.name.c_str(), s.model.version, s.rows.size(),
               s.rows.size() == 1 ? "" : "s");
   std::printf("alerts: against the previous window %s; against the pinned window %s\n\n",
               threshold_text(c.alert_below).c_str(), threshold_text(c.alert_below_pinned).c_str());
   std::printf("%-10s  %-8s  %-13s %6s ", "as of", "against", "compared with", "shared");
-  for (Eigen::Index j = 0; j < k; ++j) std::printf(" %7s ", factor_name(j).c_str());
+  for (Eigen::Index j = 0; j < k; ++j) std::printf(" %7s ", pipeline::factor_name(j).c_str());
   std::printf(" %9s %9s\n", "max angle", "mean move");
   for (const storage::DriftRecord& r : s.rows) {
     std::printf("%-10s  %-8s  %-13s %6lld ", r.as_of.c_str(), r.against.c_str(), r.against_as_of.c_str(), r.shared);
@@ -30,7 +30,7 @@ void print_series_table(const DriftSeries& s) {
       std::printf(" %s\n", r.status.c_str());
       continue;
     }
-    const auto flagged = flagged_factors(r, alert_threshold(c, r.against));
+    const auto flagged = pipeline::flagged_factors(r, pipeline::alert_threshold(c, r.against));
     const std::set<Eigen::Index> marked(flagged.begin(), flagged.end());
     for (Eigen::Index j = 0; j < k; ++j) {
       if (j < r.congruence.size()) std::printf(" %7.3f%c", r.congruence(j), marked.count(j) ? '*' : ' ');
@@ -48,18 +48,18 @@ void print_series_table(const DriftSeries& s) {
   print_caution(std::cout);
 }
 
-void print_window_table(const WindowDrift& d, int limit) {
+void print_window_table(const pipeline::WindowDrift& d, int limit) {
   const storage::DriftRecord& r = d.record;
   const engine::DriftComparison& c = d.comparison;
   std::printf("model %s, version %d: %s\n", d.model.name.c_str(), d.model.version, window_drift_title(d).c_str());
   if (!d.note.empty()) std::printf("note: %s\n", d.note.c_str());
   if (!c.message.empty()) std::printf("%s\n", c.message.c_str());
-  const auto flagged = flagged_factors(r, alert_threshold(d.model.config, r.against));
+  const auto flagged = pipeline::flagged_factors(r, pipeline::alert_threshold(d.model.config, r.against));
   const std::set<Eigen::Index> marked(flagged.begin(), flagged.end());
   if (r.congruence.size() > 0) {
     std::printf("\nfactor  congruence  variance change  explained share change\n");
     for (Eigen::Index j = 0; j < r.congruence.size(); ++j)
-      std::printf("%-6s  %9.4f%c  %+15.4e  %+21.2f%%\n", factor_name(j).c_str(), r.congruence(j),
+      std::printf("%-6s  %9.4f%c  %+15.4e  %+21.2f%%\n", pipeline::factor_name(j).c_str(), r.congruence(j),
                   marked.count(j) ? '*' : ' ', j < r.factor_variance_change.size() ? r.factor_variance_change(j) : NAN,
                   100 * (j < r.explained_share_change.size() ? r.explained_share_change(j) : NAN));
     std::printf("principal angles (degrees):");
@@ -70,8 +70,8 @@ void print_window_table(const WindowDrift& d, int limit) {
   const Eigen::Index k = c.exposure_change.cols();
   if (!d.order.empty()) {
     std::printf("\n%-14s", "asset");
-    for (Eigen::Index j = 0; j < k; ++j) std::printf(" %11s", ("d" + factor_name(j)).c_str());
-    for (Eigen::Index j = 0; j < k; ++j) std::printf(" %9s", ("z" + factor_name(j)).c_str());
+    for (Eigen::Index j = 0; j < k; ++j) std::printf(" %11s", ("d" + pipeline::factor_name(j)).c_str());
+    for (Eigen::Index j = 0; j < k; ++j) std::printf(" %9s", ("z" + pipeline::factor_name(j)).c_str());
     std::printf(" %8s %13s\n", "|z|", "dcommunality");
     const std::size_t shown = limit > 0 ? std::min<std::size_t>(limit, d.order.size()) : d.order.size();
     for (std::size_t n = 0; n < shown; ++n) {
@@ -80,7 +80,7 @@ void print_window_table(const WindowDrift& d, int limit) {
       std::printf("%-14s", table_text(c.assets[i]).c_str());
       for (Eigen::Index j = 0; j < k; ++j) std::printf(" %+11.3e", c.exposure_change(row, j));
       for (Eigen::Index j = 0; j < k; ++j) std::printf(" %+9.4f", c.standardized_change(row, j));
-      std::printf(" %8.4f %+13.4e\n", standardized_norm(c, i), c.communality_change(row));
+      std::printf(" %8.4f %+13.4e\n", pipeline::standardized_norm(c, i), c.communality_change(row));
     }
     if (shown < d.order.size())
       std::printf("... %zu more; --limit 0 shows all, --format csv gives a spreadsheet file\n", d.order.size() - shown);
@@ -118,15 +118,15 @@ int run_drift_command(const DriftArguments& a, const GlobalArguments& global) {
         std::fprintf(stderr, "factorwatch drift: option '--window' compares one window; leave out --from and --to\n");
         return kExitBadInput;
       }
-      WindowDrift d;
-      if (auto f = find_window_drift(*db, a.model, a.window, a.against, d)) return report_query_failure("drift", f, a.model);
+      pipeline::WindowDrift d;
+      if (auto f = pipeline::find_window_drift(*db, a.model, a.window, a.against, d)) return report_query_failure("drift", f, a.model);
       if (a.format == "csv") std::cout << window_drift_csv(d);
       else if (a.format == "json") std::cout << window_drift_json(d).dump(2) << "\n";
       else print_window_table(d, a.limit);
       return kExitOk;
     }
-    DriftSeries s;
-    if (auto f = find_drift_series(*db, {a.model, a.from, a.to}, a.against, s))
+    pipeline::DriftSeries s;
+    if (auto f = pipeline::find_drift_series(*db, {a.model, a.from, a.to}, a.against, s))
       return report_query_failure("drift", f, a.model);
     if (a.format == "csv") std::cout << drift_csv(s);
     else if (a.format == "json") std::cout << drift_json(s).dump(2) << "\n";

@@ -1,16 +1,16 @@
 #include "drift_endpoints.h"
 
 #include "alerts_view.h"
-#include "drift_query.h"
 #include "drift_view.h"
 #include "endpoint_helpers.h"
+#include "factorwatch/pipeline/drift_query.h"
 #include "history_view.h"
 #include "window_drift_view.h"
 
 namespace factorwatch::server {
 namespace {
 
-RangeQuery range_of(const ApiRequest& r) {
+pipeline::RangeQuery range_of(const ApiRequest& r) {
   return {r.path_values.at("name"), r.parameter("from").value_or(""), r.parameter("to").value_or("")};
 }
 
@@ -20,19 +20,19 @@ ApiResponse drift_endpoint(const ApiContext& context, const ApiRequest& r) {
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
-  const RangeQuery query = range_of(r);
+  const pipeline::RangeQuery query = range_of(r);
   const std::string against = r.parameter("against").value_or("");
   storage::Database& db = context.database();
   if (const auto window = r.parameter("window")) {
     if (!query.from.empty() || !query.to.empty())
       return problem(400, "query parameter 'window' compares one window; leave out 'from' and 'to'", r.path, "window");
-    WindowDrift d;
-    if (auto failed = find_window_drift(db, query.model, *window, against, d)) return query_problem(r, failed);
+    pipeline::WindowDrift d;
+    if (auto failed = pipeline::find_window_drift(db, query.model, *window, against, d)) return query_problem(r, failed);
     const std::string filename = query.model + "-drift-" + d.record.as_of + "-" + d.record.against + ".csv";
     return f == Format::csv ? csv_response(window_drift_csv(d), filename, true) : json_response(window_drift_json(d));
   }
-  DriftSeries s;
-  if (auto failed = find_drift_series(db, query, against, s)) return query_problem(r, failed);
+  pipeline::DriftSeries s;
+  if (auto failed = pipeline::find_drift_series(db, query, against, s)) return query_problem(r, failed);
   return f == Format::csv ? csv_response(drift_csv(s), query.model + "-drift.csv", true) : json_response(drift_json(s));
 }
 
@@ -40,9 +40,9 @@ ApiResponse history_endpoint(const ApiContext& context, const ApiRequest& r) {
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
-  const RangeQuery query = range_of(r);
-  AssetHistory h;
-  if (auto failed = find_asset_history(context.database(), query, r.parameter("asset").value_or(""), h))
+  const pipeline::RangeQuery query = range_of(r);
+  pipeline::AssetHistory h;
+  if (auto failed = pipeline::find_asset_history(context.database(), query, r.parameter("asset").value_or(""), h))
     return query_problem(r, failed);
   return f == Format::csv ? csv_response(history_csv(h), query.model + "-history-" + file_part(h.asset) + ".csv", true)
                           : json_response(history_json(h));
@@ -52,9 +52,9 @@ ApiResponse alerts_endpoint(const ApiContext& context, const ApiRequest& r) {
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
-  const RangeQuery query = range_of(r);
-  AlertList a;
-  if (auto failed = find_alerts(context.database(), query, a)) return query_problem(r, failed);
+  const pipeline::RangeQuery query = range_of(r);
+  pipeline::AlertList a;
+  if (auto failed = pipeline::find_alerts(context.database(), query, a)) return query_problem(r, failed);
   return f == Format::csv ? csv_response(alerts_csv(a), query.model + "-alerts.csv", true) : json_response(alerts_json(a));
 }
 

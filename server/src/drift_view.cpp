@@ -1,8 +1,8 @@
 #include "drift_view.h"
 
 #include "factorwatch/engine/caution.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "text_format.h"
-#include "window_query.h"
 
 namespace factorwatch::server {
 namespace {
@@ -28,20 +28,20 @@ nlohmann::ordered_json numbers_json(const Eigen::VectorXd& v) {
 nlohmann::ordered_json thresholds_json(const storage::ModelConfig& c) {
   nlohmann::ordered_json j;
   for (const char* against : {"previous", "pinned"}) {
-    const double t = alert_threshold(c, against);
+    const double t = pipeline::alert_threshold(c, against);
     j[against] = t > 0 ? nlohmann::ordered_json(t) : nlohmann::ordered_json();
   }
   return j;
 }
 
-std::string drift_csv(const DriftSeries& s) {
-  const Eigen::Index k = factor_columns(s.model.config, s.rows);
+std::string drift_csv(const pipeline::DriftSeries& s) {
+  const Eigen::Index k = pipeline::factor_columns(s.model.config, s.rows);
   std::string out = csv_caution_line();
   out += "as_of,against,against_as_of,status,shared_assets";
-  for (Eigen::Index j = 0; j < k; ++j) out += ",congruence_" + factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += ",congruence_" + pipeline::factor_name(j);
   for (Eigen::Index j = 0; j < k; ++j) out += ",angle_" + std::to_string(j + 1) + "_degrees";
-  for (Eigen::Index j = 0; j < k; ++j) out += ",factor_variance_change_" + factor_name(j);
-  for (Eigen::Index j = 0; j < k; ++j) out += ",explained_share_change_" + factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += ",factor_variance_change_" + pipeline::factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += ",explained_share_change_" + pipeline::factor_name(j);
   out += ",mean_exposure_change,mean_communality_change,flagged\n";
   for (const storage::DriftRecord& r : s.rows) {
     out += r.as_of + "," + r.against + "," + r.against_as_of + "," + csv_field(r.status) + "," +
@@ -54,12 +54,12 @@ std::string drift_csv(const DriftSeries& s) {
     if (compared(r)) out += exact_number(r.mean_exposure_change);
     out += ',';
     if (compared(r)) out += exact_number(r.communality_change);
-    out += "," + csv_field(factor_list(flagged_factors(r, alert_threshold(s.model.config, r.against)))) + "\n";
+    out += "," + csv_field(pipeline::factor_list(pipeline::flagged_factors(r, pipeline::alert_threshold(s.model.config, r.against)))) + "\n";
   }
   return out;
 }
 
-nlohmann::ordered_json drift_json(const DriftSeries& s) {
+nlohmann::ordered_json drift_json(const pipeline::DriftSeries& s) {
   nlohmann::ordered_json j;
   j["caution"] = engine::kCaution;
   j["model"] = s.model.name;
@@ -81,7 +81,7 @@ nlohmann::ordered_json drift_json(const DriftSeries& s) {
     row["mean_exposure_change"] = compared(r) ? json_number(r.mean_exposure_change) : nlohmann::ordered_json();
     row["mean_communality_change"] = compared(r) ? json_number(r.communality_change) : nlohmann::ordered_json();
     nlohmann::ordered_json flagged = nlohmann::ordered_json::array();
-    for (Eigen::Index f : flagged_factors(r, alert_threshold(s.model.config, r.against))) flagged.push_back(factor_name(f));
+    for (Eigen::Index f : pipeline::flagged_factors(r, pipeline::alert_threshold(s.model.config, r.against))) flagged.push_back(pipeline::factor_name(f));
     row["flagged"] = std::move(flagged);
     rows.push_back(std::move(row));
   }

@@ -6,7 +6,7 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "drift_query.h"
+#include "factorwatch/pipeline/drift_query.h"
 
 namespace factorwatch::server {
 
@@ -14,10 +14,10 @@ namespace factorwatch::server {
 // against_as_of, status, shared_assets, congruence_f1.., angle_1_degrees..,
 // factor_variance_change_f1.., explained_share_change_f1.., mean_exposure_change,
 // mean_communality_change, flagged), one row per window and comparison.
-std::string drift_csv(const DriftSeries& series);
+std::string drift_csv(const pipeline::DriftSeries& series);
 
 // {caution, model, version, factors, thresholds, rows: [...]}.
-nlohmann::ordered_json drift_json(const DriftSeries& series);
+nlohmann::ordered_json drift_json(const pipeline::DriftSeries& series);
 
 // {"previous": x, "pinned": y}, null for a comparison whose alerts are off.
 nlohmann::ordered_json thresholds_json(const storage::ModelConfig& config);

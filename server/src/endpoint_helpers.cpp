@@ -2,8 +2,8 @@
 
 #include <cctype>
 
-#include "drift_query.h"
 #include "factorwatch/engine/caution.h"
+#include "factorwatch/pipeline/drift_query.h"
 
 namespace factorwatch::server {
 
@@ -41,14 +41,14 @@ ApiResponse csv_response(std::string body, const std::string& filename, bool ris
   return csv_response(std::make_shared<const std::string>(std::move(body)), filename, risk_numbers);
 }
 
-ApiResponse query_problem(const ApiRequest& r, const QueryFailure& f) {
-  if (f.outcome == QueryOutcome::no_model) return unknown_model(r, f.value);
+ApiResponse query_problem(const ApiRequest& r, const pipeline::QueryFailure& f) {
+  if (f.outcome == pipeline::QueryOutcome::no_model) return unknown_model(r, f.value);
   const std::string hint =
       f.refresh_helps ? "; start a refresh with POST /v1/models/" + r.path_values.at("name") + "/refresh" : "";
   if (f.field.empty()) return problem(404, f.message + hint, r.path);  // no window stored at all yet
   const std::string detail = "query parameter '" + f.field + "'" + (f.value.empty() ? "" : " = '" + f.value + "'") +
                              ": " + f.message;
-  if (f.outcome == QueryOutcome::bad_input) return problem(400, detail, r.path, f.field);
+  if (f.outcome == pipeline::QueryOutcome::bad_input) return problem(400, detail, r.path, f.field);
   return problem(404, detail + hint, r.path, f.field);
 }
 

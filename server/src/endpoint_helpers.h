@@ -10,9 +10,11 @@
 #include "api_message.h"
 #include "factorwatch/storage/input_error.h"
 
-namespace factorwatch::server {
-
+namespace factorwatch::pipeline {
 struct QueryFailure;
+}
+
+namespace factorwatch::server {
 
 enum class Format { json, csv };
 
@@ -32,7 +34,7 @@ ApiResponse csv_response(std::string body, const std::string& filename, bool ris
 // A failed drift, history, alerts, factor-returns or residuals lookup as a problem naming
 // the query parameter: 400 for bad input, 404 for what is not stored (with the refresh
 // route when a refresh would store it); an unknown model names the path's {name}.
-ApiResponse query_problem(const ApiRequest& request, const QueryFailure& failure);
+ApiResponse query_problem(const ApiRequest& request, const pipeline::QueryFailure& failure);
 
 // A true/false query parameter (true, false, 1, 0, yes, no); a 400 naming it otherwise.
 std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& request, const std::string& name);

@@ -9,7 +9,7 @@
 namespace factorwatch::server {
 namespace {
 
-void print_header(const SelectedWindow& s) {
+void print_header(const pipeline::SelectedWindow& s) {
   const engine::FactorFit& f = s.window.fit;
   std::printf("model %s, version %d: %s, %d factors, %s basis\n", s.model.name.c_str(), s.model.version,
               engine::to_string(f.method), f.factors, engine::to_string(f.basis));
@@ -20,7 +20,7 @@ void print_header(const SelectedWindow& s) {
   if (!s.note.empty()) std::printf("note: %s\n", s.note.c_str());
 }
 
-void print_exposures_table(const SelectedWindow& s, int limit) {
+void print_exposures_table(const pipeline::SelectedWindow& s, int limit) {
   const engine::FactorFit& f = s.window.fit;
   print_header(s);
   std::printf("\nfactor  share of variance  assets loading most\n");
@@ -34,10 +34,10 @@ void print_exposures_table(const SelectedWindow& s, int limit) {
     });
     std::string names;
     for (std::size_t k = 0; k < top; ++k) names += (k ? ", " : "") + table_text(f.assets[order[k]]);
-    std::printf("%-6s  %16.1f%%  %s\n", factor_name(j).c_str(), 100 * f.explained_share(j), names.c_str());
+    std::printf("%-6s  %16.1f%%  %s\n", pipeline::factor_name(j).c_str(), 100 * f.explained_share(j), names.c_str());
   }
   std::printf("\n%-14s", "asset");
-  for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::printf(" %10s", factor_name(j).c_str());
+  for (Eigen::Index j = 0; j < f.loadings.cols(); ++j) std::printf(" %10s", pipeline::factor_name(j).c_str());
   std::printf(" %12s %12s %10s\n", "communality", "specific_var", "uniqueness");
   const std::size_t shown = limit > 0 ? std::min<std::size_t>(limit, s.rows.size()) : s.rows.size();
   for (std::size_t r = 0; r < shown; ++r) {
@@ -65,7 +65,7 @@ CLI::App* add_exposures_command(CLI::App& app, WindowArguments& a) {
 }
 
 int run_exposures_command(const WindowArguments& a, const GlobalArguments& global) {
-  return run_on_window(a, global, "exposures", [&a](const SelectedWindow& s) {
+  return run_on_window(a, global, "exposures", [&a](const pipeline::SelectedWindow& s) {
     if (a.format == "csv") std::cout << exposures_csv(s);
     else if (a.format == "json") std::cout << exposures_json(s).dump(2) << "\n";
     else print_exposures_table(s, a.limit);

@@ -17,18 +17,18 @@ bool oblique(const engine::FactorFit& f) {
 
 }  // namespace
 
-std::string exposures_csv(const SelectedWindow& s) {
+std::string exposures_csv(const pipeline::SelectedWindow& s) {
   const engine::FactorFit& f = s.window.fit;
   const Eigen::Index k = f.loadings.cols();
   const bool with_structure = oblique(f);
   const Eigen::MatrixXd structure = with_structure ? Eigen::MatrixXd(f.loadings * f.factor_covariance) : Eigen::MatrixXd();
   std::string out = csv_caution_line();
-  out += window_csv_heading(s) + ", " + engine::to_string(f.method) + ", " + factor_basis_text(s) + "\n";
+  out += window_csv_heading(s) + ", " + engine::to_string(f.method) + ", " + pipeline::factor_basis_text(s) + "\n";
   out += "asset";
-  for (Eigen::Index j = 0; j < k; ++j) out += "," + factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += "," + pipeline::factor_name(j);
   out += ",communality,specific_variance,uniqueness,heywood";
   if (with_structure)
-    for (Eigen::Index j = 0; j < k; ++j) out += ",structure_" + factor_name(j);
+    for (Eigen::Index j = 0; j < k; ++j) out += ",structure_" + pipeline::factor_name(j);
   out += "\n";
   out.reserve(out.size() + s.rows.size() * static_cast<std::size_t>(24 * (k + 4)));
   for (std::size_t i : s.rows) {
@@ -52,7 +52,7 @@ std::string exposures_csv(const SelectedWindow& s) {
   return out;
 }
 
-nlohmann::ordered_json exposures_json(const SelectedWindow& s) {
+nlohmann::ordered_json exposures_json(const pipeline::SelectedWindow& s) {
   const engine::FactorFit& f = s.window.fit;
   nlohmann::ordered_json j = window_json_heading(s);
   j["periods"] = f.periods;
@@ -107,7 +107,7 @@ nlohmann::ordered_json exposures_json(const SelectedWindow& s) {
     rows.push_back(std::move(row));
   }
   j["assets"] = std::move(rows);
-  j["not_in_window"] = missing_json(s);
+  j["not_in_window"] = pipeline::missing_json(s);
   nlohmann::ordered_json excluded = nlohmann::ordered_json::array();
   for (const auto& e : f.excluded) excluded.push_back({{"asset", e.asset}, {"reason", e.reason}});
   j["excluded"] = std::move(excluded);

@@ -5,14 +5,14 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "window_query.h"
+#include "factorwatch/pipeline/window_query.h"
 
 namespace factorwatch::server {
 
 // "# caution" and "# model" comment lines, then asset,f1..fk,communality,
 // specific_variance,uniqueness,heywood.
-std::string exposures_csv(const SelectedWindow& s);
+std::string exposures_csv(const pipeline::SelectedWindow& s);
 
-nlohmann::ordered_json exposures_json(const SelectedWindow& s);
+nlohmann::ordered_json exposures_json(const pipeline::SelectedWindow& s);
 
 }  // namespace factorwatch::server

@@ -3,9 +3,9 @@
 #include <cstdio>
 #include <iostream>
 
-#include "factor_returns_query.h"
 #include "factor_returns_selection.h"
 #include "factor_returns_view.h"
+#include "factorwatch/pipeline/factor_returns_query.h"
 
 namespace factorwatch::server {
 
@@ -31,8 +31,8 @@ int run_factor_returns_command(const FactorReturnsArguments& a, const GlobalArgu
   if (!db) return kExitFailed;
   try {
     if (!a.window.empty()) {
-      WindowFactorReturns w;
-      if (auto f = find_window_factor_returns(*db, a.model, a.window, a.method, w))
+      pipeline::WindowFactorReturns w;
+      if (auto f = pipeline::find_window_factor_returns(*db, a.model, a.window, a.method, w))
         return report_scores_failure("factor-returns", f, a.model);
       if (a.format == "csv") std::cout << window_factor_returns_csv(w);
       else if (a.format == "json") std::cout << window_factor_returns_json(w).dump(2) << "\n";
@@ -42,8 +42,8 @@ int run_factor_returns_command(const FactorReturnsArguments& a, const GlobalArgu
       }
       return kExitOk;
     }
-    FactorReturnSeriesAnswer s;
-    if (auto f = find_factor_return_series(*db, {a.model, a.from, a.to}, a.method, s))
+    pipeline::FactorReturnSeriesAnswer s;
+    if (auto f = pipeline::find_factor_return_series(*db, {a.model, a.from, a.to}, a.method, s))
       return report_scores_failure("factor-returns", f, a.model);
     if (a.format == "csv") std::cout << factor_return_series_csv(s);
     else if (a.format == "json") std::cout << factor_return_series_json(s).dump(2) << "\n";

@@ -1,8 +1,8 @@
 #include "factor_returns_endpoints.h"
 
 #include "endpoint_helpers.h"
-#include "factor_returns_query.h"
 #include "factor_returns_view.h"
+#include "factorwatch/pipeline/factor_returns_query.h"
 #include "residuals_view.h"
 
 namespace factorwatch::server {
@@ -11,21 +11,21 @@ ApiResponse factor_returns_endpoint(const ApiContext& context, const ApiRequest&
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
-  const RangeQuery query{r.path_values.at("name"), r.parameter("from").value_or(""), r.parameter("to").value_or("")};
+  const pipeline::RangeQuery query{r.path_values.at("name"), r.parameter("from").value_or(""), r.parameter("to").value_or("")};
   const std::string method = r.parameter("method").value_or("");
   storage::Database& db = context.database();
   if (const auto window = r.parameter("window")) {
     if (!query.from.empty() || !query.to.empty())
       return problem(400, "query parameter 'window' shows one window; leave out 'from' and 'to'", r.path, "window");
     if (window->empty()) return problem(400, "query parameter 'window': give the window's as-of date", r.path, "window");
-    WindowFactorReturns w;
-    if (auto failed = find_window_factor_returns(db, query.model, *window, method, w)) return query_problem(r, failed);
+    pipeline::WindowFactorReturns w;
+    if (auto failed = pipeline::find_window_factor_returns(db, query.model, *window, method, w)) return query_problem(r, failed);
     const std::string filename = query.model + "-factor-returns-" + w.window.window.as_of + "-" +
                                  engine::to_string(w.scores.method) + ".csv";
     return f == Format::csv ? csv_response(window_factor_returns_csv(w), filename, true) : json_response(window_factor_returns_json(w));
   }
-  FactorReturnSeriesAnswer s;
-  if (auto failed = find_factor_return_series(db, query, method, s)) return query_problem(r, failed);
+  pipeline::FactorReturnSeriesAnswer s;
+  if (auto failed = pipeline::find_factor_return_series(db, query, method, s)) return query_problem(r, failed);
   return f == Format::csv
              ? csv_response(factor_return_series_csv(s),
                         query.model + "-factor-returns-" + engine::to_string(s.series.method) + ".csv", true)
@@ -37,8 +37,8 @@ ApiResponse residuals_endpoint(const ApiContext& context, const ApiRequest& r) {
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
   const std::string model = r.path_values.at("name");
-  AssetResidualAnswer a;
-  if (auto failed = find_asset_residuals(context.database(), model, r.parameter("asset").value_or(""),
+  pipeline::AssetResidualAnswer a;
+  if (auto failed = pipeline::find_asset_residuals(context.database(), model, r.parameter("asset").value_or(""),
                                          r.parameter("window").value_or(""), r.parameter("method").value_or(""), a))
     return query_problem(r, failed);
   const std::string filename = model + "-residuals-" + file_part(a.residuals.asset) + "-" + a.window.window.as_of +

@@ -15,8 +15,8 @@ void add_score_method_option(CLI::App* command, std::string& method) {
       ->capture_default_str();
 }
 
-int report_scores_failure(const char* command, const QueryFailure& f, const std::string& model) {
-  if (f.outcome == QueryOutcome::not_found && f.field.empty()) {
+int report_scores_failure(const char* command, const pipeline::QueryFailure& f, const std::string& model) {
+  if (f.outcome == pipeline::QueryOutcome::not_found && f.field.empty()) {
     std::fprintf(stderr, "factorwatch %s: %s%s\n", command, f.message.c_str(),
                  f.refresh_helps ? ("; run: factorwatch refresh " + model).c_str() : "");
     return kExitFailed;

@@ -6,7 +6,7 @@
 #include <string>
 
 #include "cli_common.h"
-#include "drift_query.h"
+#include "factorwatch/pipeline/drift_query.h"
 
 namespace factorwatch::server {
 
@@ -15,6 +15,6 @@ void add_score_method_option(CLI::App* command, std::string& method);
 
 // As report_query_failure (drift_selection.h), and for a failure naming no field (the
 // model has no window at all yet) the message with the refresh hint.
-int report_scores_failure(const char* command, const QueryFailure& failure, const std::string& model);
+int report_scores_failure(const char* command, const pipeline::QueryFailure& failure, const std::string& model);
 
 }  // namespace factorwatch::server

@@ -35,24 +35,24 @@ void append_factor_columns(std::string& out, const Eigen::VectorXd& v, Eigen::In
 void append_factor_headings(std::string& out, Eigen::Index k) {
   char cell[32];
   for (Eigen::Index j = 0; j < k; ++j) {
-    std::snprintf(cell, sizeof cell, " %9s", factor_name(j).c_str());
+    std::snprintf(cell, sizeof cell, " %9s", pipeline::factor_name(j).c_str());
     out += cell;
   }
 }
 
-std::string range_text(const FactorReturnSeriesAnswer& a) {
+std::string range_text(const pipeline::FactorReturnSeriesAnswer& a) {
   return "windows " + (a.from.empty() ? std::string("from the first") : "from " + a.from) + " " +
          (a.to.empty() ? std::string("to the latest") : "to " + a.to);
 }
 
 // The series' rows and skipped windows, merged by as-of date for the CSV and the table.
 struct SeriesLine {
-  const storage::FactorReturnRow* row = nullptr;      // a usable window
-  const storage::SkippedWindow* skipped = nullptr;    // or one that gave no row
+  const pipeline::FactorReturnRow* row = nullptr;      // a usable window
+  const pipeline::SkippedWindow* skipped = nullptr;    // or one that gave no row
   const std::string& as_of() const { return row ? row->as_of : skipped->as_of; }
 };
 
-std::vector<SeriesLine> series_lines(const storage::FactorReturnSeries& s) {
+std::vector<SeriesLine> series_lines(const pipeline::FactorReturnSeries& s) {
   std::vector<SeriesLine> lines;
   std::size_t r = 0, k = 0;
   while (r < s.rows.size() || k < s.skipped.size()) {
@@ -65,11 +65,11 @@ std::vector<SeriesLine> series_lines(const storage::FactorReturnSeries& s) {
   return lines;
 }
 
-std::string window_basis_heading(const WindowFactorReturns& a) {
-  const SelectedWindow& s = a.window;
+std::string window_basis_heading(const pipeline::WindowFactorReturns& a) {
+  const pipeline::SelectedWindow& s = a.window;
   std::string text = window_csv_heading(s) + "; method " + engine::to_string(a.scores.method) + ", " +
-                     factor_returns_description(a.scores.method) + " under the window's served factors (" +
-                     factor_basis_text(s) + "); " + std::to_string(a.scores.modelled_assets) + " modelled assets";
+                     pipeline::factor_returns_description(a.scores.method) + " under the window's served factors (" +
+                     pipeline::factor_basis_text(s) + "); " + std::to_string(a.scores.modelled_assets) + " modelled assets";
   if (s.window.stale) text += "; STALE: returns in this window changed since it was fitted";
   if (!s.note.empty()) text += "; note: " + s.note;
   return text;
@@ -83,16 +83,16 @@ std::string unscored_reason(const engine::FactorScores& s, std::size_t date) {
 
 }  // namespace
 
-std::string factor_return_series_csv(const FactorReturnSeriesAnswer& a) {
-  const Eigen::Index k = series_factor_columns(a);
+std::string factor_return_series_csv(const pipeline::FactorReturnSeriesAnswer& a) {
+  const Eigen::Index k = pipeline::series_factor_columns(a);
   const engine::ScoreMethod method = a.series.method;
   std::string out = csv_caution_line();
   out += "# model " + a.model.name + " version " + std::to_string(a.model.version) + ", " + range_text(a) +
-         "; method " + engine::to_string(method) + ", " + factor_returns_description(method) +
-         " of each window's as-of date under that window's served factors (" + series_basis_text(a.model.config) +
+         "; method " + engine::to_string(method) + ", " + pipeline::factor_returns_description(method) +
+         " of each window's as-of date under that window's served factors (" + pipeline::series_basis_text(a.model.config) +
          ")\n";
   out += "as_of,first_date,alignment";
-  for (Eigen::Index j = 0; j < k; ++j) out += "," + factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += "," + pipeline::factor_name(j);
   out += ",assets_used,reason\n";
   for (const SeriesLine& line : series_lines(a.series)) {
     if (line.skipped) {
@@ -101,7 +101,7 @@ std::string factor_return_series_csv(const FactorReturnSeriesAnswer& a) {
       out += ",," + csv_field(line.skipped->reason) + "\n";
       continue;
     }
-    const storage::FactorReturnRow& r = *line.row;
+    const pipeline::FactorReturnRow& r = *line.row;
     out += r.as_of + "," + r.window_first_date + "," + csv_field(r.alignment);
     append_factor_cells(out, r.scores, k);
     out += "," + std::to_string(r.assets_used) + "," + csv_field(r.unscored_reason) + "\n";
@@ -109,21 +109,21 @@ std::string factor_return_series_csv(const FactorReturnSeriesAnswer& a) {
   return out;
 }
 
-ordered_json factor_return_series_json(const FactorReturnSeriesAnswer& a) {
+ordered_json factor_return_series_json(const pipeline::FactorReturnSeriesAnswer& a) {
   const engine::ScoreMethod method = a.series.method;
   ordered_json j;
   j["caution"] = engine::kCaution;
   j["model"] = a.model.name;
   j["version"] = a.model.version;
   j["method"] = engine::to_string(method);
-  j["description"] = factor_returns_description(method) +
+  j["description"] = pipeline::factor_returns_description(method) +
                      " of each window's as-of date under that window's served factors";
-  j["factor_basis"] = series_basis_text(a.model.config);
-  j["factors"] = series_factor_columns(a);
+  j["factor_basis"] = pipeline::series_basis_text(a.model.config);
+  j["factors"] = pipeline::series_factor_columns(a);
   j["from"] = a.from.empty() ? ordered_json() : ordered_json(a.from);
   j["to"] = a.to.empty() ? ordered_json() : ordered_json(a.to);
   ordered_json rows = ordered_json::array();
-  for (const storage::FactorReturnRow& r : a.series.rows) {
+  for (const pipeline::FactorReturnRow& r : a.series.rows) {
     ordered_json row;
     row["as_of"] = r.as_of;
     row["first_date"] = r.window_first_date;
@@ -135,21 +135,21 @@ ordered_json factor_return_series_json(const FactorReturnSeriesAnswer& a) {
   }
   j["rows"] = std::move(rows);
   ordered_json skipped = ordered_json::array();
-  for (const storage::SkippedWindow& s : a.series.skipped) skipped.push_back({{"as_of", s.as_of}, {"reason", s.reason}});
+  for (const pipeline::SkippedWindow& s : a.series.skipped) skipped.push_back({{"as_of", s.as_of}, {"reason", s.reason}});
   j["skipped"] = std::move(skipped);
   return j;
 }
 
-std::string factor_return_series_table(const FactorReturnSeriesAnswer& a) {
-  const Eigen::Index k = series_factor_columns(a);
+std::string factor_return_series_table(const pipeline::FactorReturnSeriesAnswer& a) {
+  const Eigen::Index k = pipeline::series_factor_columns(a);
   const engine::ScoreMethod method = a.series.method;
   char line[256];
   std::snprintf(line, sizeof line, "model %s, version %d: factor-return series, method %s, %zu window%s (%zu skipped)\n",
                 a.model.name.c_str(), a.model.version, engine::to_string(method), a.series.rows.size(),
                 a.series.rows.size() == 1 ? "" : "s", a.series.skipped.size());
   std::string out = line;
-  out += factor_returns_description(method) + "\nof each window's as-of date under that window's served factors (" +
-         series_basis_text(a.model.config) + ")\n\n";
+  out += pipeline::factor_returns_description(method) + "\nof each window's as-of date under that window's served factors (" +
+         pipeline::series_basis_text(a.model.config) + ")\n\n";
   std::snprintf(line, sizeof line, "%-10s  %-10s  %-16s", "as of", "first date", "alignment");
   out += line;
   append_factor_headings(out, k);
@@ -160,7 +160,7 @@ std::string factor_return_series_table(const FactorReturnSeriesAnswer& a) {
       out += line;
       continue;
     }
-    const storage::FactorReturnRow& r = *l.row;
+    const pipeline::FactorReturnRow& r = *l.row;
     std::snprintf(line, sizeof line, "%-10s  %-10s  %-16s", r.as_of.c_str(), r.window_first_date.c_str(),
                   r.alignment.c_str());
     out += line;
@@ -179,13 +179,13 @@ std::string factor_return_series_table(const FactorReturnSeriesAnswer& a) {
   return out;
 }
 
-std::string window_factor_returns_csv(const WindowFactorReturns& a) {
+std::string window_factor_returns_csv(const pipeline::WindowFactorReturns& a) {
   const engine::FactorScores& s = a.scores;
   const Eigen::Index k = s.scores.cols();
   std::string out = csv_caution_line();
   out += window_basis_heading(a) + "\n";
   out += "date";
-  for (Eigen::Index j = 0; j < k; ++j) out += "," + factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += "," + pipeline::factor_name(j);
   out += ",assets_used,reason\n";
   for (std::size_t t = 0; t < s.dates.size(); ++t) {
     const auto row = static_cast<Eigen::Index>(t);
@@ -196,14 +196,14 @@ std::string window_factor_returns_csv(const WindowFactorReturns& a) {
   return out;
 }
 
-ordered_json window_factor_returns_json(const WindowFactorReturns& a) {
+ordered_json window_factor_returns_json(const pipeline::WindowFactorReturns& a) {
   const engine::FactorScores& s = a.scores;
   ordered_json j = window_json_heading(a.window);
   j["stale"] = a.window.window.stale;
   if (!a.window.note.empty()) j["note"] = a.window.note;
   j["method"] = engine::to_string(s.method);
-  j["description"] = factor_returns_description(s.method) + " under the window's served factors";
-  j["factor_basis"] = factor_basis_text(a.window);
+  j["description"] = pipeline::factor_returns_description(s.method) + " under the window's served factors";
+  j["factor_basis"] = pipeline::factor_basis_text(a.window);
   j["factors"] = s.scores.cols();
   j["modelled_assets"] = s.modelled_assets;
   ordered_json dates = ordered_json::array();
@@ -220,9 +220,9 @@ ordered_json window_factor_returns_json(const WindowFactorReturns& a) {
   return j;
 }
 
-std::string window_factor_returns_table(const WindowFactorReturns& a) {
+std::string window_factor_returns_table(const pipeline::WindowFactorReturns& a) {
   const engine::FactorScores& s = a.scores;
-  const SelectedWindow& w = a.window;
+  const pipeline::SelectedWindow& w = a.window;
   const Eigen::Index k = s.scores.cols();
   char line[256];
   std::snprintf(line, sizeof line, "model %s, version %d: window %s .. %s, method %s, %lld modelled assets%s\n",
@@ -231,7 +231,7 @@ std::string window_factor_returns_table(const WindowFactorReturns& a) {
                 w.window.stale ? "; STALE, run factorwatch refresh" : "");
   std::string out = line;
   if (!w.note.empty()) out += "note: " + w.note + "\n";
-  out += factor_returns_description(s.method) + "\nunder the window's served factors (" + factor_basis_text(w) +
+  out += pipeline::factor_returns_description(s.method) + "\nunder the window's served factors (" + pipeline::factor_basis_text(w) +
          ")\n\n";
   std::snprintf(line, sizeof line, "%-10s", "date");
   out += line;

@@ -4,24 +4,24 @@
 #include <cstdio>
 #include <iostream>
 
-#include "drift_query.h"
 #include "drift_selection.h"
+#include "factorwatch/pipeline/drift_query.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "history_view.h"
-#include "window_query.h"
 
 namespace factorwatch::server {
 namespace {
 
-void print_history_table(const AssetHistory& h) {
+void print_history_table(const pipeline::AssetHistory& h) {
   const Eigen::Index k = h.model.config.factors;
   std::size_t present = 0;
   for (const auto& p : h.points) present += p.present;
   std::printf("model %s, version %d: asset %s in %zu of %zu windows\n\n", h.model.name.c_str(), h.model.version,
               table_text(h.asset).c_str(), present, h.points.size());
   std::printf("%-10s", "as of");
-  for (Eigen::Index j = 0; j < k; ++j) std::printf(" %11s", factor_name(j).c_str());
+  for (Eigen::Index j = 0; j < k; ++j) std::printf(" %11s", pipeline::factor_name(j).c_str());
   std::printf(" %12s %12s  %s\n", "communality", "specific vol", "alignment");
-  for (const storage::ExposurePoint& p : h.points) {
+  for (const pipeline::ExposurePoint& p : h.points) {
     std::printf("%-10s", p.as_of.c_str());
     if (!p.present) {
       std::printf(" not in this window (not fitted, or the fit is not usable)\n");
@@ -50,8 +50,8 @@ int run_history_command(const HistoryArguments& a, const GlobalArguments& global
   auto db = open_database(global, "history");
   if (!db) return kExitFailed;
   try {
-    AssetHistory h;
-    if (auto f = find_asset_history(*db, {a.model, a.from, a.to}, a.asset, h))
+    pipeline::AssetHistory h;
+    if (auto f = pipeline::find_asset_history(*db, {a.model, a.from, a.to}, a.asset, h))
       return report_query_failure("history", f, a.model);
     if (a.format == "csv") std::cout << history_csv(h);
     else if (a.format == "json") std::cout << history_json(h).dump(2) << "\n";

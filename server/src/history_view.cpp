@@ -5,13 +5,13 @@
 
 #include "drift_view.h"
 #include "factorwatch/engine/caution.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "text_format.h"
-#include "window_query.h"
 
 namespace factorwatch::server {
 namespace {
 
-Eigen::Index history_columns(const AssetHistory& h) {
+Eigen::Index history_columns(const pipeline::AssetHistory& h) {
   Eigen::Index k = h.model.config.factors;
   for (const auto& p : h.points) k = std::max(k, p.exposures.size());
   return k;
@@ -19,13 +19,13 @@ Eigen::Index history_columns(const AssetHistory& h) {
 
 }  // namespace
 
-std::string history_csv(const AssetHistory& h) {
+std::string history_csv(const pipeline::AssetHistory& h) {
   const Eigen::Index k = history_columns(h);
   std::string out = csv_caution_line();
   out += "as_of,present";
-  for (Eigen::Index j = 0; j < k; ++j) out += ",exposure_" + factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += ",exposure_" + pipeline::factor_name(j);
   out += ",communality,specific_variance,specific_volatility,alignment\n";
-  for (const storage::ExposurePoint& p : h.points) {
+  for (const pipeline::ExposurePoint& p : h.points) {
     out += p.as_of + (p.present ? ",true" : ",false");
     for (Eigen::Index j = 0; j < k; ++j) {
       out += ',';
@@ -40,7 +40,7 @@ std::string history_csv(const AssetHistory& h) {
   return out;
 }
 
-nlohmann::ordered_json history_json(const AssetHistory& h) {
+nlohmann::ordered_json history_json(const pipeline::AssetHistory& h) {
   nlohmann::ordered_json j;
   j["caution"] = engine::kCaution;
   j["model"] = h.model.name;
@@ -48,7 +48,7 @@ nlohmann::ordered_json history_json(const AssetHistory& h) {
   j["asset"] = h.asset;
   j["factors"] = h.model.config.factors;
   nlohmann::ordered_json windows = nlohmann::ordered_json::array();
-  for (const storage::ExposurePoint& p : h.points) {
+  for (const pipeline::ExposurePoint& p : h.points) {
     nlohmann::ordered_json w;
     w["as_of"] = p.as_of;
     w["present"] = p.present;

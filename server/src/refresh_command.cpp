@@ -4,15 +4,16 @@
 #include <iostream>
 #include <stdexcept>
 
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/models.h"
-#include "factorwatch/storage/refresh.h"
 #include "factorwatch/storage/windows.h"
 
 namespace factorwatch::server {
 namespace {
 
 // One line rewritten in place: windows done / total, rate, time left.
-void show_progress(const std::string& model, const storage::RefreshProgress& p) {
+void show_progress(const std::string& model, const pipeline::RefreshProgress& p) {
   const double rate = p.elapsed_seconds > 0 ? p.done / p.elapsed_seconds : 0;
   const double left = rate > 0 ? (p.total - p.done) / rate : 0;
   std::fprintf(stderr, "\rrefreshing %s: %zu/%zu windows, %.1f windows/s, %.0f s left, as of %s   ", model.c_str(),
@@ -22,9 +23,9 @@ void show_progress(const std::string& model, const storage::RefreshProgress& p) 
 }
 
 int refresh_one(storage::Database& db, const std::string& name, bool progress) {
-  const storage::RefreshSummary s = storage::refresh_model(
-      db, name, progress ? storage::RefreshCallback([&name](const storage::RefreshProgress& p) { show_progress(name, p); })
-                         : storage::RefreshCallback());
+  const pipeline::RefreshSummary s = pipeline::refresh_model(
+      db, name, progress ? pipeline::RefreshCallback([&name](const pipeline::RefreshProgress& p) { show_progress(name, p); })
+                         : pipeline::RefreshCallback());
   std::printf("%s (version %d): ", s.model.c_str(), s.version);
   if (s.fitted == 0) {
     std::printf("nothing to fit: %s (%zu windows current)\n", s.note.c_str(), s.already_current);
@@ -40,7 +41,7 @@ int refresh_one(storage::Database& db, const std::string& name, bool progress) {
               s.alerts, s.alerts == 1 ? "" : "s", s.align_seconds,
               s.alerts > 0 ? "; factorwatch alerts shows them" : "");
   const auto model = storage::find_model(db, name);
-  if (const auto latest = storage::read_window(db, model->id, "")) {
+  if (const auto latest = pipeline::read_served_window(db, model->id, "")) {
     const engine::FactorFit& f = latest->fit;
     std::printf("  latest window %s .. %s: %zu assets (%zu excluded), %d factors explain %.1f%% of the variance, %s after %d iterations%s\n",
                 latest->first_date.c_str(), latest->as_of.c_str(), f.assets.size(), f.excluded.size(), f.factors,

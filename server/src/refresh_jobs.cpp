@@ -70,7 +70,7 @@ nlohmann::ordered_json RefreshJobs::to_json(const Job& job) {
                    {"as_of", text_or_null(job.progress.as_of)},
                    {"elapsed_seconds", job.progress.elapsed_seconds}};
   if (job.summary) {
-    const storage::RefreshSummary& s = *job.summary;
+    const pipeline::RefreshSummary& s = *job.summary;
     j["summary"] = {{"version", s.version},
                     {"grid_windows", s.grid_windows},
                     {"already_current", s.already_current},
@@ -144,13 +144,13 @@ void RefreshJobs::run() {
       model = job.model;
     }
     State outcome = State::finished;
-    std::optional<storage::RefreshSummary> summary;
+    std::optional<pipeline::RefreshSummary> summary;
     std::string error;
     try {
       if (!db) db = std::make_unique<storage::Database>(database_path_);
-      summary = storage::refresh_model(
+      summary = pipeline::refresh_model(
           *db, model,
-          [this, id](const storage::RefreshProgress& p) {
+          [this, id](const pipeline::RefreshProgress& p) {
             std::lock_guard<std::mutex> lock(mutex_);
             jobs_.at(id).progress = p;
           },

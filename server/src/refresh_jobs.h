@@ -16,7 +16,7 @@
 #include <string>
 #include <thread>
 
-#include "factorwatch/storage/refresh.h"
+#include "factorwatch/pipeline/refresh.h"
 
 namespace factorwatch::server {
 
@@ -47,8 +47,8 @@ class RefreshJobs {
     std::string model;
     State state = State::queued;
     std::string submitted_at, started_at, finished_at;
-    storage::RefreshProgress progress;
-    std::optional<storage::RefreshSummary> summary;
+    pipeline::RefreshProgress progress;
+    std::optional<pipeline::RefreshSummary> summary;
     std::string error;
   };
   static const char* state_name(State s);

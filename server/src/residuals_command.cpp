@@ -3,8 +3,8 @@
 #include <cstdio>
 #include <iostream>
 
-#include "factor_returns_query.h"
 #include "factor_returns_selection.h"
+#include "factorwatch/pipeline/factor_returns_query.h"
 #include "residuals_view.h"
 
 namespace factorwatch::server {
@@ -25,8 +25,8 @@ int run_residuals_command(const ResidualsArguments& a, const GlobalArguments& gl
   auto db = open_database(global, "residuals");
   if (!db) return kExitFailed;
   try {
-    AssetResidualAnswer r;
-    if (auto f = find_asset_residuals(*db, a.model, a.asset, a.window, a.method, r))
+    pipeline::AssetResidualAnswer r;
+    if (auto f = pipeline::find_asset_residuals(*db, a.model, a.asset, a.window, a.method, r))
       return report_scores_failure("residuals", f, a.model);
     if (a.format == "csv") std::cout << residuals_csv(r);
     else if (a.format == "json") std::cout << residuals_json(r).dump(2) << "\n";

@@ -16,7 +16,7 @@ using nlohmann::ordered_json;
 std::string loadings_text(const Eigen::VectorXd& loadings) {
   std::string out;
   for (Eigen::Index j = 0; j < loadings.size(); ++j)
-    out += (j ? ", " : "") + factor_name(j) + " " + exact_number(loadings(j));
+    out += (j ? ", " : "") + pipeline::factor_name(j) + " " + exact_number(loadings(j));
   return out;
 }
 
@@ -24,18 +24,18 @@ std::string loadings_text(const Eigen::VectorXd& loadings) {
 
 std::string residuals_description(engine::ScoreMethod method) {
   return "residual (specific) returns: return - mean - loadings . factor returns, with " +
-         factor_returns_description(method);
+         pipeline::factor_returns_description(method);
 }
 
-std::string residuals_csv(const AssetResidualAnswer& a) {
-  const storage::AssetResiduals& r = a.residuals;
+std::string residuals_csv(const pipeline::AssetResidualAnswer& a) {
+  const pipeline::AssetResiduals& r = a.residuals;
   std::string out = csv_caution_line();
   // The heading is one '#' line: a name stored before the identifier rule is escaped there.
   out += window_csv_heading(a.window) + "; asset " + table_text(r.asset) + ": mean " + exact_number(r.mean) +
          ", loadings " +
          loadings_text(r.loadings) + ", specific variance " + exact_number(r.specific_variance) + "; method " +
          engine::to_string(r.method) + ", " + residuals_description(r.method) + " under the window's served factors (" +
-         factor_basis_text(a.window) + ")";
+         pipeline::factor_basis_text(a.window) + ")";
   if (a.window.window.stale) out += "; STALE: returns in this window changed since it was fitted";
   if (!a.window.note.empty()) out += "; note: " + a.window.note;
   out += "\ndate,residual\n";
@@ -47,15 +47,15 @@ std::string residuals_csv(const AssetResidualAnswer& a) {
   return out;
 }
 
-ordered_json residuals_json(const AssetResidualAnswer& a) {
-  const storage::AssetResiduals& r = a.residuals;
+ordered_json residuals_json(const pipeline::AssetResidualAnswer& a) {
+  const pipeline::AssetResiduals& r = a.residuals;
   ordered_json j = window_json_heading(a.window);
   j["stale"] = a.window.window.stale;
   if (!a.window.note.empty()) j["note"] = a.window.note;
   j["asset"] = r.asset;
   j["method"] = engine::to_string(r.method);
   j["description"] = residuals_description(r.method) + " under the window's served factors";
-  j["factor_basis"] = factor_basis_text(a.window);
+  j["factor_basis"] = pipeline::factor_basis_text(a.window);
   j["mean"] = r.mean;
   j["loadings"] = numbers_json(r.loadings);
   j["specific_variance"] = r.specific_variance;
@@ -67,9 +67,9 @@ ordered_json residuals_json(const AssetResidualAnswer& a) {
   return j;
 }
 
-std::string residuals_table(const AssetResidualAnswer& a) {
-  const storage::AssetResiduals& r = a.residuals;
-  const SelectedWindow& w = a.window;
+std::string residuals_table(const pipeline::AssetResidualAnswer& a) {
+  const pipeline::AssetResiduals& r = a.residuals;
+  const pipeline::SelectedWindow& w = a.window;
   char line[256];
   std::snprintf(line, sizeof line, "model %s, version %d: window %s .. %s, asset %s, method %s%s\n",
                 w.model.name.c_str(), w.model.version, w.window.first_date.c_str(), w.window.as_of.c_str(),
@@ -77,12 +77,12 @@ std::string residuals_table(const AssetResidualAnswer& a) {
                 w.window.stale ? "; STALE, run factorwatch refresh" : "");
   std::string out = line;
   if (!w.note.empty()) out += "note: " + w.note + "\n";
-  out += residuals_description(r.method) + "\nunder the window's served factors (" + factor_basis_text(w) + ")\n";
+  out += residuals_description(r.method) + "\nunder the window's served factors (" + pipeline::factor_basis_text(w) + ")\n";
   std::snprintf(line, sizeof line, "mean %+.6f, specific variance %.4e (volatility %.3f%% per period), loadings",
                 r.mean, r.specific_variance, 100 * std::sqrt(r.specific_variance));
   out += line;
   for (Eigen::Index j = 0; j < r.loadings.size(); ++j) {
-    std::snprintf(line, sizeof line, "%s %s %+.6f", j ? "," : "", factor_name(j).c_str(), r.loadings(j));
+    std::snprintf(line, sizeof line, "%s %s %+.6f", j ? "," : "", pipeline::factor_name(j).c_str(), r.loadings(j));
     out += line;
   }
   out += "\n\ndate          residual\n";

@@ -6,19 +6,19 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "factor_returns_query.h"
+#include "factorwatch/pipeline/factor_returns_query.h"
 
 namespace factorwatch::server {
 
 // The caution line, one heading comment line (model, window, asset, its mean, loadings and
 // specific variance, the method), the header row date,residual, one row per date of the
 // window; a date without a residual (no return, or not scored) has an empty cell.
-std::string residuals_csv(const AssetResidualAnswer& answer);
+std::string residuals_csv(const pipeline::AssetResidualAnswer& answer);
 // {caution, model, version, as_of, first_date, stale, note?, asset, method, description,
 //  factor_basis, mean, loadings, specific_variance, specific_volatility,
 //  residuals: [{date, residual}]}.
-nlohmann::ordered_json residuals_json(const AssetResidualAnswer& answer);
-std::string residuals_table(const AssetResidualAnswer& answer);
+nlohmann::ordered_json residuals_json(const pipeline::AssetResidualAnswer& answer);
+std::string residuals_table(const pipeline::AssetResidualAnswer& answer);
 
 // "residual returns: return - mean - loadings . factor returns, with factor returns (...)".
 std::string residuals_description(engine::ScoreMethod method);

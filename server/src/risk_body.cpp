@@ -45,7 +45,7 @@ std::variant<engine::Holdings, std::string> holdings_member(const ordered_json& 
   return holdings;
 }
 
-std::optional<BodyProblem> read_risk_body(std::string_view text, RiskRequest& q) {
+std::optional<BodyProblem> read_risk_body(std::string_view text, pipeline::RiskRequest& q) {
   ordered_json body;
   try {
     body = parse_json_body(text);

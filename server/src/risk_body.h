@@ -9,8 +9,8 @@
 #include <variant>
 
 #include "factorwatch/engine/risk.h"
+#include "factorwatch/pipeline/risk_query.h"
 #include "json_body.h"
-#include "risk_query.h"
 
 namespace factorwatch::server {
 
@@ -20,6 +20,6 @@ std::variant<engine::Holdings, std::string> holdings_member(const nlohmann::orde
                                                             const std::string& member);
 
 // Fills the portfolio, benchmark and trade of `q` from the body; a problem names the member.
-std::optional<BodyProblem> read_risk_body(std::string_view body, RiskRequest& q);
+std::optional<BodyProblem> read_risk_body(std::string_view body, pipeline::RiskRequest& q);
 
 }  // namespace factorwatch::server

@@ -4,9 +4,9 @@
 #include <iostream>
 #include <stdexcept>
 
+#include "factorwatch/pipeline/risk_query.h"
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/portfolios.h"
-#include "risk_query.h"
 #include "risk_view.h"
 
 namespace factorwatch::server {
@@ -62,8 +62,8 @@ int run_risk_command(const RiskArguments& a, const GlobalArguments& global) {
     std::fprintf(stderr, "factorwatch risk: name a stored PORTFOLIO or give --weights FILE\n");
     return kExitBadInput;
   }
-  RiskRequest q;
-  q.window = WindowQuery{a.model, a.as_of, {}};
+  pipeline::RiskRequest q;
+  q.window = pipeline::WindowQuery{a.model, a.as_of, {}};
   q.portfolio = a.portfolio;
   q.portfolio_as_of = a.holdings_as_of;
   q.benchmark = a.benchmark;
@@ -78,28 +78,28 @@ int run_risk_command(const RiskArguments& a, const GlobalArguments& global) {
   auto db = open_database(global, "risk");
   if (!db) return kExitFailed;
   try {
-    const WindowPick pick = pick_window(*db, q.window);
-    const RiskOutcome outcome = answer_risk(*db, q, pick, nullptr);
+    const pipeline::WindowPick pick = pipeline::pick_window(*db, q.window);
+    const pipeline::RiskOutcome outcome = pipeline::answer_risk(*db, q, pick, nullptr);
     switch (outcome.failure) {
-      case RiskFailure::none: break;
-      case RiskFailure::no_model:
+      case pipeline::RiskFailure::none: break;
+      case pipeline::RiskFailure::no_model:
         std::fprintf(stderr, "factorwatch risk: %s (factorwatch model list shows them)\n", outcome.message.c_str());
         return kExitBadInput;
-      case RiskFailure::no_window:
+      case pipeline::RiskFailure::no_window:
         std::fprintf(stderr, "factorwatch risk: %s; run: factorwatch refresh %s\n", outcome.message.c_str(),
                      a.model.c_str());
         return kExitFailed;
-      case RiskFailure::unusable_window:
+      case pipeline::RiskFailure::unusable_window:
         std::fprintf(stderr, "factorwatch risk: %s (factorwatch windows %s lists them)\n", outcome.message.c_str(),
                      a.model.c_str());
         return kExitFailed;
-      case RiskFailure::no_portfolio:
-      case RiskFailure::no_benchmark:
+      case pipeline::RiskFailure::no_portfolio:
+      case pipeline::RiskFailure::no_benchmark:
         std::fprintf(stderr, "factorwatch risk: %s: %s (factorwatch portfolio list shows them)\n",
                      option_of(outcome.field).c_str(), outcome.message.c_str());
         return kExitBadInput;
-      case RiskFailure::bad_as_of:
-      case RiskFailure::bad_weights:
+      case pipeline::RiskFailure::bad_as_of:
+      case pipeline::RiskFailure::bad_weights:
         std::fprintf(stderr, "factorwatch risk: %s: %s\n", option_of(outcome.field).c_str(), outcome.message.c_str());
         return kExitBadInput;
     }

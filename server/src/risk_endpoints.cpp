@@ -3,10 +3,10 @@
 #include <cmath>
 
 #include "endpoint_helpers.h"
+#include "factorwatch/pipeline/risk_query.h"
 #include "factorwatch/storage/identifier_rule.h"
 #include "risk_body.h"
 #include "risk_model_cache.h"
-#include "risk_query.h"
 #include "risk_view.h"
 #include "text_format.h"
 
@@ -29,39 +29,39 @@ std::string where(const ApiRequest& r, const std::string& field) {
 }
 
 // The window's risk model from the daemon's cache, read and indexed on a miss.
-std::shared_ptr<const WindowRiskModel> cached_model(const ApiContext& context, storage::Database& db,
-                                                    const WindowPick& pick) {
-  if (pick.outcome != WindowLookup::found) return nullptr;
+std::shared_ptr<const pipeline::WindowRiskModel> cached_model(const ApiContext& context, storage::Database& db,
+                                                    const pipeline::WindowPick& pick) {
+  if (pick.outcome != pipeline::WindowLookup::found) return nullptr;
   const std::string key = std::to_string(pick.model.id) + "|" + pick.stamp.key();
   if (context.risk_models)
     if (auto model = context.risk_models->find(key)) return model;
-  auto model = load_window_risk_model(db, pick);
+  auto model = pipeline::load_window_risk_model(db, pick);
   if (context.risk_models) context.risk_models->put(key, model);
   return model;
 }
 
-ApiResponse answer(const ApiContext& context, const ApiRequest& r, const RiskRequest& q) {
+ApiResponse answer(const ApiContext& context, const ApiRequest& r, const pipeline::RiskRequest& q) {
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const auto by_asset = r.parameter("by_asset") ? flag_parameter(r, "by_asset") : std::variant<bool, ApiResponse>(true);
   if (const auto* p = std::get_if<ApiResponse>(&by_asset)) return *p;
 
   storage::Database& db = context.database();
-  const WindowPick pick = pick_window(db, q.window);
-  const RiskOutcome outcome = answer_risk(db, q, pick, cached_model(context, db, pick));
+  const pipeline::WindowPick pick = pipeline::pick_window(db, q.window);
+  const pipeline::RiskOutcome outcome = pipeline::answer_risk(db, q, pick, cached_model(context, db, pick));
   const std::string field = http_field(outcome.field);
   switch (outcome.failure) {
-    case RiskFailure::none: break;
-    case RiskFailure::no_model: return unknown_model(r, q.window.model);
-    case RiskFailure::bad_as_of: return problem(400, where(r, field) + ": " + outcome.message, r.path, field);
-    case RiskFailure::no_window:
+    case pipeline::RiskFailure::none: break;
+    case pipeline::RiskFailure::no_model: return unknown_model(r, q.window.model);
+    case pipeline::RiskFailure::bad_as_of: return problem(400, where(r, field) + ": " + outcome.message, r.path, field);
+    case pipeline::RiskFailure::no_window:
       return problem(404, outcome.message + "; start one with POST /v1/models/" + q.window.model + "/refresh", r.path,
                      q.window.as_of.empty() ? "" : "as_of");
-    case RiskFailure::unusable_window: return problem(409, outcome.message, r.path, "as_of");
-    case RiskFailure::no_portfolio:
-    case RiskFailure::no_benchmark:
+    case pipeline::RiskFailure::unusable_window: return problem(409, outcome.message, r.path, "as_of");
+    case pipeline::RiskFailure::no_portfolio:
+    case pipeline::RiskFailure::no_benchmark:
       return problem(404, where(r, field) + ": " + outcome.message + " (GET /v1/portfolios lists them)", r.path, field);
-    case RiskFailure::bad_weights: return problem(422, where(r, field) + ": " + outcome.message, r.path, field);
+    case pipeline::RiskFailure::bad_weights: return problem(422, where(r, field) + ": " + outcome.message, r.path, field);
   }
   const RiskViewOptions view{std::get<bool>(by_asset), 0};
   if (std::get<Format>(format) == Format::csv) {
@@ -97,8 +97,8 @@ std::variant<engine::Holdings, std::string> trade_parameter(const std::string& t
 }  // namespace
 
 ApiResponse stored_portfolio_risk_endpoint(const ApiContext& context, const ApiRequest& r) {
-  RiskRequest q;
-  q.window = WindowQuery{r.path_values.at("name"), r.parameter("as_of").value_or(""), {}};
+  pipeline::RiskRequest q;
+  q.window = pipeline::WindowQuery{r.path_values.at("name"), r.parameter("as_of").value_or(""), {}};
   q.portfolio = r.parameter("portfolio").value_or("");
   if (q.portfolio.empty())
     return problem(400, "query parameter 'portfolio': name a stored portfolio (GET /v1/portfolios lists them; "
@@ -121,8 +121,8 @@ ApiResponse stored_portfolio_risk_endpoint(const ApiContext& context, const ApiR
 }
 
 ApiResponse posted_weights_risk_endpoint(const ApiContext& context, const ApiRequest& r) {
-  RiskRequest q;
-  q.window = WindowQuery{r.path_values.at("name"), r.parameter("as_of").value_or(""), {}};
+  pipeline::RiskRequest q;
+  q.window = pipeline::WindowQuery{r.path_values.at("name"), r.parameter("as_of").value_or(""), {}};
   if (auto bad = read_risk_body(r.body, q)) return problem(400, bad->message, r.path, bad->field);
   return answer(context, r, q);
 }

@@ -2,7 +2,7 @@
 
 namespace factorwatch::server {
 
-std::shared_ptr<const WindowRiskModel> RiskModelCache::find(const std::string& key) {
+std::shared_ptr<const pipeline::WindowRiskModel> RiskModelCache::find(const std::string& key) {
   std::lock_guard<std::mutex> lock(mutex_);
   for (auto it = order_.begin(); it != order_.end(); ++it)
     if (it->first == key) {
@@ -12,7 +12,7 @@ std::shared_ptr<const WindowRiskModel> RiskModelCache::find(const std::string& k
   return nullptr;
 }
 
-void RiskModelCache::put(const std::string& key, std::shared_ptr<const WindowRiskModel> model) {
+void RiskModelCache::put(const std::string& key, std::shared_ptr<const pipeline::WindowRiskModel> model) {
   if (capacity_ == 0) return;
   std::lock_guard<std::mutex> lock(mutex_);
   for (auto it = order_.begin(); it != order_.end(); ++it)

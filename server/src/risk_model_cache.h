@@ -12,7 +12,7 @@
 #include <string>
 #include <utility>
 
-#include "risk_query.h"
+#include "factorwatch/pipeline/risk_query.h"
 
 namespace factorwatch::server {
 
@@ -23,11 +23,11 @@ inline constexpr std::size_t kRiskModelWindows = 8;
 class RiskModelCache {
  public:
   explicit RiskModelCache(std::size_t windows) : capacity_(windows) {}
-  std::shared_ptr<const WindowRiskModel> find(const std::string& key);
-  void put(const std::string& key, std::shared_ptr<const WindowRiskModel> model);
+  std::shared_ptr<const pipeline::WindowRiskModel> find(const std::string& key);
+  void put(const std::string& key, std::shared_ptr<const pipeline::WindowRiskModel> model);
 
  private:
-  using Entry = std::pair<std::string, std::shared_ptr<const WindowRiskModel>>;
+  using Entry = std::pair<std::string, std::shared_ptr<const pipeline::WindowRiskModel>>;
   std::mutex mutex_;
   std::size_t capacity_;
   std::list<Entry> order_;  // most recently used first; a handful of windows, searched in order

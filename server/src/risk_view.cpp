@@ -13,7 +13,7 @@ namespace {
 
 using nlohmann::ordered_json;
 
-double annualised(const WindowRiskModel& w, double per_period) {
+double annualised(const pipeline::WindowRiskModel& w, double per_period) {
   return per_period * std::sqrt(static_cast<double>(w.frequency.periods_per_year));
 }
 
@@ -41,7 +41,7 @@ ordered_json weights_json(const engine::WeightSummary& s) {
           {"not_modelled_gross", s.not_modelled_gross}};
 }
 
-ordered_json book_json(const WindowRiskModel& w, const RiskBook& b, const RiskViewOptions& o) {
+ordered_json book_json(const pipeline::WindowRiskModel& w, const pipeline::RiskBook& b, const RiskViewOptions& o) {
   const engine::PortfolioRisk& r = b.risk;
   ordered_json j;
   j["book"] = b.role;
@@ -54,7 +54,7 @@ ordered_json book_json(const WindowRiskModel& w, const RiskBook& b, const RiskVi
   j["systematic_share"] = json_number(r.systematic_share);
   ordered_json factors = ordered_json::array();
   for (const engine::FactorContribution& c : r.by_factor)
-    factors.push_back({{"factor", factor_name(c.factor)},
+    factors.push_back({{"factor", pipeline::factor_name(c.factor)},
                        {"exposure", c.exposure},
                        {"variance", c.variance},
                        {"contribution", c.volatility},
@@ -107,7 +107,7 @@ struct CsvRow {
   std::string reason;
 };
 
-void append_row(std::string& out, const WindowRiskModel& w, const std::string& book, const CsvRow& r) {
+void append_row(std::string& out, const pipeline::WindowRiskModel& w, const std::string& book, const CsvRow& r) {
   out += book + "," + r.part + "," + csv_field(r.name);
   for (double x : {r.weight, r.exposure, r.marginal, r.variance, r.contribution, annualised(w, r.contribution), r.share,
                    r.standalone, annualised(w, r.standalone)}) {
@@ -117,8 +117,8 @@ void append_row(std::string& out, const WindowRiskModel& w, const std::string& b
   out += "," + csv_field(r.reason) + "\n";
 }
 
-std::string heading_words(const RiskReport& report) {
-  const WindowRiskModel& w = *report.window;
+std::string heading_words(const pipeline::RiskReport& report) {
+  const pipeline::WindowRiskModel& w = *report.window;
   std::string text = "model " + w.model.name + " version " + std::to_string(w.model.version) + ", window " +
                      w.first_date + " .. " + w.as_of + ", " + w.frequency.name + " data, annualised by sqrt(" +
                      std::to_string(w.frequency.periods_per_year) + "), " + w.basis;
@@ -126,7 +126,7 @@ std::string heading_words(const RiskReport& report) {
   return text;
 }
 
-std::string book_words(const RiskBook& b) {
+std::string book_words(const pipeline::RiskBook& b) {
   std::string text = b.role;
   if (!b.name.empty()) text += " " + b.name;
   if (!b.as_of.empty()) text += " (holdings as of " + b.as_of + ")";
@@ -143,8 +143,8 @@ std::string percent(double x, int decimals = 2) {
 
 }  // namespace
 
-ordered_json risk_json(const RiskReport& report, const RiskViewOptions& o) {
-  const WindowRiskModel& w = *report.window;
+ordered_json risk_json(const pipeline::RiskReport& report, const RiskViewOptions& o) {
+  const pipeline::WindowRiskModel& w = *report.window;
   ordered_json j;
   j["caution"] = engine::kCaution;
   j["model"] = w.model.name;
@@ -156,29 +156,29 @@ ordered_json risk_json(const RiskReport& report, const RiskViewOptions& o) {
   j["periods_per_year"] = w.frequency.periods_per_year;
   j["factor_basis"] = w.basis;
   ordered_json factors = ordered_json::array();
-  for (Eigen::Index f = 0; f < w.risk.factors(); ++f) factors.push_back(factor_name(f));
+  for (Eigen::Index f = 0; f < w.risk.factors(); ++f) factors.push_back(pipeline::factor_name(f));
   j["factors"] = std::move(factors);
   if (!report.note.empty()) j["note"] = report.note;
   j["not_modelled_treatment"] =
       "holdings the window does not model carry no risk in these figures; they are listed with their weight "
       "and the reason";
   ordered_json books = ordered_json::array();
-  for (const RiskBook& b : report.books) books.push_back(book_json(w, b, o));
+  for (const pipeline::RiskBook& b : report.books) books.push_back(book_json(w, b, o));
   j["books"] = std::move(books);
   return j;
 }
 
-std::string risk_csv(const RiskReport& report, const RiskViewOptions& o) {
-  const WindowRiskModel& w = *report.window;
+std::string risk_csv(const pipeline::RiskReport& report, const RiskViewOptions& o) {
+  const pipeline::WindowRiskModel& w = *report.window;
   std::string out = csv_caution_line();
   out += "# " + heading_words(report);
-  for (const RiskBook& b : report.books)
+  for (const pipeline::RiskBook& b : report.books)
     if (b.role == "portfolio" || b.role == "benchmark") out += "; " + book_words(b);
   out += "\n";
   if (!report.note.empty()) out += "# note: " + report.note + "\n";
   out += "book,part,name,weight,exposure,marginal,variance,contribution,contribution_annual,share,"
          "standalone_volatility,standalone_volatility_annual,reason\n";
-  for (const RiskBook& b : report.books) {
+  for (const pipeline::RiskBook& b : report.books) {
     const engine::PortfolioRisk& r = b.risk;
     const double total = r.total.variance;
     const double sigma = r.total.volatility;
@@ -194,7 +194,7 @@ std::string risk_csv(const RiskReport& report, const RiskViewOptions& o) {
     for (const engine::FactorContribution& c : r.by_factor) {
       const double phi = w.risk.factor_covariance()(c.factor, c.factor);
       append_row(out, w, b.role,
-                 {"factor", factor_name(c.factor), NAN, c.exposure, NAN, c.variance, c.volatility, c.share,
+                 {"factor", pipeline::factor_name(c.factor), NAN, c.exposure, NAN, c.variance, c.volatility, c.share,
                   std::abs(c.exposure) * std::sqrt(phi), ""});
     }
     if (o.by_asset)
@@ -208,12 +208,12 @@ std::string risk_csv(const RiskReport& report, const RiskViewOptions& o) {
   return out;
 }
 
-std::string risk_table(const RiskReport& report, const RiskViewOptions& o) {
-  const WindowRiskModel& w = *report.window;
+std::string risk_table(const pipeline::RiskReport& report, const RiskViewOptions& o) {
+  const pipeline::WindowRiskModel& w = *report.window;
   std::string out = heading_words(report) + "\n";
   if (!report.note.empty()) out += "note: " + report.note + "\n";
   char line[512];
-  for (const RiskBook& b : report.books) {
+  for (const pipeline::RiskBook& b : report.books) {
     const engine::WeightSummary& s = b.risk.weights;
     std::snprintf(line, sizeof line, "%s: %zu holdings, %zu modelled; weights net %.4g, gross %.4g, long %.4g, short %.4g\n",
                   book_words(b).c_str(), s.holdings, s.modelled, s.net, s.gross, s.long_weight, s.short_weight);
@@ -224,7 +224,7 @@ std::string risk_table(const RiskReport& report, const RiskViewOptions& o) {
   out += "\n";
   std::snprintf(line, sizeof line, "%-28s", "");
   out += line;
-  for (const RiskBook& b : report.books) {
+  for (const pipeline::RiskBook& b : report.books) {
     std::snprintf(line, sizeof line, " %18s", b.role.c_str());
     out += line;
   }
@@ -232,7 +232,7 @@ std::string risk_table(const RiskReport& report, const RiskViewOptions& o) {
   auto summary_row = [&](const char* label, auto value) {
     std::snprintf(line, sizeof line, "%-28s", label);
     out += line;
-    for (const RiskBook& b : report.books) {
+    for (const pipeline::RiskBook& b : report.books) {
       std::snprintf(line, sizeof line, " %18s", value(b.risk).c_str());
       out += line;
     }
@@ -246,14 +246,14 @@ std::string risk_table(const RiskReport& report, const RiskViewOptions& o) {
   summary_row("systematic share of variance", [](const engine::PortfolioRisk& r) { return percent(r.systematic_share, 1); });
   summary_row("volatility, per period", [](const engine::PortfolioRisk& r) { return percent(r.total.volatility, 3); });
 
-  for (const RiskBook& b : report.books) {
+  for (const pipeline::RiskBook& b : report.books) {
     const engine::PortfolioRisk& r = b.risk;
     out += "\n" + book_words(b) + ": contributions to annualised volatility (they add up to " +
            percent(r.total.annualised_volatility) + ")\n";
     std::snprintf(line, sizeof line, "  %-14s %12s %14s %10s\n", "factor", "exposure", "contribution", "share");
     out += line;
     for (const engine::FactorContribution& c : r.by_factor) {
-      std::snprintf(line, sizeof line, "  %-14s %12.4g %14s %10s\n", factor_name(c.factor).c_str(), c.exposure,
+      std::snprintf(line, sizeof line, "  %-14s %12.4g %14s %10s\n", pipeline::factor_name(c.factor).c_str(), c.exposure,
                     percent(annualised(w, c.volatility)).c_str(), percent(c.share, 1).c_str());
       out += line;
     }

@@ -9,7 +9,7 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "risk_query.h"
+#include "factorwatch/pipeline/risk_query.h"
 
 namespace factorwatch::server {
 
@@ -18,8 +18,8 @@ struct RiskViewOptions {
   int limit = 10;        // table: assets shown per book, largest contributions first (0: all)
 };
 
-nlohmann::ordered_json risk_json(const RiskReport& report, const RiskViewOptions& options = {});
-std::string risk_csv(const RiskReport& report, const RiskViewOptions& options = {});
-std::string risk_table(const RiskReport& report, const RiskViewOptions& options = {});
+nlohmann::ordered_json risk_json(const pipeline::RiskReport& report, const RiskViewOptions& options = {});
+std::string risk_csv(const pipeline::RiskReport& report, const RiskViewOptions& options = {});
+std::string risk_table(const pipeline::RiskReport& report, const RiskViewOptions& options = {});
 
 }  // namespace factorwatch::server

@@ -15,13 +15,13 @@ CLI::App* add_specific_risk_command(CLI::App& app, WindowArguments& a) {
 }
 
 int run_specific_risk_command(const WindowArguments& a, const GlobalArguments& global) {
-  return run_on_window(a, global, "specific-risk", [&a](const SelectedWindow& s) {
+  return run_on_window(a, global, "specific-risk", [&a](const pipeline::SelectedWindow& s) {
     if (a.format == "csv") {
       std::cout << specific_risk_csv(s);
     } else if (a.format == "json") {
       std::cout << specific_risk_json(s).dump(2) << "\n";
     } else {
-      const engine::Frequency frequency = window_frequency(s);
+      const engine::Frequency frequency = pipeline::window_frequency(s);
       const std::vector<SpecificRiskRow> rows = specific_risk_rows(s, frequency);
       std::printf("model %s, version %d: window %s .. %s, %s data, annualised by sqrt(%d)%s\n", s.model.name.c_str(),
                   s.model.version, s.window.first_date.c_str(), s.window.as_of.c_str(), frequency.name,

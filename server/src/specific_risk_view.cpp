@@ -7,14 +7,7 @@
 
 namespace factorwatch::server {
 
-engine::Frequency window_frequency(const SelectedWindow& s) {
-  const auto periods = s.window.fit.periods;
-  if (periods < 2) return {};
-  return engine::frequency_from_gap(static_cast<double>(engine::days_between(s.window.first_date, s.window.as_of)) /
-                                    static_cast<double>(periods - 1));
-}
-
-std::vector<SpecificRiskRow> specific_risk_rows(const SelectedWindow& s, const engine::Frequency& frequency) {
+std::vector<SpecificRiskRow> specific_risk_rows(const pipeline::SelectedWindow& s, const engine::Frequency& frequency) {
   const engine::FactorFit& f = s.window.fit;
   const double annual = std::sqrt(static_cast<double>(frequency.periods_per_year));
   std::vector<SpecificRiskRow> rows;
@@ -29,8 +22,8 @@ std::vector<SpecificRiskRow> specific_risk_rows(const SelectedWindow& s, const e
   return rows;
 }
 
-std::string specific_risk_csv(const SelectedWindow& s) {
-  const engine::Frequency frequency = window_frequency(s);
+std::string specific_risk_csv(const pipeline::SelectedWindow& s) {
+  const engine::Frequency frequency = pipeline::window_frequency(s);
   std::string out = csv_caution_line();
   out += window_csv_heading(s) + ", " + frequency.name + " data, annualised by sqrt(" +
          std::to_string(frequency.periods_per_year) + ")\n";
@@ -48,8 +41,8 @@ std::string specific_risk_csv(const SelectedWindow& s) {
   return out;
 }
 
-nlohmann::ordered_json specific_risk_json(const SelectedWindow& s) {
-  const engine::Frequency frequency = window_frequency(s);
+nlohmann::ordered_json specific_risk_json(const pipeline::SelectedWindow& s) {
+  const engine::Frequency frequency = pipeline::window_frequency(s);
   nlohmann::ordered_json j = window_json_heading(s);
   j["frequency"] = frequency.name;
   j["periods_per_year"] = frequency.periods_per_year;
@@ -66,7 +59,7 @@ nlohmann::ordered_json specific_risk_json(const SelectedWindow& s) {
                    {"specific_share", r.specific_share},
                    {"heywood", r.heywood}});
   j["assets"] = std::move(out);
-  j["not_in_window"] = missing_json(s);
+  j["not_in_window"] = pipeline::missing_json(s);
   return j;
 }
 

@@ -7,7 +7,7 @@
 #include <vector>
 
 #include "factorwatch/engine/frequency.h"
-#include "window_query.h"
+#include "factorwatch/pipeline/window_query.h"
 
 namespace factorwatch::server {
 
@@ -18,14 +18,11 @@ struct SpecificRiskRow {
   bool heywood;
 };
 
-// The data's frequency, inferred from the window's dates (daily, weekly or monthly).
-engine::Frequency window_frequency(const SelectedWindow& s);
-
 // Modelled variance of asset i: diag(L Phi L') + specific variance, annualised by
 // sqrt(periods per year) (square-root-of-time, common practice).
-std::vector<SpecificRiskRow> specific_risk_rows(const SelectedWindow& s, const engine::Frequency& frequency);
+std::vector<SpecificRiskRow> specific_risk_rows(const pipeline::SelectedWindow& s, const engine::Frequency& frequency);
 
-std::string specific_risk_csv(const SelectedWindow& s);
-nlohmann::ordered_json specific_risk_json(const SelectedWindow& s);
+std::string specific_risk_csv(const pipeline::SelectedWindow& s);
+nlohmann::ordered_json specific_risk_json(const pipeline::SelectedWindow& s);
 
 }  // namespace factorwatch::server

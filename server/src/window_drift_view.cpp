@@ -4,18 +4,18 @@
 
 #include "drift_view.h"
 #include "factorwatch/engine/caution.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "text_format.h"
-#include "window_query.h"
 
 namespace factorwatch::server {
 
-std::string window_drift_title(const WindowDrift& d) {
+std::string window_drift_title(const pipeline::WindowDrift& d) {
   const storage::DriftRecord& r = d.record;
   return "window as of " + r.as_of + " against the " + r.against + " window as of " + r.against_as_of + ": " +
          r.status + ", " + std::to_string(r.shared) + " shared assets";
 }
 
-std::string window_drift_csv(const WindowDrift& d) {
+std::string window_drift_csv(const pipeline::WindowDrift& d) {
   const storage::DriftRecord& r = d.record;
   const engine::DriftComparison& c = d.comparison;
   const Eigen::Index k = std::max<Eigen::Index>(d.model.config.factors, c.exposure_change.cols());
@@ -26,17 +26,17 @@ std::string window_drift_csv(const WindowDrift& d) {
   } else {
     out += "# congruence";
     for (Eigen::Index j = 0; j < r.congruence.size(); ++j)
-      out += (j ? ", " : " ") + factor_name(j) + " " + csv_number(r.congruence(j));
+      out += (j ? ", " : " ") + pipeline::factor_name(j) + " " + csv_number(r.congruence(j));
     out += "; principal angles (degrees)";
     for (Eigen::Index j = 0; j < r.principal_angles_degrees.size(); ++j)
       out += (j ? ", " : " ") + csv_number(r.principal_angles_degrees(j));
-    const std::string flagged = factor_list(flagged_factors(r, alert_threshold(d.model.config, r.against)));
+    const std::string flagged = pipeline::factor_list(pipeline::flagged_factors(r, pipeline::alert_threshold(d.model.config, r.against)));
     if (!flagged.empty()) out += "; flagged: " + flagged;
     out += "\n";
   }
   out += "asset";
-  for (Eigen::Index j = 0; j < k; ++j) out += ",exposure_change_" + factor_name(j);
-  for (Eigen::Index j = 0; j < k; ++j) out += ",standardized_change_" + factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += ",exposure_change_" + pipeline::factor_name(j);
+  for (Eigen::Index j = 0; j < k; ++j) out += ",standardized_change_" + pipeline::factor_name(j);
   out += ",standardized_change_norm,communality_change\n";
   for (std::size_t i : d.order) {
     const auto row = static_cast<Eigen::Index>(i);
@@ -50,7 +50,7 @@ std::string window_drift_csv(const WindowDrift& d) {
       if (j < c.standardized_change.cols()) append_exact_number(out, c.standardized_change(row, j));
     }
     out += ',';
-    append_exact_number(out, standardized_norm(c, i));
+    append_exact_number(out, pipeline::standardized_norm(c, i));
     out += ',';
     append_exact_number(out, c.communality_change(row));
     out += '\n';
@@ -58,7 +58,7 @@ std::string window_drift_csv(const WindowDrift& d) {
   return out;
 }
 
-nlohmann::ordered_json window_drift_json(const WindowDrift& d) {
+nlohmann::ordered_json window_drift_json(const pipeline::WindowDrift& d) {
   const storage::DriftRecord& r = d.record;
   const engine::DriftComparison& c = d.comparison;
   nlohmann::ordered_json j;
@@ -73,14 +73,14 @@ nlohmann::ordered_json window_drift_json(const WindowDrift& d) {
   if (!d.note.empty()) j["note"] = d.note;
   j["shared_assets"] = r.shared;
   j["factors"] = d.model.config.factors;
-  const double threshold = alert_threshold(d.model.config, r.against);
+  const double threshold = pipeline::alert_threshold(d.model.config, r.against);
   j["threshold"] = threshold > 0 ? nlohmann::ordered_json(threshold) : nlohmann::ordered_json();
   j["congruence"] = numbers_json(r.congruence);
   j["principal_angles_degrees"] = numbers_json(r.principal_angles_degrees);
   j["factor_variance_change"] = numbers_json(r.factor_variance_change);
   j["explained_share_change"] = numbers_json(r.explained_share_change);
   nlohmann::ordered_json flagged = nlohmann::ordered_json::array();
-  for (Eigen::Index f : flagged_factors(r, threshold)) flagged.push_back(factor_name(f));
+  for (Eigen::Index f : pipeline::flagged_factors(r, threshold)) flagged.push_back(pipeline::factor_name(f));
   j["flagged"] = std::move(flagged);
   nlohmann::ordered_json assets = nlohmann::ordered_json::array();
   for (std::size_t i : d.order) {
@@ -89,7 +89,7 @@ nlohmann::ordered_json window_drift_json(const WindowDrift& d) {
     a["asset"] = c.assets[i];
     a["exposure_change"] = numbers_json(c.exposure_change.row(row).transpose());
     a["standardized_change"] = numbers_json(c.standardized_change.row(row).transpose());
-    a["standardized_change_norm"] = standardized_norm(c, i);
+    a["standardized_change_norm"] = pipeline::standardized_norm(c, i);
     a["communality_change"] = c.communality_change(row);
     assets.push_back(std::move(a));
   }

@@ -6,7 +6,7 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "drift_query.h"
+#include "factorwatch/pipeline/drift_query.h"
 
 namespace factorwatch::server {
 
@@ -14,11 +14,11 @@ namespace factorwatch::server {
 // congruence per factor and the principal angles, then asset, exposure_change_f1..,
 // standardized_change_f1.., standardized_change_norm, communality_change; largest
 // standardized change first.
-std::string window_drift_csv(const WindowDrift& drift);
+std::string window_drift_csv(const pipeline::WindowDrift& drift);
 
-nlohmann::ordered_json window_drift_json(const WindowDrift& drift);
+nlohmann::ordered_json window_drift_json(const pipeline::WindowDrift& drift);
 
 // "window as of X against the previous window as of Y: compared, 40 shared assets"
-std::string window_drift_title(const WindowDrift& drift);
+std::string window_drift_title(const pipeline::WindowDrift& drift);
 
 }  // namespace factorwatch::server

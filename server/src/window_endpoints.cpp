@@ -2,17 +2,17 @@
 
 #include "endpoint_helpers.h"
 #include "exposures_view.h"
-#include "gzip_body.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "factorwatch/storage/models.h"
+#include "gzip_body.h"
 #include "model_views.h"
 #include "specific_risk_view.h"
 #include "text_format.h"
-#include "window_query.h"
 
 namespace factorwatch::server {
 namespace {
 
-using Render = std::string (*)(const SelectedWindow&, Format);
+using Render = std::string (*)(const pipeline::SelectedWindow&, Format);
 
 // The path every one-window endpoint takes: pick the window from its stamp, serve a
 // cached body when the very same window was rendered before, else read and render.
@@ -21,22 +21,22 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
   const std::string assets = r.parameter("assets").value_or("");
-  const WindowQuery query{r.path_values.at("name"), r.parameter("as_of").value_or(""), split_list(assets)};
+  const pipeline::WindowQuery query{r.path_values.at("name"), r.parameter("as_of").value_or(""), split_list(assets)};
   if (!assets.empty() && query.assets.empty())
     return problem(400, "query parameter 'assets': no asset names (give them comma-separated)", r.path, "assets");
 
   storage::Database& db = context.database();
-  const WindowPick pick = pick_window(db, query);
+  const pipeline::WindowPick pick = pipeline::pick_window(db, query);
   switch (pick.outcome) {
-    case WindowLookup::no_model: return unknown_model(r, query.model);
-    case WindowLookup::bad_as_of:
+    case pipeline::WindowLookup::no_model: return unknown_model(r, query.model);
+    case pipeline::WindowLookup::bad_as_of:
       return problem(400, "query parameter 'as_of': " + pick.message, r.path, "as_of");
-    case WindowLookup::no_window:
+    case pipeline::WindowLookup::no_window:
       return problem(404,
                      (query.as_of.empty() ? "" : "query parameter 'as_of': ") + pick.message +
                          "; start one with POST /v1/models/" + query.model + "/refresh",
                      r.path, query.as_of.empty() ? "" : "as_of");
-    case WindowLookup::found: break;
+    case pipeline::WindowLookup::found: break;
   }
   // Lists of assets are not cached: their reasons for missing assets follow the returns
   // stored, which the window stamp does not cover.
@@ -45,7 +45,7 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
                           std::to_string(pick.model.id) + "|" + pick.stamp.key() + "|" + query.as_of;
   std::shared_ptr<const std::string> body = cacheable ? context.cache->find(key) : nullptr;
   if (!body) {
-    body = std::make_shared<const std::string>(render(read_picked_window(db, pick, query), f));
+    body = std::make_shared<const std::string>(render(pipeline::read_picked_window(db, pick, query), f));
     if (cacheable) context.cache->put(key, body);
   }
   // A whole window is 1-2 MB of digits; gzip takes it to about 40%, compressed once and
@@ -72,11 +72,11 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
   return response;
 }
 
-std::string render_exposures(const SelectedWindow& s, Format f) {
+std::string render_exposures(const pipeline::SelectedWindow& s, Format f) {
   return f == Format::csv ? exposures_csv(s) : exposures_json(s).dump(-1, ' ', false, nlohmann::ordered_json::error_handler_t::replace);
 }
 
-std::string render_specific_risk(const SelectedWindow& s, Format f) {
+std::string render_specific_risk(const pipeline::SelectedWindow& s, Format f) {
   return f == Format::csv ? specific_risk_csv(s) : specific_risk_json(s).dump(-1, ' ', false, nlohmann::ordered_json::error_handler_t::replace);
 }
 

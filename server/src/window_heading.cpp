@@ -4,7 +4,7 @@
 
 namespace factorwatch::server {
 
-nlohmann::ordered_json window_json_heading(const SelectedWindow& s) {
+nlohmann::ordered_json window_json_heading(const pipeline::SelectedWindow& s) {
   nlohmann::ordered_json j;
   j["caution"] = engine::kCaution;
   j["model"] = s.model.name;
@@ -14,18 +14,9 @@ nlohmann::ordered_json window_json_heading(const SelectedWindow& s) {
   return j;
 }
 
-std::string window_csv_heading(const SelectedWindow& s) {
+std::string window_csv_heading(const pipeline::SelectedWindow& s) {
   return "# model " + s.model.name + " version " + std::to_string(s.model.version) + ", window " +
          s.window.first_date + " .. " + s.window.as_of;
-}
-
-std::string factor_basis_text(const SelectedWindow& s) {
-  std::string text = std::string("rotation ") + engine::to_string(s.model.config.rotation) + ", ";
-  const auto& a = s.window.alignment;
-  if (!a) return text + "not aligned yet";
-  if (a->status != "aligned") return text + "alignment: " + a->status;
-  return text + "aligned onto " + (a->reference_as_of.empty() ? "the smoothed reference" : a->reference_as_of) +
-         " (" + a->reference + ")";
 }
 
 }  // namespace factorwatch::server

@@ -6,17 +6,13 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "window_query.h"
+#include "factorwatch/pipeline/window_query.h"
 
 namespace factorwatch::server {
 
-nlohmann::ordered_json window_json_heading(const SelectedWindow& s);
+nlohmann::ordered_json window_json_heading(const pipeline::SelectedWindow& s);
 
 // Without the line end, so that each view can add its own detail.
-std::string window_csv_heading(const SelectedWindow& s);
-
-// The basis the factors are served in: "rotation varimax, aligned onto 2025-12-30
-// (previous)" and the like.
-std::string factor_basis_text(const SelectedWindow& s);
+std::string window_csv_heading(const pipeline::SelectedWindow& s);
 
 }  // namespace factorwatch::server

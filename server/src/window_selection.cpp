@@ -15,27 +15,27 @@ void add_window_options(CLI::App* command, WindowArguments& a) {
 }
 
 int run_on_window(const WindowArguments& a, const GlobalArguments& global, const char* command,
-                  const std::function<void(const SelectedWindow&)>& print) {
+                  const std::function<void(const pipeline::SelectedWindow&)>& print) {
   auto db = open_database(global, command);
   if (!db) return kExitFailed;
   try {
-    const WindowQuery query{a.model, a.as_of, split_list(a.assets)};
-    const WindowPick pick = pick_window(*db, query);
+    const pipeline::WindowQuery query{a.model, a.as_of, split_list(a.assets)};
+    const pipeline::WindowPick pick = pipeline::pick_window(*db, query);
     switch (pick.outcome) {
-      case WindowLookup::no_model:
+      case pipeline::WindowLookup::no_model:
         std::fprintf(stderr, "factorwatch %s: %s (factorwatch model list shows them)\n", command, pick.message.c_str());
         return kExitBadInput;
-      case WindowLookup::bad_as_of:
+      case pipeline::WindowLookup::bad_as_of:
         std::fprintf(stderr, "factorwatch %s: option '--as-of': %s\n", command, pick.message.c_str());
         return kExitBadInput;
-      case WindowLookup::no_window:
+      case pipeline::WindowLookup::no_window:
         std::fprintf(stderr, "factorwatch %s: %s; run: factorwatch refresh %s\n", command, pick.message.c_str(),
                      a.model.c_str());
         return kExitFailed;
-      case WindowLookup::found:
+      case pipeline::WindowLookup::found:
         break;
     }
-    print(read_picked_window(*db, pick, query));
+    print(pipeline::read_picked_window(*db, pick, query));
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch %s: %s\n", command, e.what());
     return kExitFailed;

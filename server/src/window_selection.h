@@ -8,7 +8,7 @@
 #include <string>
 
 #include "cli_common.h"
-#include "window_query.h"
+#include "factorwatch/pipeline/window_query.h"
 
 namespace factorwatch::server {
 
@@ -26,6 +26,6 @@ void add_window_options(CLI::App* command, WindowArguments& arguments);
 // Opens the database, selects the window and hands it to `print`; turns every failure
 // into a message on stderr and an exit code.
 int run_on_window(const WindowArguments& arguments, const GlobalArguments& global, const char* command,
-                  const std::function<void(const SelectedWindow&)>& print);
+                  const std::function<void(const pipeline::SelectedWindow&)>& print);
 
 }  // namespace factorwatch::server

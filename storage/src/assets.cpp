@@ -3,7 +3,7 @@
 #include <SQLiteCpp/SQLiteCpp.h>
 
 #include "asset_directory.h"
-#include "date_key.h"
+#include "factorwatch/storage/date_key.h"
 
 namespace factorwatch::storage {
 
@@ -13,8 +13,8 @@ std::vector<AssetInfo> list_assets(Database& db) {
   while (q.executeStep()) {
     AssetInfo a;
     a.name = q.getColumn(0).getString();
-    if (!q.getColumn(1).isNull()) a.first_date = detail::iso_date(q.getColumn(1).getInt());
-    if (!q.getColumn(2).isNull()) a.last_date = detail::iso_date(q.getColumn(2).getInt());
+    if (!q.getColumn(1).isNull()) a.first_date = iso_date(q.getColumn(1).getInt());
+    if (!q.getColumn(2).isNull()) a.last_date = iso_date(q.getColumn(2).getInt());
     out.push_back(std::move(a));
   }
   return out;

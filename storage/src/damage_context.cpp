@@ -2,7 +2,7 @@
 
 #include <SQLiteCpp/SQLiteCpp.h>
 
-#include "date_key.h"
+#include "factorwatch/storage/date_key.h"
 
 namespace factorwatch::storage::detail {
 

@@ -173,6 +173,13 @@ void Database::open_read_only() {
 
 Database::~Database() = default;
 
+WriteBatch::WriteBatch(Database& db)
+    : transaction_(std::make_unique<SQLite::Transaction>(db.sql(), SQLite::TransactionBehavior::IMMEDIATE)) {}
+
+WriteBatch::~WriteBatch() = default;
+
+void WriteBatch::commit() { transaction_->commit(); }
+
 detail::AssetDirectory& Database::assets() {
   if (!assets_) assets_ = std::make_unique<detail::AssetDirectory>(*db_);
   return *assets_;

@@ -1,4 +1,4 @@
-#include "date_key.h"
+#include "factorwatch/storage/date_key.h"
 
 #include <cstdio>
 #include <ctime>
@@ -7,11 +7,11 @@
 #include "cell_parse.h"
 #include "factorwatch/storage/timestamps.h"
 
-namespace factorwatch::storage::detail {
+namespace factorwatch::storage {
 
 std::int32_t date_key(std::string_view iso, const char* what) {
-  const auto key = parse_iso_date(iso);
-  if (!key) throw std::invalid_argument(std::string(what) + " " + quoted(iso) + " is not a date in the form yyyy-mm-dd");
+  const auto key = detail::parse_iso_date(iso);
+  if (!key) throw std::invalid_argument(std::string(what) + " " + detail::quoted(iso) + " is not a date in the form yyyy-mm-dd");
   return *key;
 }
 
@@ -31,11 +31,7 @@ std::string utc_now() {
   return text;
 }
 
-}  // namespace factorwatch::storage::detail
-
-namespace factorwatch::storage {
-
-std::string utc_timestamp() { return detail::utc_now(); }
+std::string utc_timestamp() { return utc_now(); }
 
 bool is_calendar_date(std::string_view text) { return detail::parse_iso_date(text).has_value(); }
 

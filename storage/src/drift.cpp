@@ -10,9 +10,8 @@
 #include "asset_directory.h"
 #include "blob_codec.h"
 #include "damage_context.h"
-#include "date_key.h"
+#include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/windows.h"
-#include "window_comparison.h"
 
 namespace factorwatch::storage {
 namespace {
@@ -36,11 +35,11 @@ DateRange date_range(const std::string& column, const std::string& from, const s
   DateRange r;
   if (!from.empty()) {
     r.sql += " AND " + column + " >= ?";
-    r.values.push_back(detail::date_key(from, "from date"));
+    r.values.push_back(date_key(from, "from date"));
   }
   if (!to.empty()) {
     r.sql += " AND " + column + " <= ?";
-    r.values.push_back(detail::date_key(to, "to date"));
+    r.values.push_back(date_key(to, "to date"));
   }
   return r;
 }
@@ -71,9 +70,9 @@ std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const s
   std::vector<DriftRecord> out;
   while (q.executeStep()) {
     DriftRecord r;
-    r.as_of = detail::iso_date(q.getColumn(0).getInt());
+    r.as_of = iso_date(q.getColumn(0).getInt());
     r.against = q.getColumn(1).getString();
-    r.against_as_of = detail::iso_date(q.getColumn(2).getInt());
+    r.against_as_of = iso_date(q.getColumn(2).getInt());
     r.status = q.getColumn(3).getString();
     r.shared = q.getColumn(4).getInt64();
     try {
@@ -107,9 +106,9 @@ std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const s
   std::vector<DriftAlert> out;
   while (q.executeStep()) {
     DriftAlert a;
-    a.as_of = detail::iso_date(q.getColumn(0).getInt());
+    a.as_of = iso_date(q.getColumn(0).getInt());
     a.against = q.getColumn(1).getString();
-    a.against_as_of = detail::iso_date(q.getColumn(2).getInt());
+    a.against_as_of = iso_date(q.getColumn(2).getInt());
     a.factor = q.getColumn(3).getInt();
     a.congruence = q.getColumn(4).getDouble();
     if (a.congruence < -1.5) a.congruence = std::numeric_limits<double>::quiet_NaN();  // a vanished factor
@@ -121,8 +120,8 @@ std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const s
   return out;
 }
 
-std::vector<ExposurePoint> read_exposure_history(Database& db, long model_version_id, const std::string& asset,
-                                                 const std::string& from, const std::string& to) {
+std::vector<StoredExposure> read_stored_exposures(Database& db, long model_version_id, const std::string& asset,
+                                                  const std::string& from, const std::string& to) {
   const std::int32_t id = db.assets().id(asset);
   const DateRange range = date_range("w.as_of", from, to);
   // Only the columns an asset's row needs: not the statistics, means or eigenvalues.
@@ -134,10 +133,10 @@ std::vector<ExposurePoint> read_exposure_history(Database& db, long model_versio
   int index = 1;
   q.bind(index++, static_cast<std::int64_t>(model_version_id));
   for (std::int32_t v : range.values) q.bind(index++, v);
-  std::vector<ExposurePoint> out;
+  std::vector<StoredExposure> out;
   while (q.executeStep()) {
-    ExposurePoint p;
-    p.as_of = detail::iso_date(q.getColumn(0).getInt());
+    StoredExposure p;
+    p.as_of = iso_date(q.getColumn(0).getInt());
     p.alignment = q.getColumn(9).isNull() ? "not aligned yet" : q.getColumn(9).getString();
     try {
       const SQLite::Column ids = q.getColumn(2);
@@ -153,12 +152,10 @@ std::vector<ExposurePoint> read_exposure_history(Database& db, long model_versio
         const Eigen::VectorXd communality = vector_column(q, 5, "communality");
         if (loadings.rows() != static_cast<Eigen::Index>(assets.size()) || specific.size() <= r || communality.size() <= r)
           throw DamagedData("the asset list and the loadings disagree in length");
-        Eigen::RowVectorXd exposures = loadings.row(r);
-        // The served basis: rotation T, then alignment R (orthogonal, or a change of basis).
-        if (!q.getColumn(7).isNull()) exposures = exposures * matrix_column(q, 7, "rotation");
-        if (!q.getColumn(8).isNull()) exposures = exposures * matrix_column(q, 8, "alignment");
         p.present = true;
-        p.exposures = exposures.transpose();
+        p.fitted_exposures = loadings.row(r).transpose();
+        if (!q.getColumn(7).isNull()) p.rotation = matrix_column(q, 7, "rotation");
+        if (!q.getColumn(8).isNull()) p.alignment_matrix = matrix_column(q, 8, "alignment");
         p.specific_variance = specific(r);
         p.communality = communality(r);
       }
@@ -168,17 +165,6 @@ std::vector<ExposurePoint> read_exposure_history(Database& db, long model_versio
     out.push_back(std::move(p));
   }
   return out;
-}
-
-std::optional<engine::DriftComparison> compare_stored_windows(Database& db, long model_version_id,
-                                                              const std::string& as_of,
-                                                              const std::string& against_as_of, int min_shared) {
-  const auto now = read_window(db, model_version_id, as_of, false);
-  const auto then = read_window(db, model_version_id, against_as_of, false);
-  if (!now || !then || !now->fit.IsSolutionUsable() || !then->fit.IsSolutionUsable()) return std::nullopt;
-  // As the refresh compared them (window_comparison.h).
-  return detail::compare_served(now->fit, then->fit, min_shared,
-                                detail::aligned_directly_onto(now->alignment, then->as_of));
 }
 
 }  // namespace factorwatch::storage

@@ -12,7 +12,7 @@
 #include <vector>
 
 #include "blob_codec.h"
-#include "date_key.h"
+#include "factorwatch/storage/date_key.h"
 #include "returns_rows.h"
 
 namespace factorwatch::storage {
@@ -106,7 +106,7 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
   detail::CrossSectionWriter writer(sql);
 
   for (Eigen::Index t = 0; t < panel.periods(); ++t) {
-    const std::int32_t date = detail::date_key(panel.dates[static_cast<std::size_t>(t)]);
+    const std::int32_t date = date_key(panel.dates[static_cast<std::size_t>(t)]);
     reader.read(date, stored);
     merged.clear();
     std::size_t s = 0, added = 0, corrected = 0;
@@ -165,7 +165,7 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
                         "outcome, seconds) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
   run.bind(1, source.path);
   run.bind(2, source.content_sha256);
-  run.bind(3, detail::utc_now());
+  run.bind(3, utc_now());
   run.bind(4, source.layout);
   run.bind(5, source.values_in_file);
   run.bind(6, static_cast<std::int64_t>(source.data_rows));
@@ -173,8 +173,8 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
     run.bind(7);
     run.bind(8);
   } else {
-    run.bind(7, detail::date_key(summary.first_date));
-    run.bind(8, detail::date_key(summary.last_date));
+    run.bind(7, date_key(summary.first_date));
+    run.bind(8, date_key(summary.last_date));
   }
   run.bind(9, static_cast<std::int64_t>(summary.values_new));
   run.bind(10, static_cast<std::int64_t>(summary.values_unchanged));

@@ -10,7 +10,7 @@
 #include <stdexcept>
 
 #include "cell_parse.h"
-#include "date_key.h"
+#include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/input_error.h"
 #include "fingerprint.h"
@@ -221,7 +221,7 @@ SetModelOutcome set_model(Database& db, const std::string& name, const ModelConf
   } else {
     SQLite::Statement insert(sql, "INSERT INTO models (name, created_at) VALUES (?, ?)");
     insert.bind(1, name);
-    insert.bind(2, detail::utc_now());
+    insert.bind(2, utc_now());
     insert.exec();
     model_id = static_cast<long>(sql.getLastInsertRowid());
     outcome.created = true;
@@ -233,7 +233,7 @@ SetModelOutcome set_model(Database& db, const std::string& name, const ModelConf
   insert.bind(2, current ? current->version + 1 : 1);
   insert.bind(3, config.to_json().dump());
   insert.bind(4, hash);
-  insert.bind(5, detail::utc_now());
+  insert.bind(5, utc_now());
   insert.exec();
   transaction.commit();
   outcome.new_version = true;

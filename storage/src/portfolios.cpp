@@ -11,7 +11,7 @@
 #include <unordered_set>
 
 #include "cell_parse.h"
-#include "date_key.h"
+#include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/identifier_rule.h"
 #include "holdings_file.h"
 
@@ -20,7 +20,7 @@ namespace {
 
 // A date argument as stored (yyyymmdd); "" means no limit.
 std::int32_t date_limit(const std::string& as_of) {
-  return as_of.empty() ? 99991231 : detail::date_key(as_of, "as-of date");
+  return as_of.empty() ? 99991231 : date_key(as_of, "as-of date");
 }
 
 // What parse_portfolio_text guarantees, checked again because a Portfolio may also be
@@ -29,7 +29,7 @@ void check_storable(const Portfolio& p) {
   auto fail = [](const std::string& problem) { throw std::invalid_argument(problem); };
   if (!is_portfolio_name(p.name))
     fail("portfolio name '" + p.name + "': use 1 to 64 letters, digits, '.', '_' or '-'");
-  detail::date_key(p.as_of, "as-of date");
+  date_key(p.as_of, "as-of date");
   if (!p.benchmark.empty() && !is_portfolio_name(p.benchmark))
     fail("benchmark name '" + p.benchmark + "': use 1 to 64 letters, digits, '.', '_' or '-'");
   if (p.benchmark == p.name) fail("portfolio '" + p.name + "' cannot be its own benchmark");
@@ -74,7 +74,7 @@ SavePortfolioOutcome save_portfolio(Database& db, const Portfolio& portfolio) {
   for (engine::Holding& h : holdings) h.weight = detail::stored_weight(h.weight);
   // Recomputed rather than trusted: the stored hash always describes the stored rows.
   const std::string hash = detail::holdings_sha256(holdings, portfolio.benchmark);
-  const std::int32_t as_of = detail::date_key(portfolio.as_of, "as-of date");
+  const std::int32_t as_of = date_key(portfolio.as_of, "as-of date");
 
   SQLite::Database& sql = db.sql();
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
@@ -92,7 +92,7 @@ SavePortfolioOutcome save_portfolio(Database& db, const Portfolio& portfolio) {
   if (id == 0) {
     SQLite::Statement insert(sql, "INSERT INTO portfolios (name, created_at) VALUES (?, ?)");
     insert.bind(1, portfolio.name);
-    insert.bind(2, detail::utc_now());
+    insert.bind(2, utc_now());
     insert.exec();
     id = sql.getLastInsertRowid();
     outcome.created = true;
@@ -113,7 +113,7 @@ SavePortfolioOutcome save_portfolio(Database& db, const Portfolio& portfolio) {
     }
   }
 
-  const std::string now = detail::utc_now();
+  const std::string now = utc_now();
   if (set_id != 0) {
     SQLite::Statement clear(sql, "DELETE FROM holdings WHERE set_id = ?");
     clear.bind(1, set_id);
@@ -168,7 +168,7 @@ std::optional<Portfolio> read_portfolio(Database& db, const std::string& name, c
   if (!q.executeStep()) return std::nullopt;
   Portfolio p;
   p.name = name;
-  p.as_of = detail::iso_date(q.getColumn(1).getInt64());
+  p.as_of = iso_date(q.getColumn(1).getInt64());
   p.benchmark = q.getColumn(2).isNull() ? "" : q.getColumn(2).getString();
   p.source = q.getColumn(3).getString();
   p.content_sha256 = q.getColumn(4).getString();
@@ -191,7 +191,7 @@ std::vector<PortfolioSummary> list_portfolios(Database& db) {
   while (q.executeStep()) {
     PortfolioSummary s;
     s.name = q.getColumn(0).getString();
-    s.latest_as_of = detail::iso_date(q.getColumn(2).getInt64());
+    s.latest_as_of = iso_date(q.getColumn(2).getInt64());
     s.benchmark = q.getColumn(3).isNull() ? "" : q.getColumn(3).getString();
     s.stored_at = q.getColumn(4).getString();
     s.dates = static_cast<std::size_t>(q.getColumn(5).getInt64());
@@ -210,12 +210,12 @@ std::vector<std::string> portfolio_dates(Database& db, const std::string& name) 
                       "WHERE p.name = ? ORDER BY s.as_of");
   q.bind(1, name);
   std::vector<std::string> out;
-  while (q.executeStep()) out.push_back(detail::iso_date(q.getColumn(0).getInt64()));
+  while (q.executeStep()) out.push_back(iso_date(q.getColumn(0).getInt64()));
   return out;
 }
 
 std::size_t delete_portfolio(Database& db, const std::string& name, const std::string& as_of) {
-  const std::int32_t date = as_of.empty() ? 0 : detail::date_key(as_of, "as-of date");
+  const std::int32_t date = as_of.empty() ? 0 : date_key(as_of, "as-of date");
   SQLite::Database& sql = db.sql();
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
   const std::int64_t id = portfolio_id(sql, name);

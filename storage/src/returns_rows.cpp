@@ -4,8 +4,8 @@
 #include <string>
 
 #include "blob_codec.h"
-#include "date_key.h"
 #include "factorwatch/storage/damaged_data.h"
+#include "factorwatch/storage/date_key.h"
 #include "fingerprint.h"
 
 namespace factorwatch::storage::detail {

@@ -1,4 +1,6 @@
-#include "returns_span.h"
+#include "factorwatch/storage/returns_span.h"
+
+#include <SQLiteCpp/SQLiteCpp.h>
 
 #include <algorithm>
 #include <cmath>
@@ -6,21 +8,36 @@
 #include <stdexcept>
 #include <string>
 
-#include "date_key.h"
+#include "asset_directory.h"
+#include "factorwatch/storage/date_key.h"
 #include "fingerprint.h"
 #include "returns_rows.h"
 
-namespace factorwatch::storage::detail {
+namespace factorwatch::storage {
 
-std::vector<std::int32_t> stored_dates(SQLite::Database& sql) {
+using detail::CrossSection;
+using detail::Fingerprint;
+
+std::vector<std::int32_t> stored_dates(Database& db) {
   std::vector<std::int32_t> dates;
-  SQLite::Statement q(sql, "SELECT date FROM returns ORDER BY date");
+  SQLite::Statement q(db.sql(), "SELECT date FROM returns ORDER BY date");
   while (q.executeStep()) dates.push_back(q.getColumn(0).getInt());
   return dates;
 }
 
-ReturnsSpan::ReturnsSpan(SQLite::Database& sql, AssetDirectory& directory, std::int32_t first, std::int32_t last,
-                         const std::vector<std::int32_t>& universe) {
+std::vector<std::int32_t> stored_asset_ids(Database& db, const std::vector<std::string>& names) {
+  std::vector<std::int32_t> ids;
+  for (const std::string& name : names) {
+    const std::int32_t id = db.assets().id(name);
+    if (id >= 0) ids.push_back(id);
+  }
+  std::sort(ids.begin(), ids.end());
+  return ids;
+}
+
+ReturnsSpan::ReturnsSpan(Database& db, std::int32_t first, std::int32_t last, const std::vector<std::int32_t>& universe) {
+  SQLite::Database& sql = db.sql();
+  detail::AssetDirectory& directory = db.assets();
   std::vector<std::int32_t> ids = universe;
   if (ids.empty()) {
     SQLite::Statement q(sql, "SELECT id FROM assets WHERE first_date <= ? AND last_date >= ? ORDER BY id");
@@ -50,7 +67,7 @@ ReturnsSpan::ReturnsSpan(SQLite::Database& sql, AssetDirectory& directory, std::
   Eigen::Index t = 0;
   while (t < rows && q.executeStep()) {
     const std::int32_t date = q.getColumn(0).getInt();
-    decode_cross_section(date, q.getColumn(1), q.getColumn(2), q.getColumn(3), row);  // ids > 0, ascending
+    detail::decode_cross_section(date, q.getColumn(1), q.getColumn(2), q.getColumn(3), row);  // ids > 0, ascending
     dates_.push_back(date);
     checksums_.push_back(q.getColumn(3).getInt64());
     double* out = values_.data() + t * values_.cols();
@@ -77,8 +94,8 @@ std::uint64_t ReturnsSpan::rows_digest(std::size_t begin, std::size_t count) con
   return f.value();
 }
 
-std::uint64_t stored_rows_digest(SQLite::Database& sql, std::int32_t first, std::int32_t last) {
-  SQLite::Statement q(sql, "SELECT date, checksum FROM returns WHERE date BETWEEN ? AND ? ORDER BY date");
+std::uint64_t stored_rows_digest(Database& db, std::int32_t first, std::int32_t last) {
+  SQLite::Statement q(db.sql(), "SELECT date, checksum FROM returns WHERE date BETWEEN ? AND ? ORDER BY date");
   q.bind(1, first);
   q.bind(2, last);
   Fingerprint f;
@@ -131,4 +148,4 @@ std::string panel_fingerprint(const engine::ReturnsPanel& panel) {
   return f.hex();
 }
 
-}  // namespace factorwatch::storage::detail
+}  // namespace factorwatch::storage

@@ -9,7 +9,7 @@
 
 #include "blob_codec.h"
 #include "damage_context.h"
-#include "date_key.h"
+#include "factorwatch/storage/date_key.h"
 #include "returns_rows.h"
 
 namespace factorwatch::storage {
@@ -87,7 +87,7 @@ VerifyReport verify_database(Database& db) {
         // The reader's advice ("... or run factorwatch verify") is for other commands.
         std::string what = e.what();
         what = what.substr(0, what.find("; restore the database"));
-        report.problems.push_back({"returns", "date " + detail::iso_date(date), what});
+        report.problems.push_back({"returns", "date " + iso_date(date), what});
       }
     }
   }

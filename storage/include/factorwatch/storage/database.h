@@ -12,6 +12,7 @@
 
 namespace SQLite {
 class Database;
+class Transaction;
 }
 
 namespace factorwatch::storage {
@@ -48,6 +49,21 @@ class Database {
   bool read_only_ = false, immutable_ = false;
   std::unique_ptr<SQLite::Database> db_;
   std::unique_ptr<detail::AssetDirectory> assets_;
+};
+
+// Several writes in one transaction, taken with the write lock at once (BEGIN IMMEDIATE),
+// for a caller outside storage that writes many small rows through storage's functions
+// (the alignment pass). What is not committed when it is destroyed is rolled back.
+class WriteBatch {
+ public:
+  explicit WriteBatch(Database& db);
+  ~WriteBatch();
+  WriteBatch(const WriteBatch&) = delete;
+  WriteBatch& operator=(const WriteBatch&) = delete;
+  void commit();
+
+ private:
+  std::unique_ptr<SQLite::Transaction> transaction_;
 };
 
 // The schema version this build writes (the number of migrations it knows).

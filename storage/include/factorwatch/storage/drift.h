@@ -2,6 +2,8 @@
 // previous usable window and with the pinned window (congruence per factor, principal
 // angles, changes of factor variances and explained shares, the assets that moved most),
 // and the alerts the model's thresholds raised. Also an asset's exposures across windows.
+// The pass that computes and writes them is the pipeline's (pipeline/src/align_windows.cpp);
+// its rows are written through window_alignments.h.
 #pragma once
 
 #include <Eigen/Dense>
@@ -46,24 +48,20 @@ std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const s
 std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const std::string& from,
                                     const std::string& to);
 
-// One window in an asset's history: its served exposures (rotated and aligned), specific
-// variance and communality, or absent (not in that window's fitted assets).
-struct ExposurePoint {
+// One window in an asset's history as stored: its exposures as fitted with the window's
+// rotation T and alignment R beside them (the served exposures are the row times T times
+// R, which the pipeline composes), its specific variance and communality; or absent (not
+// in that window's fitted assets, or the fit is not usable).
+struct StoredExposure {
   std::string as_of;
   bool present = false;
-  Eigen::VectorXd exposures;  // k, return units
+  Eigen::VectorXd fitted_exposures;  // k, return units, as the engine fitted them
+  Eigen::MatrixXd rotation;          // T; empty when none
+  Eigen::MatrixXd alignment_matrix;  // R; empty until aligned
   double specific_variance = 0, communality = 0;
   std::string alignment;  // the window's alignment status
 };
-std::vector<ExposurePoint> read_exposure_history(Database& db, long model_version_id, const std::string& asset,
-                                                 const std::string& from, const std::string& to);
-
-// The whole comparison of one window with another, computed from the stored (served)
-// factors: every shared asset's change, not only the movers kept. nullopt when either
-// window is missing.
-std::optional<engine::DriftComparison> compare_stored_windows(Database& db, long model_version_id,
-                                                              const std::string& as_of,
-                                                              const std::string& against_as_of,
-                                                              int min_shared);
+std::vector<StoredExposure> read_stored_exposures(Database& db, long model_version_id, const std::string& asset,
+                                                  const std::string& from, const std::string& to);
 
 }  // namespace factorwatch::storage

@@ -26,11 +26,6 @@ struct WindowAlignment {
   std::string aligned_at;    // UTC
 };
 
-// Which factors read_window returns: as the engine fitted them (canonical form; what the
-// next window warm-starts from), or as served: rotated by the model's rotation and
-// aligned onto the reference (what every surface shows; the same model L Phi L').
-enum class WindowForm { as_fitted, served };
-
 struct WindowRecord {
   std::string as_of;       // the window's last date
   std::string first_date;  // its first date
@@ -101,6 +96,14 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& window
 
 std::vector<WindowSummary> list_windows(Database& db, long model_version_id);
 
+// Which windows a model version has, and whether each is stale: what the refresh plans
+// from, without reading a window's statistics. as_of is a date key (date_key.h).
+struct WindowState {
+  std::int32_t as_of = 0;
+  bool stale = false;
+};
+std::vector<WindowState> window_states(Database& db, long model_version_id);
+
 // How many windows a model version has, how many are stale, and the latest as-of date
 // ("" when none): one aggregate query, no statistics parsed.
 struct WindowCounts {
@@ -111,16 +114,15 @@ struct WindowCounts {
 WindowCounts count_windows(Database& db, long model_version_id);
 
 // The window with this as-of date, or with `at_or_before` the latest one at or before it;
-// as_of "" means the latest window. nullopt when there is none.
+// as_of "" means the latest window. nullopt when there is none. Its fit is as the engine
+// returned it (the canonical form the next window warm-starts from), with the rotation T
+// and the alignment R stored beside it; the factors every surface shows are that fit
+// turned by T and R, which the pipeline composes (pipeline/served_windows.h).
 std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
-                                        bool at_or_before = true, WindowForm form = WindowForm::served);
+                                        bool at_or_before = true);
 
 // The alignment row of a window (by its row id); nullopt until the refresh aligned it.
 std::optional<WindowAlignment> read_alignment(Database& db, long long window_id);
-
-// The fit's served form: rotation T, then alignment R (when given), applied to the loadings
-// and the factor covariance (engine::change_factor_basis).
-void serve_factors(engine::FactorFit& fit, const Eigen::MatrixXd& rotation, const WindowAlignment* alignment);
 
 // The stamp of the window read_window would return, from one indexed row, no BLOBs.
 // Throws std::invalid_argument for a malformed as-of date.

@@ -6,7 +6,7 @@
 
 #include <functional>
 
-namespace factorwatch::storage::detail {
+namespace factorwatch::pipeline::detail {
 
 struct RefreshHooks {
   std::function<void()> before_read;  // the plan is made; its span of returns not read yet
@@ -15,4 +15,4 @@ struct RefreshHooks {
 
 RefreshHooks& refresh_hooks();
 
-}  // namespace factorwatch::storage::detail
+}  // namespace factorwatch::pipeline::detail

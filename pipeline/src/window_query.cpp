@@ -1,11 +1,12 @@
-#include "window_query.h"
+#include "factorwatch/pipeline/window_query.h"
 
 #include <stdexcept>
 #include <unordered_map>
 
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/assets.h"
 
-namespace factorwatch::server {
+namespace factorwatch::pipeline {
 
 std::string factor_name(Eigen::Index j) { return "f" + std::to_string(j + 1); }
 
@@ -45,7 +46,7 @@ WindowPick pick_window(storage::Database& db, const WindowQuery& q) {
 SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick, const WindowQuery& q) {
   SelectedWindow s;
   s.model = pick.model;
-  auto window = storage::read_window(db, pick.model.id, pick.stamp.as_of, false);
+  auto window = read_served_window(db, pick.model.id, pick.stamp.as_of, false);
   if (!window) throw std::runtime_error("the window of " + pick.stamp.as_of + " was replaced while being read; ask again");
   s.window = std::move(*window);
   if (!q.as_of.empty() && s.window.as_of != q.as_of)
@@ -74,4 +75,20 @@ SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick,
   return s;
 }
 
-}  // namespace factorwatch::server
+std::string factor_basis_text(const SelectedWindow& s) {
+  std::string text = std::string("rotation ") + engine::to_string(s.model.config.rotation) + ", ";
+  const auto& a = s.window.alignment;
+  if (!a) return text + "not aligned yet";
+  if (a->status != "aligned") return text + "alignment: " + a->status;
+  return text + "aligned onto " + (a->reference_as_of.empty() ? "the smoothed reference" : a->reference_as_of) +
+         " (" + a->reference + ")";
+}
+
+engine::Frequency window_frequency(const SelectedWindow& s) {
+  const auto periods = s.window.fit.periods;
+  if (periods < 2) return {};
+  return engine::frequency_from_gap(static_cast<double>(engine::days_between(s.window.first_date, s.window.as_of)) /
+                                    static_cast<double>(periods - 1));
+}
+
+}  // namespace factorwatch::pipeline

@@ -1,4 +1,4 @@
-#include "factor_returns_query.h"
+#include "factorwatch/pipeline/factor_returns_query.h"
 
 #include <algorithm>
 #include <stdexcept>
@@ -6,7 +6,7 @@
 #include "factorwatch/storage/assets.h"
 #include "factorwatch/storage/timestamps.h"
 
-namespace factorwatch::server {
+namespace factorwatch::pipeline {
 namespace {
 
 QueryFailure parse_method(const std::string& text, engine::ScoreMethod& method) {
@@ -74,7 +74,7 @@ std::string series_basis_text(const storage::ModelConfig& c) {
 
 Eigen::Index series_factor_columns(const FactorReturnSeriesAnswer& a) {
   Eigen::Index k = a.model.config.factors;
-  for (const storage::FactorReturnRow& r : a.series.rows) k = std::max(k, r.scores.size());
+  for (const FactorReturnRow& r : a.series.rows) k = std::max(k, r.scores.size());
   return k;
 }
 
@@ -91,7 +91,7 @@ QueryFailure find_factor_return_series(storage::Database& db, const RangeQuery& 
   out.model = *model;
   out.from = q.from;
   out.to = q.to;
-  out.series = storage::factor_return_series(db, out.model.id, q.from, q.to, method);
+  out.series = factor_return_series(db, out.model.id, q.from, q.to, method);
   return {};
 }
 
@@ -101,7 +101,7 @@ QueryFailure find_window_factor_returns(storage::Database& db, const std::string
   if (auto f = parse_method(method_text, method)) return f;
   if (auto f = check_date("window", window)) return f;
   if (auto f = select_window(db, WindowQuery{model, window, {}}, out.window)) return f;
-  storage::WindowScores s = storage::window_scores(db, out.window.model.id, out.window.window.as_of, method, false);
+  WindowScores s = window_scores(db, out.window.model.id, out.window.window.as_of, method, false);
   if (!s.ok()) return query_failure(QueryOutcome::not_found, "window", window, s.failure);
   out.scores = std::move(s.scores);
   return {};
@@ -120,9 +120,9 @@ QueryFailure find_asset_residuals(storage::Database& db, const std::string& mode
   if (!out.window.missing.empty())
     return query_failure(QueryOutcome::unknown_asset, "asset", asset,
                    "not in the window as of " + out.window.window.as_of + ": " + out.window.missing.front().reason);
-  out.residuals = storage::asset_residuals(db, out.window.model.id, out.window.window.as_of, asset, method, false);
+  out.residuals = asset_residuals(db, out.window.model.id, out.window.window.as_of, asset, method, false);
   if (!out.residuals.ok()) return query_failure(QueryOutcome::not_found, "window", window, out.residuals.failure);
   return {};
 }
 
-}  // namespace factorwatch::server
+}  // namespace factorwatch::pipeline

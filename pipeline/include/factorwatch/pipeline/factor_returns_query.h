@@ -8,12 +8,12 @@
 
 #include <string>
 
-#include "drift_query.h"
 #include "factorwatch/engine/factor_scores.h"
-#include "factorwatch/storage/factor_returns.h"
-#include "window_query.h"
+#include "factorwatch/pipeline/drift_query.h"
+#include "factorwatch/pipeline/factor_returns.h"
+#include "factorwatch/pipeline/window_query.h"
 
-namespace factorwatch::server {
+namespace factorwatch::pipeline {
 
 // What the numbers are, in words, for every heading and the JSON's "description":
 // "factor returns (Bartlett weighted least squares scores of the centred returns)".
@@ -23,7 +23,7 @@ std::string factor_returns_description(engine::ScoreMethod method);
 struct FactorReturnSeriesAnswer {
   storage::ModelVersion model;
   std::string from, to;  // as asked ("" = open end)
-  storage::FactorReturnSeries series;
+  FactorReturnSeries series;
 };
 // `method`: bartlett, regression, or "" (bartlett).
 QueryFailure find_factor_return_series(storage::Database& db, const RangeQuery& query, const std::string& method,
@@ -41,7 +41,7 @@ QueryFailure find_window_factor_returns(storage::Database& db, const std::string
 // One asset's residual returns over one window.
 struct AssetResidualAnswer {
   SelectedWindow window;
-  storage::AssetResiduals residuals;
+  AssetResiduals residuals;
 };
 QueryFailure find_asset_residuals(storage::Database& db, const std::string& model, const std::string& asset,
                                   const std::string& window, const std::string& method, AssetResidualAnswer& out);
@@ -52,4 +52,4 @@ std::string series_basis_text(const storage::ModelConfig& config);
 // The number of factor columns a series needs (the model's, or more if a row has more).
 Eigen::Index series_factor_columns(const FactorReturnSeriesAnswer& answer);
 
-}  // namespace factorwatch::server
+}  // namespace factorwatch::pipeline

@@ -3,13 +3,13 @@
 #include "factorwatch/engine/alignment.h"
 #include "factorwatch/engine/factor_basis.h"
 
-namespace factorwatch::storage::detail {
+namespace factorwatch::pipeline::detail {
 
 engine::WindowFactors factors_of(const engine::FactorFit& fit) {
   return {fit.assets, fit.loadings, fit.scale, fit.factor_covariance, fit.explained_share};
 }
 
-bool aligned_directly_onto(const std::optional<WindowAlignment>& alignment, const std::string& as_of) {
+bool aligned_directly_onto(const std::optional<storage::WindowAlignment>& alignment, const std::string& as_of) {
   return alignment && alignment->status == engine::to_string(engine::AlignmentStatus::aligned) &&
          alignment->reference_as_of == as_of;
 }
@@ -20,4 +20,4 @@ engine::DriftComparison compare_served(const engine::FactorFit& now, const engin
   return engine::compare_factors(factors_of(engine::rotated_onto(now, then, min_shared)), factors_of(then), min_shared);
 }
 
-}  // namespace factorwatch::storage::detail
+}  // namespace factorwatch::pipeline::detail

@@ -1,16 +1,21 @@
-#include "factorwatch/storage/factor_returns.h"
+#include "factorwatch/pipeline/factor_returns.h"
 
 #include <algorithm>
 #include <cstdint>
 #include <optional>
 
-#include "asset_directory.h"
-#include "date_key.h"
+#include "factorwatch/pipeline/served_windows.h"
+#include "factorwatch/storage/date_key.h"
+#include "factorwatch/storage/returns_span.h"
 #include "factorwatch/storage/windows.h"
-#include "returns_span.h"
 
-namespace factorwatch::storage {
+namespace factorwatch::pipeline {
 namespace {
+
+using storage::Database;
+using storage::date_key;
+using storage::WindowRecord;
+using storage::WindowSummary;
 
 // As in the refresh: a span holds at most this many as-of dates of a series, which bounds
 // its memory by that many rows of the stored assets (250 x 5000 doubles = 10 MB).
@@ -27,15 +32,10 @@ std::string no_window(const std::string& as_of, bool at_or_before) {
 
 // The stored returns of the window's dates and fitted assets, read as the refresh reads them.
 engine::ReturnsPanel window_panel(Database& db, const WindowRecord& w) {
-  std::vector<std::int32_t> ids;
-  for (const std::string& name : w.fit.assets) {
-    const std::int32_t id = db.assets().id(name);
-    if (id >= 0) ids.push_back(id);
-  }
+  const std::vector<std::int32_t> ids = storage::stored_asset_ids(db, w.fit.assets);
   engine::ReturnsPanel panel;
   if (ids.empty()) return panel;  // an empty universe would mean every stored asset
-  std::sort(ids.begin(), ids.end());
-  const detail::ReturnsSpan span(db.sql(), db.assets(), detail::date_key(w.first_date), detail::date_key(w.as_of), ids);
+  const storage::ReturnsSpan span(db, date_key(w.first_date), date_key(w.as_of), ids);
   return span.window(0, span.dates().size());
 }
 
@@ -49,7 +49,7 @@ struct ScoredWindow {
 ScoredWindow score_window(Database& db, long model_version_id, const std::string& as_of, engine::ScoreMethod method,
                           bool at_or_before) {
   ScoredWindow s;
-  s.window = read_window(db, model_version_id, as_of, at_or_before, WindowForm::served);
+  s.window = read_served_window(db, model_version_id, as_of, at_or_before);
   if (!s.window) {
     s.failure = no_window(as_of, at_or_before);
     return s;
@@ -90,12 +90,12 @@ WindowScores window_scores(Database& db, long model_version_id, const std::strin
 // while each night is scored with the model that was current that night (no look-ahead).
 FactorReturnSeries factor_return_series(Database& db, long model_version_id, const std::string& from,
                                         const std::string& to, engine::ScoreMethod method) {
-  if (!from.empty()) detail::date_key(from, "from date");  // throws on a malformed date
-  if (!to.empty()) detail::date_key(to, "to date");
+  if (!from.empty()) date_key(from, "from date");  // throws on a malformed date
+  if (!to.empty()) date_key(to, "to date");
   FactorReturnSeries series;
   series.method = method;
   std::vector<std::string> usable;
-  for (const WindowSummary& w : list_windows(db, model_version_id)) {
+  for (const WindowSummary& w : storage::list_windows(db, model_version_id)) {
     if (!in_range(w.as_of, from, to)) continue;
     if (w.usable)
       usable.push_back(w.as_of);
@@ -108,16 +108,15 @@ FactorReturnSeries factor_return_series(Database& db, long model_version_id, con
   // reading them); the engine ignores the columns a window did not fit.
   for (std::size_t chunk = 0; chunk < usable.size(); chunk += kDatesPerSpan) {
     const std::size_t end = std::min(usable.size(), chunk + kDatesPerSpan);
-    const detail::ReturnsSpan span(db.sql(), db.assets(), detail::date_key(usable[chunk]),
-                                   detail::date_key(usable[end - 1]), {});
+    const storage::ReturnsSpan span(db, date_key(usable[chunk]), date_key(usable[end - 1]), {});
     const std::vector<std::int32_t>& dates = span.dates();
     for (std::size_t u = chunk; u < end; ++u) {
-      const std::optional<WindowRecord> w = read_window(db, model_version_id, usable[u], false, WindowForm::served);
+      const std::optional<WindowRecord> w = read_served_window(db, model_version_id, usable[u], false);
       if (!w) {  // replaced under us by a refit of another version: nothing to score
         series.skipped.push_back({usable[u], "the window is no longer stored"});
         continue;
       }
-      const std::int32_t key = detail::date_key(w->as_of);
+      const std::int32_t key = date_key(w->as_of);
       const auto at = std::lower_bound(dates.begin(), dates.end(), key);
       if (at == dates.end() || *at != key) {
         series.skipped.push_back({w->as_of, "no stored returns on the as-of date"});
@@ -145,7 +144,7 @@ AssetResiduals asset_residuals(Database& db, long model_version_id, const std::s
   AssetResiduals out;
   out.asset = asset;
   out.method = method;
-  std::optional<WindowRecord> window = read_window(db, model_version_id, as_of, at_or_before, WindowForm::served);
+  std::optional<WindowRecord> window = read_served_window(db, model_version_id, as_of, at_or_before);
   if (!window) {
     out.failure = no_window(as_of, at_or_before);
     return out;
@@ -176,4 +175,4 @@ AssetResiduals asset_residuals(Database& db, long model_version_id, const std::s
   return out;
 }
 
-}  // namespace factorwatch::storage
+}  // namespace factorwatch::pipeline

@@ -25,7 +25,7 @@
 // reference (the previous window, a pinned window or a smoothed reference; orthogonal
 // Procrustes on the shared assets) and stores its drift against the previous and the
 // pinned window, with alerts. The fit itself is stored as the engine returned it; what
-// every surface serves is that fit times T and the alignment R (see windows.h).
+// every surface serves is that fit times T and the alignment R (served_windows.h).
 #pragma once
 
 #include <atomic>
@@ -37,7 +37,7 @@
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/models.h"
 
-namespace factorwatch::storage {
+namespace factorwatch::pipeline {
 
 struct RefreshProgress {
   std::size_t done = 0;   // windows written so far in this run
@@ -74,10 +74,10 @@ using RefreshCallback = std::function<void(const RefreshProgress&)>;
 // Throws std::invalid_argument when the model does not exist. When `stop` is given and
 // becomes true, the run ends after the window being fitted is written (a daemon shutting
 // down); the next refresh carries on from the windows stored.
-RefreshSummary refresh_model(Database& db, const std::string& model, const RefreshCallback& progress = {},
+RefreshSummary refresh_model(storage::Database& db, const std::string& model, const RefreshCallback& progress = {},
                              const std::atomic<bool>* stop = nullptr);
 
 // The as-of dates refresh_model would fit now, ascending.
-std::vector<std::string> pending_windows(Database& db, const ModelVersion& model);
+std::vector<std::string> pending_windows(storage::Database& db, const storage::ModelVersion& model);
 
-}  // namespace factorwatch::storage
+}  // namespace factorwatch::pipeline

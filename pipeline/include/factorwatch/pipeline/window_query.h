@@ -8,11 +8,12 @@
 #include <string>
 #include <vector>
 
+#include "factorwatch/engine/frequency.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
 
-namespace factorwatch::server {
+namespace factorwatch::pipeline {
 
 struct WindowQuery {
   std::string model;
@@ -60,4 +61,11 @@ nlohmann::ordered_json missing_json(const SelectedWindow& s);
 // "f1", "f2", ...
 std::string factor_name(Eigen::Index j);
 
-}  // namespace factorwatch::server
+// The basis the factors are served in: "rotation varimax, aligned onto 2025-12-30
+// (previous)" and the like.
+std::string factor_basis_text(const SelectedWindow& s);
+
+// The data's frequency, inferred from the window's dates (daily, weekly or monthly).
+engine::Frequency window_frequency(const SelectedWindow& s);
+
+}  // namespace factorwatch::pipeline

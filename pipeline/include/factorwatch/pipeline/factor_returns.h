@@ -1,6 +1,6 @@
 // Factor returns and residual returns from stored windows: the stored returns of a
 // window's dates scored under the window's served factors (rotated and aligned, as every
-// surface shows them; see windows.h), by engine::factor_scores.
+// surface shows them; see served_windows.h), by engine::factor_scores.
 //
 // Data problems (no such window, a window that is not usable, an asset the window does not
 // hold) are values with a message; a malformed date throws std::invalid_argument.
@@ -13,7 +13,7 @@
 #include "factorwatch/engine/factor_scores.h"
 #include "factorwatch/storage/database.h"
 
-namespace factorwatch::storage {
+namespace factorwatch::pipeline {
 
 // The scores of every stored date of one window (first_date..as_of).
 struct WindowScores {
@@ -25,7 +25,7 @@ struct WindowScores {
 
 // The window with this as-of date (with `at_or_before`, the latest at or before it; "" the
 // latest window), read in its served form.
-WindowScores window_scores(Database& db, long model_version_id, const std::string& as_of, engine::ScoreMethod method,
+WindowScores window_scores(storage::Database& db, long model_version_id, const std::string& as_of, engine::ScoreMethod method,
                            bool at_or_before = true);
 
 // One night of a factor-return series: the as-of date scored under that window's own
@@ -52,7 +52,7 @@ struct FactorReturnSeries {
 
 // The factor return each window assigns to its own as-of date, for the model version's
 // windows with from <= as_of <= to ("" = open end). Each stored date is read once.
-FactorReturnSeries factor_return_series(Database& db, long model_version_id, const std::string& from,
+FactorReturnSeries factor_return_series(storage::Database& db, long model_version_id, const std::string& from,
                                         const std::string& to, engine::ScoreMethod method);
 
 // One asset's residual (specific) returns e = (x - mu) - L f over a window's dates, with
@@ -69,7 +69,7 @@ struct AssetResiduals {
   bool ok() const { return failure.empty(); }
 };
 
-AssetResiduals asset_residuals(Database& db, long model_version_id, const std::string& as_of, const std::string& asset,
+AssetResiduals asset_residuals(storage::Database& db, long model_version_id, const std::string& as_of, const std::string& asset,
                                engine::ScoreMethod method, bool at_or_before = true);
 
-}  // namespace factorwatch::storage
+}  // namespace factorwatch::pipeline

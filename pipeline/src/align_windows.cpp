@@ -1,7 +1,5 @@
 #include "align_windows.h"
 
-#include <SQLiteCpp/SQLiteCpp.h>
-
 #include <algorithm>
 #include <chrono>
 #include <cmath>
@@ -11,17 +9,27 @@
 #include <string>
 #include <vector>
 
-#include "blob_codec.h"
-#include "date_key.h"
 #include "factorwatch/engine/alignment.h"
 #include "factorwatch/engine/drift.h"
 #include "factorwatch/engine/factor_basis.h"
+#include "factorwatch/pipeline/served_windows.h"
+#include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/drift.h"
+#include "factorwatch/storage/window_alignments.h"
 #include "factorwatch/storage/windows.h"
 #include "window_comparison.h"
 
-namespace factorwatch::storage::detail {
+namespace factorwatch::pipeline::detail {
 namespace {
+
+using storage::AlignmentState;
+using storage::AlignTo;
+using storage::Database;
+using storage::iso_date;
+using storage::ModelConfig;
+using storage::ModelVersion;
+using storage::WindowAlignment;
+using storage::WindowRecord;
 
 using Clock = std::chrono::steady_clock;
 constexpr std::size_t kNone = static_cast<std::size_t>(-1);
@@ -29,82 +37,20 @@ constexpr std::size_t kNone = static_cast<std::size_t>(-1);
 // than the alignment itself; a stop still leaves whole windows.
 constexpr std::size_t kWindowsPerCommit = 32;
 
-struct Row {
-  long long id = 0;
-  std::int32_t as_of = 0;
-  bool usable = false;
-  bool aligned = false;
-};
-
-std::vector<Row> rows_of(Database& db, long model_version_id) {
-  SQLite::Statement q(db.sql(),
-                      "SELECT w.id, w.as_of, w.usable, a.window_id IS NOT NULL FROM windows w "
-                      "LEFT JOIN window_alignments a ON a.window_id = w.id WHERE w.model_version_id = ? ORDER BY w.as_of");
-  q.bind(1, static_cast<std::int64_t>(model_version_id));
-  std::vector<Row> rows;
-  while (q.executeStep())
-    rows.push_back({q.getColumn(0).getInt64(), q.getColumn(1).getInt(), q.getColumn(2).getInt() != 0,
-                    q.getColumn(3).getInt() != 0});
-  return rows;
-}
-
 engine::NamedLoadings standardized(const engine::FactorFit& fit) { return {fit.assets, fit.standardized_loadings()}; }
 
 // A stored window as served (its rotation and its stored alignment applied); nullopt when
 // it is missing or its fit is not usable.
 std::optional<engine::FactorFit> served_window(Database& db, long model_version_id, std::int32_t as_of) {
-  auto w = read_window(db, model_version_id, iso_date(as_of), false, WindowForm::served);
+  auto w = read_served_window(db, model_version_id, iso_date(as_of), false);
   if (!w || !w->fit.IsSolutionUsable()) return std::nullopt;
   return std::move(w->fit);
 }
 
-void bind_blob(SQLite::Statement& q, int index, const std::string& bytes) {
-  q.bind(index, bytes.data(), static_cast<int>(bytes.size()));
-}
-
-void forget_drift(SQLite::Database& sql, long long window_id, const char* against) {
-  for (const char* table : {"window_drift", "drift_alerts"}) {
-    SQLite::Statement q(sql, std::string("DELETE FROM ") + table + " WHERE window_id = ?" +
-                                 (against ? " AND against = ?" : ""));
-    q.bind(1, static_cast<std::int64_t>(window_id));
-    if (against) q.bind(2, against);
-    q.exec();
-  }
-}
-
-struct AlignmentRow {
-  std::string status, message, reference;
-  std::optional<std::int32_t> reference_as_of;
-  long long shared = 0;
-  Eigen::MatrixXd matrix;
-  double residual = std::nan("");
-  Eigen::VectorXd factor_fit;
-};
-
 // Whether the window was aligned directly onto the window of this as-of date (the rule of
 // aligned_directly_onto, for a row not yet read back).
-bool aligned_onto(const AlignmentRow& a, std::int32_t as_of) {
-  return a.status == engine::to_string(engine::AlignmentStatus::aligned) && a.reference_as_of == as_of;
-}
-
-void write_alignment(SQLite::Database& sql, long long window_id, const AlignmentRow& a) {
-  SQLite::Statement q(sql,
-                      "INSERT OR REPLACE INTO window_alignments (window_id, status, message, reference, "
-                      "reference_as_of, shared, alignment, residual, factor_fit, aligned_at) "
-                      "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
-  q.bind(1, static_cast<std::int64_t>(window_id));
-  q.bind(2, a.status);
-  q.bind(3, a.message);
-  q.bind(4, a.reference);
-  if (a.reference_as_of) q.bind(5, *a.reference_as_of);
-  else q.bind(5);
-  q.bind(6, static_cast<std::int64_t>(a.shared));
-  bind_blob(q, 7, encode_doubles(a.matrix));
-  if (std::isfinite(a.residual)) q.bind(8, a.residual);
-  else q.bind(8);
-  bind_blob(q, 9, encode_doubles(a.factor_fit));
-  q.bind(10, utc_now());
-  q.exec();
+bool aligned_onto(const WindowAlignment& a, std::int32_t as_of) {
+  return a.status == engine::to_string(engine::AlignmentStatus::aligned) && a.reference_as_of == iso_date(as_of);
 }
 
 bool below(double congruence, double threshold) {
@@ -115,56 +61,39 @@ bool below(double congruence, double threshold) {
 // With `prior` (the previous window's congruences against the same pinned window), a
 // factor is flagged only when it falls below the threshold, not again in every later
 // window that stays below: a change since the pinned window is news once.
-std::size_t write_drift(SQLite::Database& sql, long long window_id, const char* against, std::int32_t against_as_of,
+std::size_t write_drift(Database& db, long long window_id, const char* against, std::int32_t against_as_of,
                         const engine::DriftComparison& d, double threshold, const Eigen::VectorXd* prior = nullptr) {
-  nlohmann::json movers = nlohmann::json::array();
+  storage::DriftRecord record;
+  record.against = against;
+  record.against_as_of = iso_date(against_as_of);
+  record.status = engine::to_string(d.status);
+  record.shared = static_cast<long long>(d.assets.size());
+  record.congruence = d.congruence;
+  record.principal_angles_degrees = d.principal_angles_degrees;
+  record.factor_variance_change = d.factor_variance_change;
+  record.explained_share_change = d.explained_share_change;
   const auto k = static_cast<int>(d.congruence.size());
-  for (int j = 0; j < k; ++j) {
-    nlohmann::json factor = nlohmann::json::array();
-    for (const engine::AssetMove& m : engine::largest_moves(d, j, kMoversKept))
-      factor.push_back({{"asset", m.asset}, {"standardized_change", m.standardized_change},
-                        {"exposure_change", m.exposure_change}});
-    movers.push_back(std::move(factor));
-  }
+  for (int j = 0; j < k; ++j) record.movers.push_back(engine::largest_moves(d, j, storage::kMoversKept));
   const bool compared = d.status == engine::DriftStatus::compared && d.standardized_change.rows() > 0;
-  double mean_change = 0;  // a plain loop: Eigen's vectorised rowwise().norm() trips GCC 12's AVX-512 warnings
-  if (compared) {
+  if (compared) {  // a plain loop: Eigen's vectorised rowwise().norm() trips GCC 12's AVX-512 warnings
     const Eigen::VectorXd squares = d.standardized_change.rowwise().squaredNorm();
-    for (Eigen::Index i = 0; i < squares.size(); ++i) mean_change += std::sqrt(squares(i));
-    mean_change /= static_cast<double>(squares.size());
+    for (Eigen::Index i = 0; i < squares.size(); ++i) record.mean_exposure_change += std::sqrt(squares(i));
+    record.mean_exposure_change /= static_cast<double>(squares.size());
+    record.communality_change = d.communality_change.cwiseAbs().mean();
   }
-  const double communality_change = compared ? d.communality_change.cwiseAbs().mean() : 0.0;
-  SQLite::Statement q(sql,
-                      "INSERT OR REPLACE INTO window_drift (window_id, against, against_as_of, status, shared, "
-                      "congruence, principal_angles, factor_variance_change, explained_share_change, "
-                      "mean_exposure_change, communality_change, movers) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
-  q.bind(1, static_cast<std::int64_t>(window_id));
-  q.bind(2, against);
-  q.bind(3, against_as_of);
-  q.bind(4, engine::to_string(d.status));
-  q.bind(5, static_cast<std::int64_t>(d.assets.size()));
-  bind_blob(q, 6, encode_doubles(d.congruence));
-  bind_blob(q, 7, encode_doubles(d.principal_angles_degrees));
-  bind_blob(q, 8, encode_doubles(d.factor_variance_change));
-  bind_blob(q, 9, encode_doubles(d.explained_share_change));
-  q.bind(10, mean_change);
-  q.bind(11, communality_change);
-  q.bind(12, movers.dump());
-  q.exec();
+  storage::save_drift(db, window_id, record);
   std::size_t alerts = 0;
   if (!(threshold > 0) || !compared) return alerts;
   for (int j = 0; j < k; ++j) {
     const double c = d.congruence(j);
     if (!below(c, threshold)) continue;
     if (prior && prior->size() == k && below((*prior)(j), threshold)) continue;  // already below: flagged before
-    SQLite::Statement alert(sql, "INSERT OR REPLACE INTO drift_alerts (window_id, against, factor, congruence, threshold) "
-                                 "VALUES (?, ?, ?, ?, ?)");
-    alert.bind(1, static_cast<std::int64_t>(window_id));
-    alert.bind(2, against);
-    alert.bind(3, j + 1);
-    alert.bind(4, std::isfinite(c) ? c : -2.0);  // below any congruence: stored as -2, read back as NaN
-    alert.bind(5, threshold);
-    alert.exec();
+    storage::DriftAlert alert;
+    alert.against = against;
+    alert.factor = j + 1;
+    alert.congruence = c;
+    alert.threshold = threshold;
+    storage::save_alert(db, window_id, alert);
     ++alerts;
   }
   return alerts;
@@ -196,8 +125,8 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
   const auto start_time = Clock::now();
   AlignmentRun run;
   const ModelConfig& c = model.config;
-  const std::vector<Row> rows = rows_of(db, model.id);
-  const auto missing = std::find_if(rows.begin(), rows.end(), [](const Row& r) { return !r.aligned; });
+  const std::vector<AlignmentState> rows = storage::alignment_states(db, model.id);
+  const auto missing = std::find_if(rows.begin(), rows.end(), [](const AlignmentState& r) { return !r.aligned; });
   if (missing == rows.end()) return run;
 
   std::size_t pinned = kNone;
@@ -205,7 +134,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     if (c.pinned_window.empty()) {
       pinned = 0;
     } else {
-      const std::int32_t key = date_key(c.pinned_window, "pinned window");
+      const std::int32_t key = storage::date_key(c.pinned_window, "pinned window");
       for (std::size_t i = 0; i < rows.size() && pinned == kNone; ++i)
         if (rows[i].as_of >= key) pinned = i;
     }
@@ -241,7 +170,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
   }
   // Aligned onto the pinned window, that window's frame is its own (rotated) fit.
   if (c.align_to == AlignTo::pinned && pinned != kNone && !pinned_known) {
-    if (auto w = read_window(db, model.id, iso_date(rows[pinned].as_of), false, WindowForm::as_fitted);
+    if (auto w = read_window(db, model.id, iso_date(rows[pinned].as_of), false);
         w && w->fit.IsSolutionUsable()) {
       engine::change_factor_basis(w->fit, w->rotation);
       pinned_fit = std::move(w->fit);
@@ -249,8 +178,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     pinned_known = true;
   }
 
-  SQLite::Database& sql = db.sql();
-  std::optional<SQLite::Transaction> transaction;
+  std::optional<storage::WriteBatch> transaction;
   std::size_t in_transaction = 0;
   const auto commit = [&] {
     if (transaction) transaction->commit();
@@ -279,28 +207,25 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     if (stop && stop->load()) {
       // Windows still waiting for their comparison with the pinned window lose their
       // alignment too, so the next run (which starts at the first unaligned window) redoes them.
-      if (!deferred.empty() && !transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
-      for (std::size_t d : deferred) {
-        SQLite::Statement forget(sql, "DELETE FROM window_alignments WHERE window_id = ?");
-        forget.bind(1, static_cast<std::int64_t>(rows[d].id));
-        forget.exec();
-      }
+      if (!deferred.empty() && !transaction) transaction.emplace(db);
+      for (std::size_t d : deferred) storage::forget_alignment(db, rows[d].window_id);
       commit();
       run.stopped = true;
       run.seconds = std::chrono::duration<double>(Clock::now() - start_time).count();
       return run;
     }
     std::optional<WindowRecord> record = fitted ? fitted->take(rows[i].as_of) : std::nullopt;
-    if (!record) record = read_window(db, model.id, iso_date(rows[i].as_of), false, WindowForm::as_fitted);
-    if (!transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
-    forget_drift(sql, rows[i].id, nullptr);
-    AlignmentRow row;
+    if (!record) record = read_window(db, model.id, iso_date(rows[i].as_of), false);
+    if (!transaction) transaction.emplace(db);
+    storage::forget_drift(db, rows[i].window_id);
+    WindowAlignment row;
+    row.residual = std::nan("");  // stored as none unless aligned
     row.reference = kind;
     if (!record || !record->fit.IsSolutionUsable()) {
       row.status = "not usable";
       row.message = "the fit of this window is not usable: nothing to align or compare";
       row.matrix = Eigen::MatrixXd::Identity(c.factors, c.factors);
-      write_alignment(sql, rows[i].id, row);
+      storage::save_alignment(db, rows[i].window_id, row);
       ++run.aligned;
       if (++in_transaction == kWindowsPerCommit) commit();
       continue;
@@ -314,7 +239,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       case AlignTo::previous:
         if (previous) {
           reference = standardized(*previous);
-          row.reference_as_of = previous_as_of;
+          row.reference_as_of = iso_date(previous_as_of);
         } else {
           no_reference = "the first usable window: the frame later windows are chained to";
         }
@@ -324,7 +249,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
           no_reference = "the pinned window: the frame the other windows are aligned to";
         } else if (pinned_fit) {
           reference = standardized(*pinned_fit);
-          row.reference_as_of = rows[pinned].as_of;
+          row.reference_as_of = iso_date(rows[pinned].as_of);
         } else {
           no_reference = pinned == kNone ? "the pinned window " + c.pinned_window + " is not fitted yet"
                                          : "the pinned window's fit is not usable";
@@ -343,14 +268,14 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     row.residual = alignment.residual;
     row.factor_fit = alignment.factor_fit;
     if (alignment.status == engine::AlignmentStatus::aligned) engine::change_factor_basis(fit, alignment.rotation);
-    write_alignment(sql, rows[i].id, row);
+    storage::save_alignment(db, rows[i].window_id, row);
     if (i == pinned && !pinned_known) {
       pinned_fit = fit;
       pinned_known = true;
     }
 
     if (previous)
-      run.alerts += write_drift(sql, rows[i].id, "previous", previous_as_of,
+      run.alerts += write_drift(db, rows[i].window_id, "previous", previous_as_of,
                                 compare_served(fit, *previous, min_shared, aligned_onto(row, previous_as_of)), c.alert_below);
     if (i == pinned) prior_pinned = at_pinned;
     if (pinned != kNone && i != pinned) {
@@ -358,7 +283,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
         deferred.push_back(i);  // compared after the loop, walking back from the pinned window
       } else if (pinned_fit) {
         const engine::DriftComparison d = compare_served(fit, *pinned_fit, min_shared, aligned_onto(row, rows[pinned].as_of));
-        run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned,
+        run.alerts += write_drift(db, rows[i].window_id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned,
                                   prior_pinned ? &*prior_pinned : nullptr);
         if (d.status == engine::DriftStatus::compared) prior_pinned = d.congruence;
       }
@@ -376,13 +301,13 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     std::optional<Eigen::VectorXd> prior = at_pinned;
     for (auto it = deferred.rbegin(); it != deferred.rend(); ++it) {
       const std::size_t i = *it;
-      const std::optional<WindowRecord> w = read_window(db, model.id, iso_date(rows[i].as_of), false, WindowForm::served);
+      const std::optional<WindowRecord> w = read_served_window(db, model.id, iso_date(rows[i].as_of), false);
       if (!w || !w->fit.IsSolutionUsable()) continue;
-      if (!transaction) transaction.emplace(sql, SQLite::TransactionBehavior::IMMEDIATE);
-      forget_drift(sql, rows[i].id, "pinned");
+      if (!transaction) transaction.emplace(db);
+      storage::forget_drift(db, rows[i].window_id, "pinned");
       const engine::DriftComparison d =
           compare_served(w->fit, *pinned_fit, min_shared, aligned_directly_onto(w->alignment, iso_date(rows[pinned].as_of)));
-      run.alerts += write_drift(sql, rows[i].id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned, &*prior);
+      run.alerts += write_drift(db, rows[i].window_id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned, &*prior);
       if (d.status == engine::DriftStatus::compared) prior = d.congruence;
       if (++in_transaction == kWindowsPerCommit) commit();
     }
@@ -392,4 +317,4 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
   return run;
 }
 
-}  // namespace factorwatch::storage::detail
+}  // namespace factorwatch::pipeline::detail

@@ -2,26 +2,27 @@
 // missing value), from which each window of a refresh is cut without reading again.
 #pragma once
 
-#include <SQLiteCpp/SQLiteCpp.h>
-
 #include <cstdint>
 #include <string>
 #include <vector>
 
-#include "asset_directory.h"
 #include "factorwatch/engine/panel.h"
+#include "factorwatch/storage/database.h"
 
-namespace factorwatch::storage::detail {
+namespace factorwatch::storage {
 
-// Every stored date, ascending.
-std::vector<std::int32_t> stored_dates(SQLite::Database& sql);
+// Every stored date (date keys, see date_key.h), ascending.
+std::vector<std::int32_t> stored_dates(Database& db);
+
+// The asset ids of these names that have stored returns, ascending (the column order of a
+// span); names never stored are left out.
+std::vector<std::int32_t> stored_asset_ids(Database& db, const std::vector<std::string>& names);
 
 class ReturnsSpan {
  public:
   // Dates first..last (inclusive, as stored); assets: `universe` ids (ascending), or,
   // when empty, every asset whose stored returns overlap the range.
-  ReturnsSpan(SQLite::Database& sql, AssetDirectory& directory, std::int32_t first, std::int32_t last,
-              const std::vector<std::int32_t>& universe);
+  ReturnsSpan(Database& db, std::int32_t first, std::int32_t last, const std::vector<std::int32_t>& universe);
 
   const std::vector<std::int32_t>& dates() const { return dates_; }
 
@@ -41,9 +42,9 @@ class ReturnsSpan {
 
 // The digest of the stored returns rows with dates in [first, last], from their dates
 // and checksums only (the index returns_checksums holds both: no blob is read).
-std::uint64_t stored_rows_digest(SQLite::Database& sql, std::int32_t first, std::int32_t last);
+std::uint64_t stored_rows_digest(Database& db, std::int32_t first, std::int32_t last);
 
 // Fingerprint of a window's input: its dates, asset names and returns.
 std::string panel_fingerprint(const engine::ReturnsPanel& panel);
 
-}  // namespace factorwatch::storage::detail
+}  // namespace factorwatch::storage

@@ -5,7 +5,7 @@
 #include <string>
 #include <string_view>
 
-namespace factorwatch::storage::detail {
+namespace factorwatch::storage {
 
 // Throws std::invalid_argument naming `what` when `iso` is not a real yyyy-mm-dd date.
 std::int32_t date_key(std::string_view iso, const char* what = "date");
@@ -14,4 +14,4 @@ std::string iso_date(std::int64_t key);
 // Now, UTC, as yyyy-mm-ddThh:mm:ssZ.
 std::string utc_now();
 
-}  // namespace factorwatch::storage::detail
+}  // namespace factorwatch::storage

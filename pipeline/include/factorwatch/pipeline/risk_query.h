@@ -12,12 +12,12 @@
 
 #include "factorwatch/engine/frequency.h"
 #include "factorwatch/engine/risk.h"
+#include "factorwatch/pipeline/window_query.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/portfolios.h"
-#include "window_query.h"
 
-namespace factorwatch::server {
+namespace factorwatch::pipeline {
 
 // One window's factors made ready for risk queries (asset index built): what the daemon
 // keeps between requests, keyed by the window's stamp.
@@ -94,4 +94,4 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& request, const
 // The books in the order every surface shows them.
 const RiskBook* find_book(const RiskReport& report, const std::string& role);
 
-}  // namespace factorwatch::server
+}  // namespace factorwatch::pipeline

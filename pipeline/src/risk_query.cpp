@@ -1,14 +1,12 @@
-#include "risk_query.h"
+#include "factorwatch/pipeline/risk_query.h"
 
 #include <cmath>
 #include <stdexcept>
 
 #include "factorwatch/storage/assets.h"
 #include "factorwatch/storage/timestamps.h"
-#include "specific_risk_view.h"
-#include "window_heading.h"
 
-namespace factorwatch::server {
+namespace factorwatch::pipeline {
 namespace {
 
 RiskOutcome failed(RiskFailure failure, std::string message, std::string field) {
@@ -195,4 +193,4 @@ const RiskBook* find_book(const RiskReport& report, const std::string& role) {
   return nullptr;
 }
 
-}  // namespace factorwatch::server
+}  // namespace factorwatch::pipeline

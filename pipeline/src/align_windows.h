@@ -19,7 +19,12 @@
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
 
-namespace factorwatch::storage::detail {
+namespace factorwatch::pipeline::detail {
+
+using storage::Database;
+using storage::ModelVersion;
+using storage::WindowRecord;
+
 
 struct AlignmentRun {
   std::size_t aligned = 0;  // windows whose alignment and drift were written
@@ -45,4 +50,4 @@ class FittedWindows {
 AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::atomic<bool>* stop,
                            FittedWindows* fitted = nullptr);
 
-}  // namespace factorwatch::storage::detail
+}  // namespace factorwatch::pipeline::detail

@@ -9,11 +9,12 @@
 #include <vector>
 
 #include "factorwatch/engine/drift.h"
+#include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/drift.h"
 #include "factorwatch/storage/models.h"
 
-namespace factorwatch::server {
+namespace factorwatch::pipeline {
 
 enum class QueryOutcome {
   found,
@@ -72,7 +73,7 @@ QueryFailure find_window_drift(storage::Database& db, const std::string& model, 
 struct AssetHistory {
   storage::ModelVersion model;
   std::string asset;
-  std::vector<storage::ExposurePoint> points;
+  std::vector<ExposurePoint> points;
 };
 QueryFailure find_asset_history(storage::Database& db, const RangeQuery& query, const std::string& asset,
                                 AssetHistory& out);
@@ -102,4 +103,4 @@ double standardized_norm(const engine::DriftComparison& comparison, std::size_t 
 // "f1; f3" for flagged factors; "" when none.
 std::string factor_list(const std::vector<Eigen::Index>& factors);
 
-}  // namespace factorwatch::server
+}  // namespace factorwatch::pipeline

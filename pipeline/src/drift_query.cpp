@@ -1,16 +1,16 @@
-#include "drift_query.h"
+#include "factorwatch/pipeline/drift_query.h"
 
 #include <algorithm>
 #include <cmath>
 #include <numeric>
 #include <stdexcept>
 
+#include "factorwatch/pipeline/window_query.h"
 #include "factorwatch/storage/assets.h"
 #include "factorwatch/storage/timestamps.h"
 #include "factorwatch/storage/windows.h"
-#include "window_query.h"
 
-namespace factorwatch::server {
+namespace factorwatch::pipeline {
 namespace {
 
 // The model and the range, checked in the order a reader would fix them.
@@ -111,7 +111,7 @@ QueryFailure find_window_drift(storage::Database& db, const std::string& model, 
     return f;
   }
   out.record = std::move(records.front());
-  auto comparison = storage::compare_stored_windows(db, out.model.id, out.record.as_of, out.record.against_as_of,
+  auto comparison = compare_stored_windows(db, out.model.id, out.record.as_of, out.record.against_as_of,
                                                     out.model.config.effective_min_shared_assets());
   if (!comparison)
     return query_failure(QueryOutcome::not_found, "window", window,
@@ -135,7 +135,7 @@ QueryFailure find_asset_history(storage::Database& db, const RangeQuery& q, cons
   if (!storage::has_asset(db, asset))
     return query_failure(QueryOutcome::unknown_asset, "asset", asset, "unknown asset (no returns stored)");
   out.asset = asset;
-  out.points = storage::read_exposure_history(db, out.model.id, asset, q.from, q.to);
+  out.points = exposure_history(db, out.model.id, asset, q.from, q.to);
   return {};
 }
 
@@ -145,4 +145,4 @@ QueryFailure find_alerts(storage::Database& db, const RangeQuery& q, AlertList& 
   return {};
 }
 
-}  // namespace factorwatch::server
+}  // namespace factorwatch::pipeline

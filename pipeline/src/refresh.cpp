@@ -1,6 +1,4 @@
-#include "factorwatch/storage/refresh.h"
-
-#include <SQLiteCpp/SQLiteCpp.h>
+#include "factorwatch/pipeline/refresh.h"
 
 #include <algorithm>
 #include <chrono>
@@ -9,15 +7,22 @@
 #include <stdexcept>
 
 #include "align_windows.h"
-#include "asset_directory.h"
-#include "date_key.h"
 #include "factorwatch/engine/rotation.h"
+#include "factorwatch/engine/window_products.h"
+#include "factorwatch/storage/date_key.h"
+#include "factorwatch/storage/returns_span.h"
 #include "factorwatch/storage/windows.h"
 #include "refresh_hooks.h"
-#include "returns_span.h"
 
-namespace factorwatch::storage {
+namespace factorwatch::pipeline {
 namespace {
+
+using storage::Database;
+using storage::date_key;
+using storage::iso_date;
+using storage::ModelConfig;
+using storage::ModelVersion;
+using storage::WindowRecord;
 
 using Clock = std::chrono::steady_clock;
 
@@ -35,7 +40,7 @@ struct GridPoint {
 std::vector<GridPoint> grid(const std::vector<std::int32_t>& dates, const ModelConfig& config) {
   std::vector<GridPoint> points;
   const auto window = static_cast<std::size_t>(config.window);
-  const std::int32_t first = config.first_as_of.empty() ? 0 : detail::date_key(config.first_as_of);
+  const std::int32_t first = config.first_as_of.empty() ? 0 : date_key(config.first_as_of);
   for (std::size_t i = window - 1; i < dates.size(); i += static_cast<std::size_t>(config.step))
     if (dates[i] >= first) points.push_back({i, dates[i]});
   return points;
@@ -52,25 +57,14 @@ struct Plan {
 
 Plan make_plan(Database& db, const ModelVersion& model) {
   Plan plan;
-  plan.dates = detail::stored_dates(db.sql());
+  plan.dates = storage::stored_dates(db);
   plan.points = grid(plan.dates, model.config);
   std::set<std::int32_t> current;
-  SQLite::Statement q(db.sql(), "SELECT as_of, stale FROM windows WHERE model_version_id = ?");
-  q.bind(1, static_cast<std::int64_t>(model.id));
-  while (q.executeStep()) (q.getColumn(1).getInt() ? plan.stale : current).insert(q.getColumn(0).getInt());
+  for (const storage::WindowState& w : storage::window_states(db, model.id))
+    (w.stale ? plan.stale : current).insert(w.as_of);
   for (std::size_t p = 0; p < plan.points.size(); ++p)
     if (!current.count(plan.points[p].as_of)) plan.pending.push_back(p);
   return plan;
-}
-
-std::vector<std::int32_t> universe_ids(Database& db, const ModelConfig& config) {
-  std::vector<std::int32_t> ids;
-  for (const std::string& name : config.universe) {
-    const std::int32_t id = db.assets().id(name);
-    if (id >= 0) ids.push_back(id);
-  }
-  std::sort(ids.begin(), ids.end());
-  return ids;
 }
 
 engine::WarmStart warm_from(const engine::FactorFit& fit) {
@@ -82,7 +76,7 @@ engine::WarmStart warm_from(const engine::FactorFit& fit) {
 std::vector<std::string> pending_windows(Database& db, const ModelVersion& model) {
   const Plan plan = make_plan(db, model);
   std::vector<std::string> out;
-  for (std::size_t p : plan.pending) out.push_back(detail::iso_date(plan.points[p].as_of));
+  for (std::size_t p : plan.pending) out.push_back(iso_date(plan.points[p].as_of));
   return out;
 }
 
@@ -102,7 +96,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
 
 RefreshSummary fit_windows(Database& db, const std::string& name, const RefreshCallback& progress,
                            const std::atomic<bool>* stop, Clock::time_point start, detail::FittedWindows& fitted) {
-  const std::optional<ModelVersion> model = find_model(db, name);
+  const std::optional<ModelVersion> model = storage::find_model(db, name);
   if (!model) throw std::invalid_argument("no model named '" + name + "' (define it with: factorwatch model set " + name + ")");
   RefreshSummary summary;
   summary.model = model->name;
@@ -145,7 +139,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
 
   const engine::FitOptions base = config.fit_options();
   const engine::RotationOptions rotation = config.rotation_options();
-  const std::vector<std::int32_t> universe = universe_ids(db, config);
+  const std::vector<std::int32_t> universe = storage::stored_asset_ids(db, config.universe);
   if (!config.universe.empty() && universe.empty())
     throw std::invalid_argument("model '" + model->name + "': none of its " + std::to_string(config.universe.size()) +
                                 " universe assets has stored returns");
@@ -162,7 +156,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
     const std::size_t last_row = points[pending[chunk_end - 1]].index;
     if (detail::refresh_hooks().before_read) detail::refresh_hooks().before_read();
     auto t_read = Clock::now();
-    const detail::ReturnsSpan span(db.sql(), db.assets(), dates[first_row], dates[last_row], universe);
+    const storage::ReturnsSpan span(db, dates[first_row], dates[last_row], universe);
     summary.read_seconds += since(t_read);
     if (detail::refresh_hooks().after_read) detail::refresh_hooks().after_read();
     // Windows are cut from the span by position in the plan's dates: both must be the same.
@@ -188,8 +182,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       if (p > 0) {
         if (previous_point != p - 1) {
           previous.reset();
-          if (auto stored = read_window(db, model->id, detail::iso_date(points[p - 1].as_of), false,
-                                        WindowForm::as_fitted))
+          if (auto stored = read_window(db, model->id, iso_date(points[p - 1].as_of), false))
             previous = std::move(stored->fit);
         }
         if (previous && previous->IsSolutionUsable()) options.warm_start = warm_from(*previous);
@@ -198,10 +191,10 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       const std::size_t begin = point.index + 1 - window - first_row;
       const engine::ReturnsPanel panel = span.window(begin, window);
       WindowRecord record;
-      record.input_hash = detail::panel_fingerprint(panel);
+      record.input_hash = storage::panel_fingerprint(panel);
       const std::uint64_t input_rows = span.rows_digest(begin, window);
       summary.read_seconds += since(t_read);  // cutting the window and fingerprinting it
-      record.as_of = detail::iso_date(point.as_of);
+      record.as_of = iso_date(point.as_of);
       record.first_date = panel.dates.front();
       record.configuration_hash = model->configuration_hash;
       const auto t_fit = Clock::now();
@@ -214,13 +207,13 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
 
       const auto t_write = Clock::now();
       record.total_seconds = since(t_window);
-      if (!save_window(db, model->id, record, input_rows)) ++summary.changed_during;
+      if (!storage::save_window(db, model->id, record, input_rows)) ++summary.changed_during;
       summary.write_seconds += since(t_write);
 
       ++summary.fitted;
       if (summary.first_as_of.empty()) summary.first_as_of = record.as_of;
       summary.last_as_of = record.as_of;
-      fitted.keep(detail::date_key(record.as_of), record);
+      fitted.keep(date_key(record.as_of), record);
       previous = std::move(record.fit);
       previous_point = p;
       if (progress) progress({summary.fitted, pending.size(), summary.last_as_of, since(start)});
@@ -244,7 +237,7 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
   if (summary.stopped) return summary;
   // The second pass: alignment and drift of every window that needs it (the new ones, and
   // all after a refitted one), also when no window needed a fit.
-  const detail::AlignmentRun run = detail::align_windows(db, *find_model(db, name), stop, &fitted);
+  const detail::AlignmentRun run = detail::align_windows(db, *storage::find_model(db, name), stop, &fitted);
   summary.aligned = run.aligned;
   summary.alerts = run.alerts;
   summary.align_seconds = run.seconds;
@@ -257,4 +250,4 @@ RefreshSummary refresh_model(Database& db, const std::string& name, const Refres
   return summary;
 }
 
-}  // namespace factorwatch::storage
+}  // namespace factorwatch::pipeline
