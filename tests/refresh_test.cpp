@@ -7,10 +7,13 @@
 
 #include <cmath>
 #include <cstring>
+#include <Spectra/Util/Version.h>
 
+#include "factorwatch/engine/build_info.h"
 #include "factorwatch/pipeline/refresh.h"
 #include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/content_hash.h"
+#include "factorwatch/storage/damaged_data.h"
 #include "factorwatch/storage/ingest.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/returns_csv.h"
@@ -259,6 +262,52 @@ TEST(Refresh, WindowFromBeforeTheGradientRuleReadsWithoutACriterion) {
   EXPECT_TRUE(std::isnan(w->fit.largest_scaled_gradient));
   EXPECT_TRUE(std::isnan(w->fit.tolerance));
   for (const auto& s : storage::list_windows(db, v1.model.id)) EXPECT_TRUE(std::isnan(s.largest_scaled_gradient));
+}
+
+// Every stored window records what built its numbers: this build's program version, the
+// Eigen and Spectra versions (the very headers this test compiles against) and flags. A
+// window from before schema 8 (NULL) reads as not known; a damaged record is reported as
+// damaged data naming the window, not served.
+TEST(Refresh, EveryWindowRecordsTheBuildThatFittedIt) {
+  TempDir dir;
+  testing::write_long_csv(dir.file("r.csv"), planted());
+  storage::Database db(dir.database());
+  load(db, dir.file("r.csv"));
+  const auto v1 = storage::set_model(db, "m", ml_config(100, 20));
+  pipeline::refresh_model(db, "m");
+  const std::string eigen = std::to_string(EIGEN_WORLD_VERSION) + "." + std::to_string(EIGEN_MAJOR_VERSION) + "." +
+                            std::to_string(EIGEN_MINOR_VERSION);
+  const std::string spectra = std::to_string(SPECTRA_MAJOR_VERSION) + "." + std::to_string(SPECTRA_MINOR_VERSION) +
+                              "." + std::to_string(SPECTRA_PATCH_VERSION);
+  const auto summaries = storage::list_windows(db, v1.model.id);
+  ASSERT_EQ(summaries.size(), 4u);  // as-of indices 99, 119, 139, 159
+  for (const auto& s : summaries) {
+    const auto w = storage::read_window(db, v1.model.id, s.as_of, false);
+    ASSERT_TRUE(w);
+    EXPECT_EQ(w->provenance.program_version, engine::build_info().program_version);
+    EXPECT_FALSE(w->provenance.program_version.empty());
+    EXPECT_EQ(w->provenance.eigen_version, eigen);
+    EXPECT_EQ(w->provenance.spectra_version, spectra);
+    EXPECT_EQ(w->provenance.build_flags, engine::build_info().build_flags);
+#ifdef __clang__
+    EXPECT_EQ(w->provenance.build_flags.rfind("Clang ", 0), 0u) << w->provenance.build_flags;
+#else
+    EXPECT_EQ(w->provenance.build_flags.rfind("GNU ", 0), 0u) << w->provenance.build_flags;
+#endif
+  }
+  db.sql().exec("UPDATE windows SET provenance = NULL WHERE as_of = (SELECT min(as_of) FROM windows)");
+  const auto old = storage::read_window(db, v1.model.id, summaries.front().as_of, false);
+  ASSERT_TRUE(old);
+  EXPECT_TRUE(old->provenance.program_version.empty());
+  EXPECT_TRUE(old->provenance.build_flags.empty());
+  db.sql().exec("UPDATE windows SET provenance = '{\"program\": 1' WHERE as_of = (SELECT max(as_of) FROM windows)");
+  try {
+    storage::read_window(db, v1.model.id, summaries.back().as_of, false);
+    ADD_FAILURE() << "a damaged provenance was read";
+  } catch (const storage::DamagedData& e) {
+    EXPECT_NE(std::string(e.what()).find("provenance"), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find(summaries.back().as_of), std::string::npos) << e.what();
+  }
 }
 
 // A backfill of wide windows without gaps (fewer dates than assets, a date apart) carries

@@ -7,6 +7,7 @@
 #include <stdexcept>
 
 #include "align_windows.h"
+#include "factorwatch/engine/build_info.h"
 #include "factorwatch/engine/rotation.h"
 #include "factorwatch/engine/window_products.h"
 #include "factorwatch/storage/date_key.h"
@@ -197,6 +198,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       record.as_of = iso_date(point.as_of);
       record.first_date = panel.dates.front();
       record.configuration_hash = model->configuration_hash;
+      record.provenance = engine::build_info();
       const auto t_fit = Clock::now();
       record.fit = engine::fit(panel, options);
       if (config.rotation != engine::RotationMethod::none && record.fit.IsSolutionUsable())

@@ -262,6 +262,11 @@ CREATE TABLE holdings (
 ALTER TABLE returns ADD COLUMN checksum INTEGER;  -- row_checksum (returns_rows.h); NULL = damaged
 CREATE INDEX returns_checksums ON returns (date, checksum);
 )sql", checksum_everything},
+      // What built each window's numbers (engine/build_info.h), as one JSON object with the
+      // members program, eigen, spectra and build; NULL for windows fitted before schema 8.
+      {8, "provenance of fitted windows", R"sql(
+ALTER TABLE windows ADD COLUMN provenance TEXT;
+)sql"},
   };
   return steps;
 }

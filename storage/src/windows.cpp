@@ -150,6 +150,15 @@ WindowRecord read_fields(Database& db, SQLite::Statement& q) {
   fit.eigenvalues = vector_column(q, "eigenvalues");
   fit.explained_share = vector_column(q, "explained_share");
   if (!q.getColumn("rotation").isNull()) w.rotation = matrix_column(q, "rotation");
+  if (!q.getColumn("provenance").isNull()) {
+    try {
+      const json p = json::parse(q.getColumn("provenance").getString());
+      w.provenance = {p.at("program").get<std::string>(), p.at("eigen").get<std::string>(),
+                      p.at("spectra").get<std::string>(), p.at("build").get<std::string>()};
+    } catch (const json::exception& e) {
+      throw DamagedData(std::string("provenance: ") + e.what());
+    }
+  }
   const auto n = static_cast<Eigen::Index>(fit.assets.size());
   if (fit.loadings.rows() != n || fit.specific_variance.size() != n || fit.heywood.size() != fit.assets.size())
     throw DamagedData("the asset list and the loadings disagree in length");
@@ -197,8 +206,8 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& w, std
                       "INSERT OR REPLACE INTO windows (model_version_id, as_of, first_date, configuration_hash, "
                       "input_hash, asset_count, factors, usable, termination, assets, mean, scale, loadings, "
                       "specific_variance, communality, uniqueness, heywood, factor_covariance, eigenvalues, "
-                      "explained_share, statistics, fit_seconds, total_seconds, fitted_at, rotation, stale) VALUES "
-                      "(?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
+                      "explained_share, statistics, fit_seconds, total_seconds, fitted_at, rotation, stale, provenance) "
+                      "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   q.bind(2, date_key(w.as_of, "as-of date"));
   q.bind(3, date_key(w.first_date, "first date"));
@@ -227,6 +236,10 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& w, std
   if (w.rotation.size() > 0) bind_blob(q, 25, detail::encode_doubles(w.rotation));
   else q.bind(25);  // NULL: no rotation
   q.bind(26, current ? 0 : 1);
+  const engine::BuildInfo& p = w.provenance;
+  if (p.program_version.empty()) q.bind(27);  // NULL: not known
+  else q.bind(27, json{{"program", p.program_version}, {"eigen", p.eigen_version}, {"spectra", p.spectra_version},
+                       {"build", p.build_flags}}.dump());
   q.exec();
   transaction.commit();
   return current;

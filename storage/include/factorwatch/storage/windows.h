@@ -8,6 +8,7 @@
 #include <string>
 #include <vector>
 
+#include "factorwatch/engine/build_info.h"
 #include "factorwatch/engine/fit.h"
 #include "factorwatch/storage/database.h"
 
@@ -37,6 +38,9 @@ struct WindowRecord {
   bool stale = false;        // returns inside the window changed after the fit
   // T (k x k) of the model's rotation, computed when the window was fitted; empty = none.
   Eigen::MatrixXd rotation;
+  // What built the numbers (program, Eigen and Spectra versions, the build's flags); every
+  // field "" for a window fitted before schema 8 recorded it.
+  engine::BuildInfo provenance;
   // How the window was aligned; nullopt until the refresh has aligned it (read only:
   // save_window ignores it and removes the old row's alignment and drift).
   std::optional<WindowAlignment> alignment;
