@@ -84,6 +84,7 @@
 namespace fe = factorwatch::engine;
 namespace fs = factorwatch::storage;
 namespace fv = factorwatch::server;
+namespace fp = factorwatch::pipeline;
 namespace fb = factorwatch::bench;
 using Clock = std::chrono::steady_clock;
 
@@ -399,7 +400,7 @@ int main(int argc, char** argv) {
     config.method = a.method == "ml" ? fe::Method::max_likelihood : fe::Method::pca;
     config.first_as_of = last_date;  // exactly one window: the last `window` dates
     fs::set_model(db, kModel, config);
-    const fs::RefreshSummary refreshed = fs::refresh_model(db, kModel);
+    const fp::RefreshSummary refreshed = fp::refresh_model(db, kModel);
     if (refreshed.fitted != 1 || refreshed.unusable != 0)
       throw std::runtime_error("risk_bench: expected one usable window, the refresh fitted " +
                                std::to_string(refreshed.fitted) + " (" + std::to_string(refreshed.unusable) +
@@ -460,7 +461,7 @@ int main(int argc, char** argv) {
   const double first_us = micros(first_start, Clock::now());
   std::vector<double> cold_us, load_us;
   fs::Database& db = context.database();
-  const fv::WindowPick pick = fv::pick_window(db, fv::WindowQuery{kModel, "", {}});
+  const fp::WindowPick pick = fp::pick_window(db, fp::WindowQuery{kModel, "", {}});
   for (int i = 0; i < a.cold; ++i) {
     fv::RiskModelCache empty(fv::kRiskModelWindows);
     const fv::ApiContext cold_context = make_context(&empty);
@@ -468,12 +469,12 @@ int main(int argc, char** argv) {
     call(cold_context, get_json, fv::stored_portfolio_risk_endpoint);
     cold_us.push_back(micros(t0, Clock::now()));
     const auto t1 = Clock::now();
-    sink = sink + double(fv::load_window_risk_model(db, pick)->risk.factors());
+    sink = sink + double(fp::load_window_risk_model(db, pick)->risk.factors());
     load_us.push_back(micros(t1, Clock::now()));
   }
 
   // ---- the model and weights as the endpoint sees them ----
-  const std::shared_ptr<const fv::WindowRiskModel> window = fv::load_window_risk_model(db, pick);
+  const std::shared_ptr<const fp::WindowRiskModel> window = fp::load_window_risk_model(db, pick);
   const fe::RiskModel& model = window->risk;
   const auto stored_book = fs::read_portfolio(db, kBook);
   const auto stored_index = fs::read_portfolio(db, kIndex);
@@ -541,24 +542,24 @@ int main(int argc, char** argv) {
 
   // The body the daemon sends is the view's JSON as the CLI gets it (compact here).
   if (a.runs("get_json")) {
-    fv::RiskRequest q;
-    q.window = fv::WindowQuery{kModel, "", {}};
+    fp::RiskRequest q;
+    q.window = fp::WindowQuery{kModel, "", {}};
     q.portfolio = kBook;
     q.no_benchmark = true;
-    const std::string expected = fv::risk_json(fv::answer_risk(db, q, pick, window).report, {true, 0}).dump();
+    const std::string expected = fv::risk_json(fp::answer_risk(db, q, pick, window).report, {true, 0}).dump();
     const auto body = fv::stored_portfolio_risk_endpoint(context, get_json).body;
     if (*body != expected) throw std::runtime_error("risk_bench: the GET body differs from risk_json(...).dump()");
   }
 
   // ---- the GET path in parts ----
   const int s = a.split_queries, u = std::min(a.warmup, s);
-  fv::RiskRequest q_plain, q_bench;
-  q_plain.window = q_bench.window = fv::WindowQuery{kModel, "", {}};
+  fp::RiskRequest q_plain, q_bench;
+  q_plain.window = q_bench.window = fp::WindowQuery{kModel, "", {}};
   q_plain.portfolio = q_bench.portfolio = kBook;
   q_plain.no_benchmark = true;
   const fv::RiskViewOptions view{true, 0};
-  const fv::RiskReport plain = fv::answer_risk(db, q_plain, pick, window).report;
-  const fv::RiskReport benched = fv::answer_risk(db, q_bench, pick, window).report;
+  const fp::RiskReport plain = fp::answer_risk(db, q_plain, pick, window).report;
+  const fp::RiskReport benched = fp::answer_risk(db, q_bench, pick, window).report;
   const nlohmann::ordered_json plain_json = fv::risk_json(plain, view);
   const nlohmann::ordered_json benched_json = fv::risk_json(benched, view);
   struct Part {
@@ -566,12 +567,12 @@ int main(int argc, char** argv) {
     std::function<void()> call;
   };
   const std::vector<Part> parts = {
-      {"pick_window", [&] { sink = sink + double(fv::pick_window(db, fv::WindowQuery{kModel, "", {}}).model.id); }},
+      {"pick_window", [&] { sink = sink + double(fp::pick_window(db, fp::WindowQuery{kModel, "", {}}).model.id); }},
       {"risk_model_cache_find", [&] { sink = sink + double(risk_models.find(std::to_string(pick.model.id) + "|" + pick.stamp.key()) != nullptr); }},
       {"read_portfolio_book", [&] { sink = sink + double(fs::read_portfolio(db, kBook)->holdings.size()); }},
       {"read_portfolio_index", [&] { sink = sink + double(fs::read_portfolio(db, kIndex)->holdings.size()); }},
-      {"answer_risk", [&] { sink = sink + double(fv::answer_risk(db, q_plain, pick, window).report.books.size()); }},
-      {"answer_risk_benchmark", [&] { sink = sink + double(fv::answer_risk(db, q_bench, pick, window).report.books.size()); }},
+      {"answer_risk", [&] { sink = sink + double(fp::answer_risk(db, q_plain, pick, window).report.books.size()); }},
+      {"answer_risk_benchmark", [&] { sink = sink + double(fp::answer_risk(db, q_bench, pick, window).report.books.size()); }},
       {"engine_index", [&] { sink = sink + fe::portfolio_risk(model, stored_index->holdings).total.variance; }},
       {"risk_json_build", [&] { sink = sink + double(fv::risk_json(plain, view).size()); }},
       {"risk_json_build_benchmark", [&] { sink = sink + double(fv::risk_json(benched, view).size()); }},

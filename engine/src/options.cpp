@@ -10,22 +10,15 @@
 namespace factorwatch::engine {
 namespace {
 
+// "option 'field' = value: rule" for a fit's options; the rotation's messages name the
+// field alone ("rotation tolerance = ...": they are not a fit's options).
 template <typename T>
-bool fail(std::string* error, const char* field, T value, const char* rule) {
+bool fail(std::string* error, const char* field, T value, const char* rule, bool as_option = true) {
   if (error) {
     std::ostringstream os;
-    os << "option '" << field << "' = " << value << ": " << rule;
-    *error = os.str();
-  }
-  return false;
-}
-
-// The rotation's messages name the field without "option" (they are not a fit's options).
-template <typename T>
-bool fail_rotation(std::string* error, const char* field, T value, const char* rule) {
-  if (error) {
-    std::ostringstream os;
-    os << field << " = " << value << ": " << rule;
+    if (as_option) os << "option '" << field << "'";
+    else os << field;
+    os << " = " << value << ": " << rule;
     *error = os.str();
   }
   return false;
@@ -96,10 +89,10 @@ std::optional<Basis> parse_basis(const std::string& s) {
 
 bool RotationOptions::IsValid(std::string* error) const {
   if (!(tolerance > 0 && std::isfinite(tolerance)))
-    return fail_rotation(error, "rotation tolerance", tolerance, "must be a positive finite number");
-  if (max_iterations < 1) return fail_rotation(error, "rotation max_iterations", max_iterations, "must be at least 1");
+    return fail(error, "rotation tolerance", tolerance, "must be a positive finite number", false);
+  if (max_iterations < 1) return fail(error, "rotation max_iterations", max_iterations, "must be at least 1", false);
   if (!(promax_power > 1 && std::isfinite(promax_power)))
-    return fail_rotation(error, "promax power", promax_power, "must be a finite number greater than 1");
+    return fail(error, "promax power", promax_power, "must be a finite number greater than 1", false);
   return true;
 }
 
