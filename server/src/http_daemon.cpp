@@ -23,7 +23,6 @@
 #include "connection_gate.h"
 #include "host_rules.h"
 #include "factorwatch/engine/caution.h"
-#include "factorwatch/storage/damaged_data.h"
 #include "factorwatch/storage/data_directory.h"
 #include "factorwatch/storage/timestamps.h"
 #include "factorwatch/storage/models.h"
@@ -403,13 +402,8 @@ void Daemon::handle(const Route& route, const std::vector<std::string>& names, c
     // The token was checked from the head (answer_from_head); here it only decides what
     // a read may show (the health route's full database path).
     request.authorised = req.has_header("Authorization") && tokens_.accepts(req.get_header_value("Authorization"));
-    response = route.handler(context_, request);
-  } catch (const storage::DamagedData& e) {
-    // The database file, not the request, is at fault: say which row, and how to see them all.
-    std::fprintf(stderr, "%s error in %s %s: %s\n", storage::utc_timestamp().c_str(), req.method.c_str(), req.path.c_str(), e.what());
-    response = problem(500, std::string(e.what()) + " (factorwatch verify lists every damaged row)", req.path);
-  } catch (const std::exception& e) {
-    std::fprintf(stderr, "%s error in %s %s: %s\n", storage::utc_timestamp().c_str(), req.method.c_str(), req.path.c_str(), e.what());
+    response = call_route(route, context_, request);  // a handler's exception is a 500 problem there
+  } catch (const std::exception& e) {  // building the request itself failed (memory)
     response = problem(500, std::string("internal error: ") + e.what(), req.path);
   }
   send(response, res);

@@ -1,7 +1,13 @@
 #include "routes.h"
 
+#include <cstdio>
+#include <exception>
+#include <string>
+
 #include "data_endpoints.h"
 #include "drift_endpoints.h"
+#include "factorwatch/storage/damaged_data.h"
+#include "factorwatch/storage/timestamps.h"
 #include "factor_returns_endpoints.h"
 #include "model_endpoints.h"
 #include "portfolio_endpoints.h"
@@ -60,6 +66,21 @@ const std::vector<Route>& api_routes() {
       {"GET", "/v1/jobs/{id}", false, false, "One job: state, progress and summary", show_job_endpoint},
   };
   return routes;
+}
+
+ApiResponse call_route(const Route& route, const ApiContext& context, const ApiRequest& request) {
+  try {
+    return route.handler(context, request);
+  } catch (const storage::DamagedData& e) {
+    // The database file, not the request, is at fault: say which row, and how to see them all.
+    std::fprintf(stderr, "%s error in %s %s: %s\n", storage::utc_timestamp().c_str(), request.method.c_str(),
+                 request.path.c_str(), e.what());
+    return problem(500, std::string(e.what()) + " (factorwatch verify lists every damaged row)", request.path);
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "%s error in %s %s: %s\n", storage::utc_timestamp().c_str(), request.method.c_str(),
+                 request.path.c_str(), e.what());
+    return problem(500, std::string("internal error: ") + e.what(), request.path);
+  }
 }
 
 }  // namespace factorwatch::server

@@ -22,4 +22,10 @@ struct Route {
 
 const std::vector<Route>& api_routes();
 
+// Runs the route's handler as the daemon does: a handler that throws is answered with a
+// 500 problem (damaged data named, with the hint to run `factorwatch verify`) and a line
+// on stderr, never with a dropped connection. The daemon and the in-process handler tests
+// (tests/handler_fixture.h) both call this.
+ApiResponse call_route(const Route& route, const ApiContext& context, const ApiRequest& request);
+
 }  // namespace factorwatch::server

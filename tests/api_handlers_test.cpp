@@ -1,0 +1,152 @@
+// The HTTP API's handlers in process (handler_fixture.h): the requests of the daemon's
+// problem tests answered without a socket, and a hostile sweep of every read route with
+// malformed query values. Returns are planted-structure data (invented, for tests).
+#include <gtest/gtest.h>
+
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "factorwatch/engine/caution.h"
+#include "factorwatch/pipeline/refresh.h"
+#include "factorwatch/storage/models.h"
+#include "handler_fixture.h"
+#include "simulated_model.h"
+#include "storage_fixtures.h"
+
+namespace {
+
+namespace fw = factorwatch::testing;
+using nlohmann::json;
+
+// `dates` business days of 40 assets from a 2-factor planted model, uploaded with the
+// token, model m defined by `model_json`, and refreshed (synchronously).
+void load_and_fit(fw::InProcessApi& api, const fw::TempDir& dir, int dates, const std::string& model_json) {
+  auto planted = fw::simulate_planted_model(dates, 40, 2, 20261202u);
+  planted.panel.dates = fw::business_dates(dates);
+  fw::write_long_csv(dir.file("returns.csv"), planted.panel);
+  const auto up = api.call("POST", "/v1/returns?file=returns.csv", fw::read_bytes(dir.file("returns.csv")), "text/csv");
+  ASSERT_EQ(up.status, 200) << *up.body;
+  const auto put = api.call("PUT", "/v1/models/m", model_json);
+  ASSERT_EQ(put.status, 201) << *put.body;
+  const auto summary = factorwatch::pipeline::refresh_model(api.context().database(), "m");
+  ASSERT_GT(summary.fitted, 0u);
+}
+
+void expect_problem(const factorwatch::server::ApiResponse& r, int status, const std::string& field,
+                    const std::string& what) {
+  EXPECT_EQ(r.status, status) << what << " " << *r.body;
+  EXPECT_EQ(r.content_type, "application/problem+json") << what;
+  const json p = json::parse(*r.body);
+  EXPECT_EQ(p["status"], status) << what;
+  EXPECT_EQ(p["type"], "about:blank") << what;
+  EXPECT_FALSE(p["detail"].get<std::string>().empty()) << what;
+  if (!field.empty()) {
+    EXPECT_EQ(p["field"], field) << what << " " << *r.body;
+    EXPECT_NE(p["detail"].get<std::string>().find(field), std::string::npos) << what << " " << *r.body;
+  }
+}
+
+// As Daemon.ErrorsAreProblemDetailsNamingTheField, for what the handlers decide (the
+// daemon's glue answers 405 and the upload's Content-Type itself).
+TEST(ApiHandlers, ErrorsAreProblemDetailsNamingTheField) {
+  fw::TempDir dir;
+  fw::InProcessApi api(dir.path());
+  load_and_fit(api, dir, 120, R"({"factors":2,"window":100,"step":20,"method":"pca"})");
+  struct Case {
+    std::string method, target, body;
+    int status;
+    std::string field;
+  };
+  const std::vector<Case> cases = {
+      {"GET", "/v1/models/m/exposures?as_of=2021-02-30", "", 400, "as_of"},
+      {"GET", "/v1/models/m/exposures?format=xml", "", 400, "format"},
+      {"GET", "/v1/models/nope/exposures", "", 404, "name"},
+      {"GET", "/v1/models/m/exposures?as_of=1999-01-01", "", 404, "as_of"},
+      {"GET", "/v1/jobs/77", "", 404, "id"},
+      {"GET", "/v1/nothing-here", "", 404, ""},
+      {"PUT", "/v1/models/m", R"({"factors":"two"})", 400, "factors"},
+      {"PUT", "/v1/models/m", R"({"min_coverage":3})", 400, "min_coverage"},
+      {"PUT", "/v1/models/m", R"({"colour":1})", 400, "colour"},
+      {"PUT", "/v1/models/m", "not json", 400, "body"},
+      {"POST", "/v1/returns?prices=maybe", "x", 400, "prices"},
+  };
+  for (const Case& c : cases)
+    expect_problem(api.call(c.method, c.target, c.body, c.method == "POST" ? "text/csv" : ""), c.status, c.field,
+                   c.target);
+}
+
+// As Daemon.DriftHistoryAndAlertsProblemsNameTheField.
+TEST(ApiHandlers, DriftHistoryAndAlertsProblemsNameTheField) {
+  fw::TempDir dir;
+  fw::InProcessApi api(dir.path());
+  load_and_fit(api, dir, 120, R"({"factors":2,"window":60,"step":20,"method":"pca"})");
+  const std::string first = json::parse(*api.call("GET", "/v1/models/m/windows").body)["windows"][0]["as_of"];
+  struct Case {
+    std::string target;
+    int status;
+    std::string field;
+  };
+  const std::vector<Case> cases = {
+      {"/v1/models/m/drift?from=2021-02-30", 400, "from"},
+      {"/v1/models/m/drift?to=tomorrow", 400, "to"},
+      {"/v1/models/m/drift?from=2021-06-01&to=2021-05-01", 400, "to"},
+      {"/v1/models/m/drift?against=sideways", 400, "against"},
+      {"/v1/models/m/drift?window=" + first + "&against=both", 400, "against"},
+      {"/v1/models/m/drift?window=2021-13-01", 400, "window"},
+      {"/v1/models/m/drift?window=" + first + "&from=" + first, 400, "window"},
+      {"/v1/models/m/drift?window=2019-01-01", 404, "window"},
+      {"/v1/models/m/drift?window=" + first, 404, "window"},  // the first window: nothing before it
+      {"/v1/models/m/drift?format=xml", 400, "format"},
+      {"/v1/models/nope/drift", 404, "name"},
+      {"/v1/models/m/history", 400, "asset"},
+      {"/v1/models/m/history?asset=NOPE", 404, "asset"},
+      {"/v1/models/m/history?asset=P1001&from=01/02/2021", 400, "from"},
+      {"/v1/models/nope/history?asset=P1001", 404, "name"},
+      {"/v1/models/m/alerts?to=2021-04-31", 400, "to"},
+      {"/v1/models/nope/alerts", 404, "name"},
+  };
+  for (const Case& c : cases) expect_problem(api.call("GET", c.target), c.status, c.field, c.target);
+  EXPECT_NE(api.call("GET", "/v1/models/m/history?asset=NOPE").body->find("'NOPE'"), std::string::npos);
+}
+
+// Every read route, with each query parameter a route may take set to a value a hostile
+// client might send: bytes that are not UTF-8, a NUL, an impossible, a future or a
+// pre-data date, a huge or negative number, 100 000 characters. Each answer is a client
+// error or a correct answer (never a 500), and its body is valid JSON or CSV text that a
+// client can read (no raw invalid UTF-8 in JSON).
+TEST(ApiHandlers, HostileQueryValuesNeverGiveAServerError) {
+  fw::TempDir dir;
+  fw::InProcessApi api(dir.path());
+  load_and_fit(api, dir, 120, R"({"factors":2,"window":60,"step":20,"method":"pca"})");
+  const std::vector<std::string> parameters = {"as_of", "from", "to", "window", "asset", "assets", "against", "format",
+                                               "method", "portfolio", "benchmark", "portfolio_as_of", "no_benchmark",
+                                               "limit", "no_assets", "prices", "file"};
+  const std::vector<std::string> values = {"%FF%FE",     "%00",        "2021-02-30", "2999-12-31", "1900-01-01",
+                                           "2021-01-02", "-1",         "1e400",      "99999999999999999999",
+                                           std::string(100000, 'x'),   "",           "%C0%AE%C0%AE", "P1001%2C%FF"};
+  std::size_t calls = 0;
+  for (const auto& route : factorwatch::server::api_routes()) {
+    if (std::string(route.method) != "GET") continue;
+    std::string path = route.path;
+    for (const auto& [placeholder, value] : {std::pair<std::string, std::string>{"{name}", "m"}, {"{id}", "1"}})
+      if (const auto at = path.find(placeholder); at != std::string::npos) path.replace(at, placeholder.size(), value);
+    for (const std::string& parameter : parameters)
+      for (const std::string& value : values) {
+        for (const std::string& format : {std::string("json"), std::string("csv")}) {
+          const std::string target = path + "?" + parameter + "=" + value + (parameter == "format" ? "" : "&format=" + format);
+          const auto r = api.call("GET", target);
+          ++calls;
+          const std::string shown = target.substr(0, 120);
+          ASSERT_TRUE(r.body) << shown;
+          EXPECT_LT(r.status, 500) << shown << " " << r.body->substr(0, 300);
+          if (r.content_type.rfind("application/", 0) == 0) {
+            EXPECT_TRUE(json::accept(*r.body)) << shown;
+          }
+        }
+      }
+  }
+  EXPECT_GT(calls, 3000u);
+}
+
+}  // namespace
