@@ -5,6 +5,7 @@
 
 #include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/assets.h"
+#include "factorwatch/storage/date_key.h"
 
 namespace factorwatch::pipeline {
 
@@ -87,8 +88,9 @@ std::string factor_basis_text(const SelectedWindow& s) {
 engine::Frequency window_frequency(const SelectedWindow& s) {
   const auto periods = s.window.fit.periods;
   if (periods < 2) return {};
-  return engine::frequency_from_gap(static_cast<double>(engine::days_between(s.window.first_date, s.window.as_of)) /
-                                    static_cast<double>(periods - 1));
+  const long days = storage::day_count(storage::date_key(s.window.as_of, "as-of date")) -
+                    storage::day_count(storage::date_key(s.window.first_date, "first date"));
+  return engine::frequency_from_gap(static_cast<double>(days) / static_cast<double>(periods - 1));
 }
 
 }  // namespace factorwatch::pipeline

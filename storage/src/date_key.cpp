@@ -22,6 +22,19 @@ std::string iso_date(std::int64_t key) {
   return text;
 }
 
+long day_count(std::int32_t key) {
+  // Richards' days-from-civil, as in H. Hinnant's "chrono-compatible low-level date
+  // algorithms": March-based years make the leap day the last day of a year.
+  long y = key / 10000;
+  const long m = key / 100 % 100, d = key % 100;
+  y -= m <= 2;
+  const long era = (y >= 0 ? y : y - 399) / 400;
+  const long yoe = y - era * 400;
+  const long doy = (153 * (m + (m > 2 ? -3 : 9)) + 2) / 5 + d - 1;
+  const long doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+  return era * 146097 + doe - 719468;
+}
+
 std::string utc_now() {
   const std::time_t now = std::time(nullptr);
   std::tm parts{};

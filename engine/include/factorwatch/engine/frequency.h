@@ -2,8 +2,6 @@
 // annualisation (volatility x sqrt(periods per year); common practice).
 #pragma once
 
-#include <string>
-
 namespace factorwatch::engine {
 
 struct Frequency {
@@ -11,12 +9,10 @@ struct Frequency {
   int periods_per_year = 252;   // 252 trading days, 52 weeks, 12 months (common practice)
 };
 
-// From the typical calendar gap between dates, e.g. a window's span divided by its
-// number of gaps: up to 4 days daily (a weekend is 3), up to 10 weekly, up to 45
-// monthly, up to 120 quarterly, else annual.
+// From the typical calendar gap between dates, e.g. a window's span in calendar days
+// divided by its number of gaps: up to 4 days daily (a weekend is 3), up to 10 weekly, up
+// to 45 monthly, up to 120 quarterly, else annual. The engine takes day counts, never
+// date text: dates are parsed once, where they enter (storage/date_key.h).
 Frequency frequency_from_gap(double days);
-
-// Calendar days from `first` to `last` (ISO dates).
-long days_between(const std::string& first, const std::string& last);
 
 }  // namespace factorwatch::engine

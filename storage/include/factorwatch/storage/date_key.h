@@ -11,6 +11,10 @@ namespace factorwatch::storage {
 std::int32_t date_key(std::string_view iso, const char* what = "date");
 std::string iso_date(std::int64_t key);
 
+// Days since 1970-01-01 of a valid date key (proleptic Gregorian calendar; negative
+// before 1970): the count the engine takes where a span of dates matters.
+long day_count(std::int32_t key);
+
 // Now, UTC, as yyyy-mm-ddThh:mm:ssZ.
 std::string utc_now();
 
