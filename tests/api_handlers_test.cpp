@@ -76,7 +76,8 @@ TEST(ApiHandlers, ErrorsAreProblemDetailsNamingTheField) {
                    c.target);
 }
 
-// As Daemon.DriftHistoryAndAlertsProblemsNameTheField.
+// Drift, history and alerts: every malformed or unknown input is a problem naming its
+// field (moved here from the end-to-end daemon test, whose socket added nothing to it).
 TEST(ApiHandlers, DriftHistoryAndAlertsProblemsNameTheField) {
   fw::TempDir dir;
   fw::InProcessApi api(dir.path());
