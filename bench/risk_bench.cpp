@@ -369,7 +369,7 @@ nlohmann::json run_peer(const Args& a, const std::string& dir) {
 
 int main(int argc, char** argv) {
   const Args a = parse(argc, argv);
-  // The daemon's process keeps freed memory (server/src/main.cpp): the same here, or every
+  // The daemon's process keeps freed memory (server/src/cli/main.cpp): the same here, or every
   // query's bodies of hundreds of KB would come as fresh pages from the kernel each time.
   mallopt(M_MMAP_THRESHOLD, 64 << 20);
   mallopt(M_TRIM_THRESHOLD, 256 << 20);
@@ -420,7 +420,7 @@ int main(int argc, char** argv) {
   panel = fe::ReturnsPanel{};  // the fit is stored; the panel is not needed any more
   const double setup_seconds = std::chrono::duration<double>(Clock::now() - setup_start).count();
 
-  // The context as the daemon sets it up (server/src/http_daemon.cpp): this thread's
+  // The context as the daemon sets it up (server/src/http/http_daemon.cpp): this thread's
   // connection opened on first use, the response cache (256 MiB, the default --cache-mb)
   // and the risk model cache (kRiskModelWindows windows); the refresh jobs' worker idles.
   fv::ResponseCache response_cache(std::size_t(256) << 20);

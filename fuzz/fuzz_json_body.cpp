@@ -1,4 +1,4 @@
-// The strict JSON body parser every JSON request goes through (server/src/json_body.h):
+// The strict JSON body parser every JSON request goes through (server/src/http/json_body.h):
 // a value, or std::invalid_argument with a message the daemon can send.
 #include "fuzz_checks.h"
 #include "json_body.h"

@@ -1,4 +1,4 @@
-// The model definition of PUT /v1/models/{name} (server/src/model_definition.h), applied
+// The model definition of PUT /v1/models/{name} (server/src/http/model_definition.h), applied
 // over the default configuration without a database: a valid configuration or a problem.
 #include "fuzz_checks.h"
 #include "model_definition.h"

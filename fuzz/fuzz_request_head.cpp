@@ -1,5 +1,5 @@
 // A request as it reaches the daemon: the head check of the connection gate
-// (server/src/request_head.h) on raw bytes, then, for a head it lets through, the path
+// (server/src/http/request_head.h) on raw bytes, then, for a head it lets through, the path
 // and query decoded as the HTTP library decodes them, the Host and Origin rules, the
 // format choice and the problem body that quotes the path (building that body from a
 // byte that is not UTF-8 used to abort the daemon).
@@ -8,7 +8,7 @@
 #include "host_rules.h"
 #include "request_head.h"
 
-// Last: through <resolv.h> it defines the macro _res (see server/src/http_daemon.cpp).
+// Last: through <resolv.h> it defines the macro _res (see server/src/http/http_daemon.cpp).
 #include <httplib.h>
 
 using namespace factorwatch;

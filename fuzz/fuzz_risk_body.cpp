@@ -1,4 +1,4 @@
-// The body of POST /v1/models/{name}/risk (server/src/risk_body.h) without a database:
+// The body of POST /v1/models/{name}/risk (server/src/http/risk_body.h) without a database:
 // weights, a stored name, a benchmark and a trade, or a problem naming the member.
 #include "fuzz_checks.h"
 #include "risk_body.h"
@@ -6,7 +6,7 @@
 using namespace factorwatch;
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
-  server::RiskRequest q;
+  pipeline::RiskRequest q;
   if (const auto bad = server::read_risk_body(fuzz::as_text(data, size), q)) {
     fuzz::require_clean_message(bad->message, bad->field);
     return 0;

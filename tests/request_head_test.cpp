@@ -1,6 +1,6 @@
 // The request-head check and the Host/Origin rules, as pure functions. The rules come
 // from RFC 9112 (HTTP/1.1 message syntax) and RFC 9110 (semantics), cited per test; the
-// limits are the daemon's own (server/src/request_head.h says why each is what it is).
+// limits are the daemon's own (server/src/http/request_head.h says why each is what it is).
 #include <gtest/gtest.h>
 
 #include "host_rules.h"
