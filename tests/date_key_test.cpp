@@ -41,6 +41,7 @@ TEST(DateKey, MalformedDatesAreRefusedNotTakenAsDayZero) {
 // The classification by the typical gap between dates (frequency.h; the calendar spans
 // of the windows below are counted by day_count): 504 business days span about 705
 // calendar days (a gap of 1.4), weekly data 7, month ends about 30.4, quarter ends 91.
+// 12 periods a year for monthly data, like 252 for daily: common practice.
 TEST(DateKey, WindowSpansGiveTheFrequency) {
   const auto gap = [](const char* first, const char* last, int dates) {
     return static_cast<double>(storage::day_count(storage::date_key(last)) -

@@ -4,7 +4,6 @@
 #include <chrono>
 #include <cmath>
 #include <memory>
-#include <nlohmann/json.hpp>
 #include <optional>
 #include <string>
 #include <vector>
@@ -45,12 +44,6 @@ std::optional<engine::FactorFit> served_window(Database& db, long model_version_
   auto w = read_served_window(db, model_version_id, iso_date(as_of), false);
   if (!w || !w->fit.IsSolutionUsable()) return std::nullopt;
   return std::move(w->fit);
-}
-
-// Whether the window was aligned directly onto the window of this as-of date (the rule of
-// aligned_directly_onto, for a row not yet read back).
-bool aligned_onto(const WindowAlignment& a, std::int32_t as_of) {
-  return a.status == engine::to_string(engine::AlignmentStatus::aligned) && a.reference_as_of == iso_date(as_of);
 }
 
 bool below(double congruence, double threshold) {
@@ -274,15 +267,18 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       pinned_known = true;
     }
 
-    if (previous)
+    if (previous) {
+      const bool in_its_basis = aligned_directly_onto(&row, iso_date(previous_as_of));
       run.alerts += write_drift(db, rows[i].window_id, "previous", previous_as_of,
-                                compare_served(fit, *previous, min_shared, aligned_onto(row, previous_as_of)), c.alert_below);
+                                compare_served(fit, *previous, min_shared, in_its_basis), c.alert_below);
+    }
     if (i == pinned) prior_pinned = at_pinned;
     if (pinned != kNone && i != pinned) {
       if (i < pinned) {
         deferred.push_back(i);  // compared after the loop, walking back from the pinned window
       } else if (pinned_fit) {
-        const engine::DriftComparison d = compare_served(fit, *pinned_fit, min_shared, aligned_onto(row, rows[pinned].as_of));
+        const bool in_its_basis = aligned_directly_onto(&row, iso_date(rows[pinned].as_of));
+        const engine::DriftComparison d = compare_served(fit, *pinned_fit, min_shared, in_its_basis);
         run.alerts += write_drift(db, rows[i].window_id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned,
                                   prior_pinned ? &*prior_pinned : nullptr);
         if (d.status == engine::DriftStatus::compared) prior_pinned = d.congruence;
@@ -306,7 +302,8 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       if (!transaction) transaction.emplace(db);
       storage::forget_drift(db, rows[i].window_id, "pinned");
       const engine::DriftComparison d =
-          compare_served(w->fit, *pinned_fit, min_shared, aligned_directly_onto(w->alignment, iso_date(rows[pinned].as_of)));
+          compare_served(w->fit, *pinned_fit, min_shared,
+                         aligned_directly_onto(w->alignment ? &*w->alignment : nullptr, iso_date(rows[pinned].as_of)));
       run.alerts += write_drift(db, rows[i].window_id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned, &*prior);
       if (d.status == engine::DriftStatus::compared) prior = d.congruence;
       if (++in_transaction == kWindowsPerCommit) commit();

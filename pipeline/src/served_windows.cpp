@@ -27,7 +27,7 @@ std::optional<engine::DriftComparison> compare_stored_windows(storage::Database&
   if (!now || !then || !now->fit.IsSolutionUsable() || !then->fit.IsSolutionUsable()) return std::nullopt;
   // As the refresh compared them (window_comparison.h).
   return detail::compare_served(now->fit, then->fit, min_shared,
-                                detail::aligned_directly_onto(now->alignment, then->as_of));
+                                detail::aligned_directly_onto(now->alignment ? &*now->alignment : nullptr, then->as_of));
 }
 
 std::vector<ExposurePoint> exposure_history(storage::Database& db, long model_version_id, const std::string& asset,

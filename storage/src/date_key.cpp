@@ -35,7 +35,7 @@ long day_count(std::int32_t key) {
   return era * 146097 + doe - 719468;
 }
 
-std::string utc_now() {
+std::string utc_timestamp() {
   const std::time_t now = std::time(nullptr);
   std::tm parts{};
   gmtime_r(&now, &parts);
@@ -43,8 +43,6 @@ std::string utc_now() {
   std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &parts);
   return text;
 }
-
-std::string utc_timestamp() { return utc_now(); }
 
 bool is_calendar_date(std::string_view text) { return detail::parse_iso_date(text).has_value(); }
 

@@ -13,6 +13,7 @@
 
 #include "blob_codec.h"
 #include "factorwatch/storage/date_key.h"
+#include "factorwatch/storage/timestamps.h"
 #include "returns_rows.h"
 
 namespace factorwatch::storage {
@@ -165,7 +166,7 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
                         "outcome, seconds) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
   run.bind(1, source.path);
   run.bind(2, source.content_sha256);
-  run.bind(3, utc_now());
+  run.bind(3, utc_timestamp());
   run.bind(4, source.layout);
   run.bind(5, source.values_in_file);
   run.bind(6, static_cast<std::int64_t>(source.data_rows));

@@ -13,6 +13,7 @@
 #include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/timestamps.h"
 #include "fingerprint.h"
 
 namespace factorwatch::storage {
@@ -221,7 +222,7 @@ SetModelOutcome set_model(Database& db, const std::string& name, const ModelConf
   } else {
     SQLite::Statement insert(sql, "INSERT INTO models (name, created_at) VALUES (?, ?)");
     insert.bind(1, name);
-    insert.bind(2, utc_now());
+    insert.bind(2, utc_timestamp());
     insert.exec();
     model_id = static_cast<long>(sql.getLastInsertRowid());
     outcome.created = true;
@@ -233,7 +234,7 @@ SetModelOutcome set_model(Database& db, const std::string& name, const ModelConf
   insert.bind(2, current ? current->version + 1 : 1);
   insert.bind(3, config.to_json().dump());
   insert.bind(4, hash);
-  insert.bind(5, utc_now());
+  insert.bind(5, utc_timestamp());
   insert.exec();
   transaction.commit();
   outcome.new_version = true;

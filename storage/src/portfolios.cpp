@@ -13,6 +13,7 @@
 #include "cell_parse.h"
 #include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/identifier_rule.h"
+#include "factorwatch/storage/timestamps.h"
 #include "holdings_file.h"
 
 namespace factorwatch::storage {
@@ -92,7 +93,7 @@ SavePortfolioOutcome save_portfolio(Database& db, const Portfolio& portfolio) {
   if (id == 0) {
     SQLite::Statement insert(sql, "INSERT INTO portfolios (name, created_at) VALUES (?, ?)");
     insert.bind(1, portfolio.name);
-    insert.bind(2, utc_now());
+    insert.bind(2, utc_timestamp());
     insert.exec();
     id = sql.getLastInsertRowid();
     outcome.created = true;
@@ -113,7 +114,7 @@ SavePortfolioOutcome save_portfolio(Database& db, const Portfolio& portfolio) {
     }
   }
 
-  const std::string now = utc_now();
+  const std::string now = utc_timestamp();
   if (set_id != 0) {
     SQLite::Statement clear(sql, "DELETE FROM holdings WHERE set_id = ?");
     clear.bind(1, set_id);

@@ -7,6 +7,7 @@
 
 #include "blob_codec.h"
 #include "factorwatch/storage/date_key.h"
+#include "factorwatch/storage/timestamps.h"
 
 namespace factorwatch::storage {
 namespace {
@@ -45,7 +46,7 @@ void save_alignment(Database& db, long long window_id, const WindowAlignment& a)
   if (std::isfinite(a.residual)) q.bind(8, a.residual);
   else q.bind(8);
   bind_blob(q, 9, detail::encode_doubles(a.factor_fit));
-  q.bind(10, utc_now());
+  q.bind(10, utc_timestamp());
   q.exec();
 }
 

@@ -15,6 +15,7 @@
 #include "damage_context.h"
 #include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/returns_span.h"
+#include "factorwatch/storage/timestamps.h"
 
 namespace factorwatch::storage {
 namespace {
@@ -232,7 +233,7 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& w, std
   q.bind(21, statistics(fit).dump());
   q.bind(22, fit.fit_seconds);
   q.bind(23, w.total_seconds);
-  q.bind(24, w.fitted_at.empty() ? utc_now() : w.fitted_at);
+  q.bind(24, w.fitted_at.empty() ? utc_timestamp() : w.fitted_at);
   if (w.rotation.size() > 0) bind_blob(q, 25, detail::encode_doubles(w.rotation));
   else q.bind(25);  // NULL: no rotation
   q.bind(26, current ? 0 : 1);

@@ -15,7 +15,4 @@ std::string iso_date(std::int64_t key);
 // before 1970): the count the engine takes where a span of dates matters.
 long day_count(std::int32_t key);
 
-// Now, UTC, as yyyy-mm-ddThh:mm:ssZ.
-std::string utc_now();
-
 }  // namespace factorwatch::storage
