@@ -3,6 +3,7 @@
 // malformed query values. Returns are planted-structure data (invented, for tests).
 #include <gtest/gtest.h>
 
+#include <limits>
 #include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
@@ -148,6 +149,43 @@ TEST(ApiHandlers, HostileQueryValuesNeverGiveAServerError) {
       }
   }
   EXPECT_GT(calls, 3000u);
+}
+
+// A window whose fit failed is no model to answer with: exposures, specific risk, risk,
+// factor returns and residuals answer 409 naming the window's date, the one status for
+// that failure. Before, the factor-returns routes answered 404, and every read of such a
+// window failed as "stored data damaged" (exposures and risk with a 500): a failed fit is
+// stored with its assets and no loadings, which the read took for a damaged row. Planted
+// data: after date 80 only two of the 40 assets have returns, so the last windows keep
+// two assets, too few for two factors by principal-axis, and their fits fail.
+TEST(ApiHandlers, AWindowWhoseFitFailedIsAConflictOnEveryRouteThatNeedsIt) {
+  fw::TempDir dir;
+  fw::InProcessApi api(dir.path());
+  auto planted = fw::simulate_planted_model(120, 40, 2, 20261205u);
+  planted.panel.dates = fw::business_dates(120);
+  planted.panel.values.bottomRightCorner(40, 38).setConstant(std::numeric_limits<double>::quiet_NaN());
+  fw::write_long_csv(dir.file("returns.csv"), planted.panel);
+  ASSERT_EQ(api.call("POST", "/v1/returns?file=returns.csv", fw::read_bytes(dir.file("returns.csv")), "text/csv").status,
+            200);
+  ASSERT_EQ(api.call("PUT", "/v1/models/m", R"({"factors":2,"window":60,"step":20,"method":"principal-axis"})").status,
+            201);
+  const auto summary = factorwatch::pipeline::refresh_model(api.context().database(), "m");
+  ASSERT_GT(summary.unusable, 0u);
+  ASSERT_GT(summary.fitted, summary.unusable);
+  const std::string last = planted.panel.dates.back();
+  const std::string asset = planted.panel.assets.front();
+  expect_problem(api.call("GET", "/v1/models/m/exposures"), 409, "as_of", "exposures");
+  expect_problem(api.call("GET", "/v1/models/m/specific-risk?format=csv"), 409, "as_of", "specific risk");
+  expect_problem(api.call("GET", "/v1/models/m/factor-returns?window=" + last), 409, "window", "factor returns");
+  expect_problem(api.call("GET", "/v1/models/m/residuals?asset=" + asset + "&window=" + last), 409, "window",
+                 "residuals");
+  const std::string weights = R"({"weights":{")" + asset + R"(":1}})";
+  expect_problem(api.call("POST", "/v1/models/m/risk", weights), 409, "as_of", "risk");
+  // An earlier window still answers, and the series of factor returns skips the failed ones.
+  const auto earlier = api.call("POST", "/v1/models/m/risk?as_of=" + planted.panel.dates[79], weights);
+  EXPECT_EQ(earlier.status, 200) << *earlier.body;
+  EXPECT_EQ(api.call("GET", "/v1/models/m/exposures?as_of=" + planted.panel.dates[79]).status, 200);
+  EXPECT_EQ(api.call("GET", "/v1/models/m/factor-returns").status, 200);
 }
 
 }  // namespace

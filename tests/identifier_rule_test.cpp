@@ -187,9 +187,11 @@ TEST_F(IdentifierReaders, UniverseFileAndConfigurationFollowTheRule) {
                  "holds a control character (U+001B)");
   fw::ModelConfig config;
   config.universe = {"ZQ-1", "ZQ" + kNul + "a"};
-  std::string error;
-  EXPECT_FALSE(config.IsValid(&error));
-  EXPECT_NE(error.find("universe: the asset name 'ZQ\\x00a' holds a control character"), std::string::npos) << error;
+  const auto failure = config.FirstFailure();
+  ASSERT_TRUE(failure);
+  EXPECT_EQ(failure->field, "universe");
+  EXPECT_NE(failure->rule.find("the asset name 'ZQ\\x00a' holds a control character"), std::string::npos)
+      << failure->rule;
 }
 
 }  // namespace

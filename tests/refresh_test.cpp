@@ -240,10 +240,10 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
   }
   EXPECT_EQ(pipeline::read_served_window(db, v2.model.id, "")->fit.tolerance, 1e-12);
 
-  std::string error;
   tighter.tolerance = 0.5;
-  EXPECT_FALSE(tighter.IsValid(&error));
-  EXPECT_NE(error.find("'--tolerance'"), std::string::npos) << error;
+  const auto failure = tighter.FirstFailure();
+  ASSERT_TRUE(failure);
+  EXPECT_EQ(failure->field, "tolerance");
 }
 
 // A window stored before the gradient rule has no criterion: it reads back as NaN (shown

@@ -10,47 +10,57 @@
 namespace factorwatch::engine {
 namespace {
 
-// "option 'field' = value: rule" for a fit's options; the rotation's messages name the
-// field alone ("rotation tolerance = ...": they are not a fit's options).
 template <typename T>
-bool fail(std::string* error, const char* field, T value, const char* rule, bool as_option = true) {
-  if (error) {
-    std::ostringstream os;
-    if (as_option) os << "option '" << field << "'";
-    else os << field;
-    os << " = " << value << ": " << rule;
-    *error = os.str();
-  }
+std::string number_text(T value) {
+  std::ostringstream os;
+  os << value;
+  return os.str();
+}
+
+template <typename T>
+Failure broken(const char* field, T value, const char* rule) {
+  return bad_number(field, number_text(value), rule);
+}
+
+// The rotation's messages name the field alone ("rotation tolerance = ...": they are not
+// a fit's options).
+template <typename T>
+bool fail(std::string* error, const char* field, T value, const char* rule) {
+  if (error) *error = describe(broken(field, value, rule), field);
   return false;
 }
 
 }  // namespace
 
-bool FitOptions::IsValid(std::string* error) const {
-  if (factors < 1) return fail(error, "factors", factors, "must be at least 1");
+std::optional<Failure> FitOptions::FirstFailure() const {
+  if (factors < 1) return broken("factors", factors, "must be at least 1");
   if (weighting == Weighting::ewma && !(half_life > 0 && std::isfinite(half_life)))
-    return fail(error, "half_life", half_life, "must be a positive number of periods for EWMA weights");
-  if (!(min_coverage > 0 && min_coverage <= 1))
-    return fail(error, "min_coverage", min_coverage, "must be in (0, 1]");
+    return broken("half_life", half_life, "must be a positive number of periods for EWMA weights");
+  if (!(min_coverage > 0 && min_coverage <= 1)) return broken("min_coverage", min_coverage, "must be in (0, 1]");
   if (!(constant_threshold >= 0 && constant_threshold < 1))
-    return fail(error, "constant_threshold", constant_threshold, "must be in [0, 1)");
+    return broken("constant_threshold", constant_threshold, "must be in [0, 1)");
   if (!(specific_floor > 0 && specific_floor < 1))
-    return fail(error, "specific_floor", specific_floor, "must be in (0, 1)");
+    return broken("specific_floor", specific_floor, "must be in (0, 1)");
   // Above 0.01 "converged" would be far from the optimum for either meaning of the tolerance.
-  if (!(tolerance > 0 && tolerance <= 0.01)) return fail(error, "tolerance", tolerance, "must be in (0, 0.01]");
-  if (max_iterations < 1) return fail(error, "max_iterations", max_iterations, "must be at least 1");
+  if (!(tolerance > 0 && tolerance <= 0.01)) return broken("tolerance", tolerance, "must be in (0, 0.01]");
+  if (max_iterations < 1) return broken("max_iterations", max_iterations, "must be at least 1");
   if (eigenvalues_to_report < 0)
-    return fail(error, "eigenvalues_to_report", eigenvalues_to_report, "must be 0 (default) or positive");
+    return broken("eigenvalues_to_report", eigenvalues_to_report, "must be 0 (default) or positive");
   if (warm_start) {
     const auto& w = *warm_start;
     if (w.loadings.rows() != Eigen::Index(w.assets.size()) ||
         w.specific_variance.size() != Eigen::Index(w.assets.size()))
-      return fail(error, "warm_start", w.assets.size(),
-                  "assets, loadings rows and specific_variance must have the same length");
+      return broken("warm_start", w.assets.size(), "assets, loadings rows and specific_variance must have the same length");
     if (w.loadings.cols() != factors)
-      return fail(error, "warm_start.loadings columns", w.loadings.cols(), "must equal factors");
+      return broken("warm_start.loadings columns", w.loadings.cols(), "must equal factors");
   }
-  return true;
+  return std::nullopt;
+}
+
+bool FitOptions::IsValid(std::string* error) const {
+  const auto f = FirstFailure();
+  if (f && error) *error = describe(*f);
+  return !f;
 }
 
 const char* to_string(Method m) {
@@ -89,10 +99,10 @@ std::optional<Basis> parse_basis(const std::string& s) {
 
 bool RotationOptions::IsValid(std::string* error) const {
   if (!(tolerance > 0 && std::isfinite(tolerance)))
-    return fail(error, "rotation tolerance", tolerance, "must be a positive finite number", false);
-  if (max_iterations < 1) return fail(error, "rotation max_iterations", max_iterations, "must be at least 1", false);
+    return fail(error, "rotation tolerance", tolerance, "must be a positive finite number");
+  if (max_iterations < 1) return fail(error, "rotation max_iterations", max_iterations, "must be at least 1");
   if (!(promax_power > 1 && std::isfinite(promax_power)))
-    return fail(error, "promax power", promax_power, "must be a finite number greater than 1", false);
+    return fail(error, "promax power", promax_power, "must be a finite number greater than 1");
   return true;
 }
 

@@ -184,6 +184,18 @@ PortfolioRisk portfolio_risk(const RiskModel& model, const Holdings& holdings) {
   return out;
 }
 
+std::optional<Failure> weights_failure(const Holdings& holdings, const std::string& field) {
+  std::unordered_set<std::string_view> seen;
+  seen.reserve(holdings.size());
+  for (const Holding& h : holdings) {
+    if (!seen.insert(h.asset).second)
+      return failure(FailureKind::rejected, field, "", "asset '" + h.asset + "' appears more than once");
+    if (!std::isfinite(h.weight))
+      return failure(FailureKind::rejected, field, "", "the weight of asset '" + h.asset + "' is not finite");
+  }
+  return std::nullopt;
+}
+
 Holdings active_weights(const Holdings& portfolio, const Holdings& benchmark) {
   check_unique(portfolio, "active_weights (portfolio)");
   check_unique(benchmark, "active_weights (benchmark)");

@@ -18,18 +18,18 @@ QueryFailure check_range(storage::Database& db, const RangeQuery& q, storage::Mo
   if (auto f = check_date("from", q.from)) return f;
   if (auto f = check_date("to", q.to)) return f;
   if (!q.from.empty() && !q.to.empty() && q.to < q.from)  // ISO dates order as text
-    return query_failure(QueryOutcome::bad_input, "to", q.to, "before the start of the range, " + q.from);
+    return engine::failure(engine::FailureKind::bad_input, "to", q.to, "before the start of the range, " + q.from);
   const auto found = storage::find_model(db, q.model);
-  if (!found) return query_failure(QueryOutcome::no_model, "", q.model, "no model named '" + q.model + "'");
+  if (!found) return unknown_model(q.model);
   model = *found;
-  return {};
+  return std::nullopt;
 }
 
 }  // namespace
 
 QueryFailure check_date(const std::string& field, const std::string& value) {
-  if (value.empty() || storage::is_calendar_date(value)) return {};
-  return query_failure(QueryOutcome::bad_input, field, value, "not a date in the form yyyy-mm-dd");
+  if (value.empty() || storage::is_calendar_date(value)) return std::nullopt;
+  return engine::failure(engine::FailureKind::bad_input, field, value, "not a date in the form yyyy-mm-dd");
 }
 
 
@@ -69,27 +69,27 @@ std::string factor_list(const std::vector<Eigen::Index>& factors) {
 QueryFailure find_drift_series(storage::Database& db, const RangeQuery& q, const std::string& against,
                                DriftSeries& out) {
   if (against != "" && against != "both" && against != "previous" && against != "pinned")
-    return query_failure(QueryOutcome::bad_input, "against", against, "must be previous, pinned or both");
+    return engine::failure(engine::FailureKind::bad_input, "against", against, "must be previous, pinned or both");
   if (auto f = check_range(db, q, out.model)) return f;
   out.rows = storage::read_drift(db, out.model.id, q.from, q.to, against == "both" ? "" : against);
-  return {};
+  return std::nullopt;
 }
 
 QueryFailure find_window_drift(storage::Database& db, const std::string& model, const std::string& window,
                                const std::string& against_text, WindowDrift& out) {
   const std::string against = against_text.empty() ? "previous" : against_text;
   if (against != "previous" && against != "pinned")
-    return query_failure(QueryOutcome::bad_input, "against", against_text,
+    return engine::failure(engine::FailureKind::bad_input, "against", against_text,
                    "must be previous or pinned when one window is compared");
-  if (window.empty()) return query_failure(QueryOutcome::bad_input, "window", window, "give the window's as-of date");
+  if (window.empty()) return engine::failure(engine::FailureKind::bad_input, "window", window, "give the window's as-of date");
   if (auto f = check_date("window", window)) return f;
   const auto found = storage::find_model(db, model);
-  if (!found) return query_failure(QueryOutcome::no_model, "", model, "no model named '" + model + "'");
+  if (!found) return unknown_model(model);
   out.model = *found;
   const auto stamp = storage::find_window_stamp(db, out.model.id, window, true);
   if (!stamp) {
-    QueryFailure f = query_failure(QueryOutcome::not_found, "window", window,
-                             "model '" + model + "' has no window on or before " + window + " yet");
+    engine::Failure f = engine::failure(engine::FailureKind::not_stored, "window", window,
+                                        "model '" + model + "' has no window on or before " + window + " yet");
     f.refresh_helps = true;
     return f;
   }
@@ -104,9 +104,9 @@ QueryFailure find_window_drift(storage::Database& db, const std::string& model, 
                           ? "its fit is not usable"
                           : "there is no usable " + against + " window to compare it with" +
                                 (against == "pinned" ? " (it may be the pinned window itself)" : "");
-    QueryFailure f = query_failure(QueryOutcome::not_found, "window", window,
-                             "the window as of " + stamp->as_of + " has no comparison with the " + against +
-                                 " window: " + why);
+    engine::Failure f = engine::failure(engine::FailureKind::not_stored, "window", window,
+                                        "the window as of " + stamp->as_of + " has no comparison with the " +
+                                            against + " window: " + why);
     f.refresh_helps = !alignment;
     return f;
   }
@@ -114,7 +114,7 @@ QueryFailure find_window_drift(storage::Database& db, const std::string& model, 
   auto comparison = compare_stored_windows(db, out.model.id, out.record.as_of, out.record.against_as_of,
                                                     out.model.config.effective_min_shared_assets());
   if (!comparison)
-    return query_failure(QueryOutcome::not_found, "window", window,
+    return engine::failure(engine::FailureKind::not_stored, "window", window,
                    "the window as of " + out.record.as_of + " or the window it was compared with (" +
                        out.record.against_as_of + ") is no longer stored as a usable fit");
   out.comparison = std::move(*comparison);
@@ -125,24 +125,24 @@ QueryFailure find_window_drift(storage::Database& db, const std::string& model, 
   out.order.resize(norm.size());
   std::iota(out.order.begin(), out.order.end(), std::size_t{0});
   std::stable_sort(out.order.begin(), out.order.end(), [&norm](std::size_t a, std::size_t b) { return norm[a] > norm[b]; });
-  return {};
+  return std::nullopt;
 }
 
 QueryFailure find_asset_history(storage::Database& db, const RangeQuery& q, const std::string& asset,
                                 AssetHistory& out) {
-  if (asset.empty()) return query_failure(QueryOutcome::bad_input, "asset", asset, "name the asset");
+  if (asset.empty()) return engine::failure(engine::FailureKind::bad_input, "asset", asset, "name the asset");
   if (auto f = check_range(db, q, out.model)) return f;
   if (!storage::has_asset(db, asset))
-    return query_failure(QueryOutcome::unknown_asset, "asset", asset, "unknown asset (no returns stored)");
+    return engine::failure(engine::FailureKind::unknown_name, "asset", asset, "unknown asset (no returns stored)");
   out.asset = asset;
   out.points = exposure_history(db, out.model.id, asset, q.from, q.to);
-  return {};
+  return std::nullopt;
 }
 
 QueryFailure find_alerts(storage::Database& db, const RangeQuery& q, AlertList& out) {
   if (auto f = check_range(db, q, out.model)) return f;
   out.alerts = storage::read_alerts(db, out.model.id, q.from, q.to);
-  return {};
+  return std::nullopt;
 }
 
 }  // namespace factorwatch::pipeline

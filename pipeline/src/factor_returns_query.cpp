@@ -12,46 +12,38 @@ namespace {
 QueryFailure parse_method(const std::string& text, engine::ScoreMethod& method) {
   if (text.empty()) {
     method = engine::ScoreMethod::bartlett;
-    return {};
+    return std::nullopt;
   }
   const auto parsed = engine::parse_score_method(text);
-  if (!parsed) return query_failure(QueryOutcome::bad_input, "method", text, "must be bartlett or regression");
+  if (!parsed) return engine::failure(engine::FailureKind::bad_input, "method", text, "must be bartlett or regression");
   method = *parsed;
-  return {};
-}
-
-QueryFailure no_model(const std::string& model) {
-  return query_failure(QueryOutcome::no_model, "", model, "no model named '" + model + "'");
+  return std::nullopt;
 }
 
 // The window of a one-window request, read in its served form. The date was checked
 // before, so the pick fails only for want of a model or a window.
 QueryFailure select_window(storage::Database& db, const WindowQuery& q, SelectedWindow& out) {
   const WindowPick pick = pick_window(db, q);
-  switch (pick.outcome) {
-    case WindowLookup::found: break;
-    case WindowLookup::no_model: return no_model(q.model);
-    case WindowLookup::bad_as_of: return query_failure(QueryOutcome::bad_input, "window", q.as_of, pick.message);
-    case WindowLookup::no_window: {
-      // Without a date there is nothing to name but the model: field "" then. A refresh
-      // helps a model without windows; a date before the first window it does not.
-      QueryFailure f = query_failure(QueryOutcome::not_found, q.as_of.empty() ? "" : "window", q.as_of, pick.message);
-      f.refresh_helps = storage::count_windows(db, pick.model.id).windows == 0;
-      return f;
-    }
+  if (pick.failure) {
+    engine::Failure f = *pick.failure;
+    if (f.field == "as_of") f.field = "window";  // what these requests call the window's date
+    if (f.kind == engine::FailureKind::bad_input || f.kind == engine::FailureKind::not_stored) f.value = q.as_of;
+    // A refresh helps a model without windows; a date before the first window it does not.
+    if (f.kind == engine::FailureKind::not_stored) f.refresh_helps = storage::count_windows(db, pick.model.id).windows == 0;
+    return f;
   }
   try {
     out = read_picked_window(db, pick, q);
   } catch (const std::runtime_error& e) {  // replaced by a refit between the two reads
-    return query_failure(QueryOutcome::not_found, "window", q.as_of, e.what());
+    return engine::failure(engine::FailureKind::not_stored, "window", q.as_of, e.what());
   }
   // A failed fit's numbers are no model to score returns with.
   const engine::FactorFit& fit = out.window.fit;
   if (!fit.IsSolutionUsable())
-    return query_failure(QueryOutcome::not_found, "window", q.as_of,
+    return engine::failure(engine::FailureKind::not_usable, "window", q.as_of,
                    "the window as of " + out.window.as_of + " has no usable fit (" + engine::to_string(fit.termination) +
                        "); ask for an earlier window");
-  return {};
+  return std::nullopt;
 }
 
 }  // namespace
@@ -85,14 +77,14 @@ QueryFailure find_factor_return_series(storage::Database& db, const RangeQuery& 
   if (auto f = check_date("from", q.from)) return f;
   if (auto f = check_date("to", q.to)) return f;
   if (!q.from.empty() && !q.to.empty() && q.to < q.from)  // ISO dates order as text
-    return query_failure(QueryOutcome::bad_input, "to", q.to, "before the start of the range, " + q.from);
+    return engine::failure(engine::FailureKind::bad_input, "to", q.to, "before the start of the range, " + q.from);
   const auto model = storage::find_model(db, q.model);
-  if (!model) return no_model(q.model);
+  if (!model) return unknown_model(q.model);
   out.model = *model;
   out.from = q.from;
   out.to = q.to;
   out.series = factor_return_series(db, out.model.id, q.from, q.to, method);
-  return {};
+  return std::nullopt;
 }
 
 QueryFailure find_window_factor_returns(storage::Database& db, const std::string& model, const std::string& window,
@@ -102,27 +94,27 @@ QueryFailure find_window_factor_returns(storage::Database& db, const std::string
   if (auto f = check_date("window", window)) return f;
   if (auto f = select_window(db, WindowQuery{model, window, {}}, out.window)) return f;
   WindowScores s = window_scores(db, out.window.model.id, out.window.window.as_of, method, false);
-  if (!s.ok()) return query_failure(QueryOutcome::not_found, "window", window, s.failure);
+  if (!s.ok()) return engine::failure(engine::FailureKind::not_stored, "window", window, s.failure);
   out.scores = std::move(s.scores);
-  return {};
+  return std::nullopt;
 }
 
 QueryFailure find_asset_residuals(storage::Database& db, const std::string& model, const std::string& asset,
                                   const std::string& window, const std::string& method_text, AssetResidualAnswer& out) {
   engine::ScoreMethod method{};
   if (auto f = parse_method(method_text, method)) return f;
-  if (asset.empty()) return query_failure(QueryOutcome::bad_input, "asset", asset, "name the asset");
+  if (asset.empty()) return engine::failure(engine::FailureKind::bad_input, "asset", asset, "name the asset");
   if (auto f = check_date("window", window)) return f;
-  if (!storage::find_model(db, model)) return no_model(model);
+  if (!storage::find_model(db, model)) return unknown_model(model);
   if (!storage::has_asset(db, asset))
-    return query_failure(QueryOutcome::unknown_asset, "asset", asset, "unknown asset (no returns stored)");
+    return engine::failure(engine::FailureKind::unknown_name, "asset", asset, "unknown asset (no returns stored)");
   if (auto f = select_window(db, WindowQuery{model, window, {asset}}, out.window)) return f;
   if (!out.window.missing.empty())
-    return query_failure(QueryOutcome::unknown_asset, "asset", asset,
+    return engine::failure(engine::FailureKind::unknown_name, "asset", asset,
                    "not in the window as of " + out.window.window.as_of + ": " + out.window.missing.front().reason);
   out.residuals = asset_residuals(db, out.window.model.id, out.window.window.as_of, asset, method, false);
-  if (!out.residuals.ok()) return query_failure(QueryOutcome::not_found, "window", window, out.residuals.failure);
-  return {};
+  if (!out.residuals.ok()) return engine::failure(engine::FailureKind::not_stored, "window", window, out.residuals.failure);
+  return std::nullopt;
 }
 
 }  // namespace factorwatch::pipeline

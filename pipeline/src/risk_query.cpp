@@ -1,7 +1,6 @@
 #include "factorwatch/pipeline/risk_query.h"
 
 #include <cmath>
-#include <stdexcept>
 
 #include "factorwatch/storage/assets.h"
 #include "factorwatch/storage/timestamps.h"
@@ -9,11 +8,9 @@
 namespace factorwatch::pipeline {
 namespace {
 
-RiskOutcome failed(RiskFailure failure, std::string message, std::string field) {
+RiskOutcome failed(engine::FailureKind kind, std::string field, std::string rule) {
   RiskOutcome out;
-  out.failure = failure;
-  out.message = std::move(message);
-  out.field = std::move(field);
+  out.failure = engine::failure(kind, std::move(field), "", std::move(rule));
   return out;
 }
 
@@ -53,18 +50,23 @@ bool figures_finite(const engine::PortfolioRisk& r) {
 }
 
 // Weights within the bound of a holdings file (storage::kLargestWeight) always give finite
-// figures; weights stored by an older version (no bound then) may not. A book
-// whose figures overflow is refused, naming its weights, rather than shown as nulls.
-RiskBook measure(storage::Database& db, const WindowRiskModel& w, std::string role, std::string name,
-                 std::string as_of, const engine::Holdings& holdings) {
+// figures; weights stored by an older version (no bound then), or sums of large ones, may
+// not. A book that cannot be measured, or whose figures overflow, is refused naming its
+// weights (`field`), rather than shown as nulls.
+std::optional<engine::Failure> measure(storage::Database& db, const WindowRiskModel& w, std::string role,
+                                       std::string name, std::string as_of, const engine::Holdings& holdings,
+                                       const std::string& field, RiskReport& report) {
+  if (auto f = engine::weights_failure(holdings, field)) return f;
   RiskBook book{std::move(role), std::move(name), std::move(as_of), engine::portfolio_risk(w.risk, holdings)};
   if (!figures_finite(book.risk))
-    throw std::invalid_argument("measure: the risk figures of the " + book.role + " book" +
-                                (book.name.empty() ? "" : " '" + book.name + "'") +
-                                " overflow (they are not finite numbers): its weights are too large; weights are "
-                                "fractions of the book or amounts of money, each at most 1e15 in absolute value");
+    return engine::failure(engine::FailureKind::rejected, field, "",
+                           "the risk figures of the " + book.role + " book" +
+                               (book.name.empty() ? "" : " '" + book.name + "'") +
+                               " overflow (they are not finite numbers): its weights are too large; weights are "
+                               "fractions of the book or amounts of money, each at most 1e15 in absolute value");
   explain_not_modelled(db, book.risk);
-  return book;
+  report.books.push_back(std::move(book));
+  return std::nullopt;
 }
 
 // A stored portfolio's holdings at or before `as_of` ("" = the latest); when none are that
@@ -99,14 +101,14 @@ std::shared_ptr<const WindowRiskModel> load_window_risk_model(storage::Database&
 
 RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const WindowPick& pick,
                         std::shared_ptr<const WindowRiskModel> window_model) {
-  switch (pick.outcome) {
-    case WindowLookup::no_model: return failed(RiskFailure::no_model, pick.message, "model");
-    case WindowLookup::bad_as_of: return failed(RiskFailure::bad_as_of, pick.message, "as_of");
-    case WindowLookup::no_window: return failed(RiskFailure::no_window, pick.message, "as_of");
-    case WindowLookup::found: break;
+  if (pick.failure) {
+    RiskOutcome out;
+    out.failure = pick.failure;
+    return out;
   }
   if (!q.portfolio_as_of.empty() && !storage::is_calendar_date(q.portfolio_as_of))
-    return failed(RiskFailure::bad_as_of, "'" + q.portfolio_as_of + "' is not a date (yyyy-mm-dd)", "portfolio_as_of");
+    return failed(engine::FailureKind::bad_input, "holdings_as_of",
+                  "'" + q.portfolio_as_of + "' is not a date (yyyy-mm-dd)");
 
   // The window first: the holdings date may follow from it.
   RiskOutcome out;
@@ -114,10 +116,9 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
   report.window = window_model ? std::move(window_model) : load_window_risk_model(db, pick);
   const WindowRiskModel& w = *report.window;
   if (!w.usable)
-    return failed(RiskFailure::unusable_window,
+    return failed(engine::FailureKind::not_usable, "as_of",
                   "the window as of " + w.as_of + " has no usable fit (" + w.termination +
-                      "); ask for an earlier window, or refit",
-                  "as_of");
+                      "); ask for an earlier window, or refit");
   if (!q.window.as_of.empty() && w.as_of != q.window.as_of)
     add_note(report.note, "no window ends on " + q.window.as_of + "; using the latest before it, as of " + w.as_of);
 
@@ -134,10 +135,9 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
                                                   : storage::read_portfolio(db, q.portfolio, q.portfolio_as_of);
     if (!stored) {
       const bool has_dates = !q.portfolio_as_of.empty() && !storage::portfolio_dates(db, q.portfolio).empty();
-      return failed(RiskFailure::no_portfolio,
+      return failed(engine::FailureKind::unknown_name, has_dates ? "holdings_as_of" : "portfolio",
                     has_dates ? "portfolio '" + q.portfolio + "' has no holdings at or before " + q.portfolio_as_of
-                              : "no portfolio named '" + q.portfolio + "'",
-                    has_dates ? "portfolio_as_of" : "portfolio");
+                              : "no portfolio named '" + q.portfolio + "'");
     }
     holdings = stored->holdings;
     portfolio_as_of = stored->as_of;
@@ -149,12 +149,11 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
     const auto stored =
         holdings_near(db, benchmark_name, portfolio_as_of.empty() ? holdings_date : portfolio_as_of, report.note);
     if (!stored)
-      return failed(RiskFailure::no_benchmark,
+      return failed(engine::FailureKind::unknown_name, "benchmark",
                     q.benchmark.empty() ? "portfolio '" + q.portfolio + "' names '" + benchmark_name +
                                               "' as its benchmark, but no portfolio by that name is stored; store "
                                               "it, or leave the benchmark out"
-                                        : "no portfolio named '" + benchmark_name + "' to serve as the benchmark",
-                    "benchmark");
+                                        : "no portfolio named '" + benchmark_name + "' to serve as the benchmark");
     benchmark = stored->holdings;
     benchmark_as_of = stored->as_of;
   }
@@ -162,27 +161,28 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
   // Stored holdings were checked when stored, and weights sent with the request by the
   // surface; what fails here is, say, a sum overflowing, or weights stored by an older
   // version. Name the set of weights: sent ones by their member, stored ones by name.
-  const char* field = q.holdings ? "weights" : "portfolio";
-  try {
-    const std::string name = q.holdings ? "" : q.portfolio;
-    report.books.push_back(measure(db, w, "portfolio", name, portfolio_as_of, holdings));
-    if (benchmark) {
-      field = q.benchmark_holdings ? "benchmark_weights" : "benchmark";
-      report.books.push_back(measure(db, w, "benchmark", benchmark_name, benchmark_as_of, *benchmark));
-      report.books.push_back(measure(db, w, "active", "", "", engine::active_weights(holdings, *benchmark)));
-    }
-    if (q.trade) {
-      field = "trade";
-      const engine::Holdings after = engine::apply_trade(holdings, *q.trade);
-      report.books.push_back(measure(db, w, "after_trade", name, portfolio_as_of, after));
-      if (benchmark)
-        report.books.push_back(
-            measure(db, w, "active_after_trade", "", "", engine::active_weights(after, *benchmark)));
-    }
-  } catch (const std::invalid_argument& e) {
-    const std::string message = e.what();  // "portfolio_risk: ...": the engine's function is no news to a user
-    const auto colon = message.find(": ");
-    return failed(RiskFailure::bad_weights, colon == std::string::npos ? message : message.substr(colon + 2), field);
+  const std::string field = q.holdings ? "weights" : "portfolio";
+  const std::string name = q.holdings ? "" : q.portfolio;
+  const std::string benchmark_field = q.benchmark_holdings ? "benchmark_weights" : "benchmark";
+  auto refused = [](engine::Failure f) {
+    RiskOutcome refusal;
+    refusal.failure = std::move(f);
+    return refusal;
+  };
+  if (auto f = measure(db, w, "portfolio", name, portfolio_as_of, holdings, field, report)) return refused(*f);
+  if (benchmark) {
+    if (auto f = measure(db, w, "benchmark", benchmark_name, benchmark_as_of, *benchmark, benchmark_field, report))
+      return refused(*f);
+    if (auto f = measure(db, w, "active", "", "", engine::active_weights(holdings, *benchmark), benchmark_field, report))
+      return refused(*f);
+  }
+  if (q.trade) {
+    const engine::Holdings after = engine::apply_trade(holdings, *q.trade);
+    if (auto f = measure(db, w, "after_trade", name, portfolio_as_of, after, "trade", report)) return refused(*f);
+    if (benchmark)
+      if (auto f = measure(db, w, "active_after_trade", "", "", engine::active_weights(after, *benchmark), "trade",
+                           report))
+        return refused(*f);
   }
   return out;
 }

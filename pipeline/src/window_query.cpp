@@ -17,29 +17,40 @@ nlohmann::ordered_json missing_json(const SelectedWindow& s) {
   return missing;
 }
 
+engine::Failure unknown_model(const std::string& name) {
+  return engine::failure(engine::FailureKind::unknown_name, "model", "", "no model named '" + name + "'");
+}
+
 WindowPick pick_window(storage::Database& db, const WindowQuery& q) {
   WindowPick pick;
   const auto model = storage::find_model(db, q.model);
   if (!model) {
-    pick.outcome = WindowLookup::no_model;
-    pick.message = "no model named '" + q.model + "'";
+    pick.failure = unknown_model(q.model);
     return pick;
   }
   pick.model = *model;
   std::optional<storage::WindowStamp> stamp;
   try {
     stamp = storage::find_window_stamp(db, model->id, q.as_of, true);
-  } catch (const std::invalid_argument& e) {
-    pick.outcome = WindowLookup::bad_as_of;
-    pick.message = e.what();
+  } catch (const std::invalid_argument& e) {  // the date's key: "as-of date 'x' is not a date ..."
+    pick.failure = engine::failure(engine::FailureKind::bad_input, "as_of", "", e.what());
     return pick;
   }
   if (!stamp) {
-    pick.outcome = WindowLookup::no_window;
-    pick.message = "model '" + q.model + "' has no window" + (q.as_of.empty() ? "" : " on or before " + q.as_of) + " yet";
+    // Without a date there is nothing to name but the model. A refresh may store it (new
+    // data, or a model never refreshed).
+    pick.failure = engine::failure(engine::FailureKind::not_stored, q.as_of.empty() ? "" : "as_of", "",
+                                   "model '" + q.model + "' has no window" +
+                                       (q.as_of.empty() ? "" : " on or before " + q.as_of) + " yet");
+    pick.failure->refresh_helps = true;
     return pick;
   }
-  pick.outcome = WindowLookup::found;
+  if (!stamp->usable) {
+    // A failed fit's numbers are no model to serve or measure with.
+    pick.failure = engine::failure(engine::FailureKind::not_usable, "as_of", "",
+                                   "the window as of " + stamp->as_of + " has no usable fit (" + stamp->termination +
+                                       "); ask for an earlier window");
+  }
   pick.stamp = std::move(*stamp);
   return pick;
 }
@@ -49,6 +60,10 @@ SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick,
   s.model = pick.model;
   auto window = read_served_window(db, pick.model.id, pick.stamp.as_of, false);
   if (!window) throw std::runtime_error("the window of " + pick.stamp.as_of + " was replaced while being read; ask again");
+  // The pick was usable; a refit in between may have stored a failed fit in its place.
+  if (!window->fit.IsSolutionUsable())
+    throw std::runtime_error("the window of " + pick.stamp.as_of + " was refitted while being read, and the new fit "
+                             "is not usable; ask again");
   s.window = std::move(*window);
   if (!q.as_of.empty() && s.window.as_of != q.as_of)
     s.note = "no window ends on " + q.as_of + "; showing the latest before it, as of " + s.window.as_of;

@@ -54,45 +54,45 @@ std::optional<AlignTo> parse_align_to(const std::string& s) {
   return std::nullopt;
 }
 
-bool ModelConfig::IsValid(std::string* error) const {
-  auto fail = [error](const std::string& message) {
-    *error = message;
-    return false;
+std::optional<engine::Failure> ModelConfig::FirstFailure() const {
+  using engine::bad_number;
+  auto bad_date = [](const char* field, const std::string& value) {
+    return engine::failure(engine::FailureKind::bad_input, field, value, "not a date in the form yyyy-mm-dd");
   };
-  if (window < 2) return fail("option '--window' = " + std::to_string(window) + ": must be at least 2 dates");
-  if (step < 1) return fail("option '--step' = " + std::to_string(step) + ": must be at least 1 date");
-  if (factors < 1) return fail("option '--factors' = " + std::to_string(factors) + ": must be at least 1");
+  if (window < 2) return bad_number("window", std::to_string(window), "must be at least 2 dates");
+  if (step < 1) return bad_number("step", std::to_string(step), "must be at least 1 date");
+  if (factors < 1) return bad_number("factors", std::to_string(factors), "must be at least 1");
   if (factors >= window)
-    return fail("option '--factors' = " + std::to_string(factors) + ": must be below the window length (" +
-                std::to_string(window) + " dates)");
+    return bad_number("factors", std::to_string(factors),
+                      "must be below the window length (" + std::to_string(window) + " dates)");
   if (weighting == engine::Weighting::ewma && !(half_life > 0 && std::isfinite(half_life)))
-    return fail("option '--half-life': exponential weighting needs a half-life above 0 dates");
+    return bad_number("half_life", "", "exponential weighting needs a half-life above 0 dates");
   if (!(tolerance > 0 && tolerance <= 0.01))
-    return fail("option '--tolerance' = " + detail::shortest(tolerance) + ": must be in (0, 0.01]");
+    return bad_number("tolerance", detail::shortest(tolerance), "must be in (0, 0.01]");
   if (!(min_coverage > 0 && min_coverage <= 1))
-    return fail("option '--min-coverage' = " + std::to_string(min_coverage) + ": must be in (0, 1]");
-  if (!first_as_of.empty() && !detail::parse_iso_date(first_as_of))
-    return fail("option '--first-as-of' = '" + first_as_of + "': not a date in the form yyyy-mm-dd");
-  if (!pinned_window.empty() && !detail::parse_iso_date(pinned_window))
-    return fail("option '--pinned-window' = '" + pinned_window + "': not a date in the form yyyy-mm-dd");
+    return bad_number("min_coverage", std::to_string(min_coverage), "must be in (0, 1]");
+  if (!first_as_of.empty() && !detail::parse_iso_date(first_as_of)) return bad_date("first_as_of", first_as_of);
+  if (!pinned_window.empty() && !detail::parse_iso_date(pinned_window)) return bad_date("pinned_window", pinned_window);
   if (!(smoothing_half_life > 0 && std::isfinite(smoothing_half_life)))
-    return fail("option '--smoothing-half-life' = " + std::to_string(smoothing_half_life) +
-                ": must be above 0 windows");
+    return bad_number("smoothing_half_life", std::to_string(smoothing_half_life), "must be above 0 windows");
   if (min_shared_assets < 1)
-    return fail("option '--min-shared-assets' = " + std::to_string(min_shared_assets) + ": must be at least 1");
+    return bad_number("min_shared_assets", std::to_string(min_shared_assets), "must be at least 1");
   if (!(alert_below >= 0 && alert_below <= 1))
-    return fail("option '--alert-below' = " + std::to_string(alert_below) + ": must be in [0, 1] (0: no alert)");
+    return bad_number("alert_below", std::to_string(alert_below), "must be in [0, 1] (0: no alert)");
   if (!(alert_below_pinned >= 0 && alert_below_pinned <= 1))
-    return fail("option '--alert-below-pinned' = " + std::to_string(alert_below_pinned) +
-                ": must be in [0, 1] (0: no alert)");
+    return bad_number("alert_below_pinned", std::to_string(alert_below_pinned), "must be in [0, 1] (0: no alert)");
   std::set<std::string> seen;
   for (const std::string& a : universe) {
-    if (auto problem = identifier_problem(a)) return fail("universe: the asset name " + *problem);
-    if (!seen.insert(a).second) return fail("universe: asset " + detail::quoted(a) + " is listed twice");
+    if (auto problem = identifier_problem(a)) return bad_number("universe", "", "the asset name " + *problem);
+    if (!seen.insert(a).second)
+      return bad_number("universe", "", "asset " + detail::quoted(a) + " is listed twice");
   }
-  engine::FitOptions options = fit_options();
-  if (!options.IsValid(error)) return false;
-  return rotation_options().IsValid(error);
+  // What is left of the engine's rules cannot fail for a configuration that passed the
+  // checks above (the fixed options are valid); they stay as a guard.
+  if (auto f = fit_options().FirstFailure()) return f;
+  std::string error;
+  if (!rotation_options().IsValid(&error)) return bad_number("rotation", "", error);
+  return std::nullopt;
 }
 
 engine::RotationOptions ModelConfig::rotation_options() const {
@@ -203,7 +203,9 @@ bool valid_model_name(const std::string& name, std::string* error) {
 
 SetModelOutcome set_model(Database& db, const std::string& name, const ModelConfig& config) {
   std::string error;
-  if (!valid_model_name(name, &error) || !config.IsValid(&error)) throw std::invalid_argument(error);
+  if (!valid_model_name(name, &error)) throw std::invalid_argument(error);
+  // The surfaces check first and name the field their own way; this is the guard.
+  if (const auto f = config.FirstFailure()) throw std::invalid_argument(engine::describe(*f, "member '" + f->field + "'"));
   SQLite::Database& sql = db.sql();
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
   SetModelOutcome outcome;

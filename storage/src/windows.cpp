@@ -160,8 +160,12 @@ WindowRecord read_fields(Database& db, SQLite::Statement& q) {
       throw DamagedData(std::string("provenance: ") + e.what());
     }
   }
+  // A failed fit keeps the assets it was given and has no loadings at all (engine::fit
+  // returns before estimating); a usable one has a row for every asset.
   const auto n = static_cast<Eigen::Index>(fit.assets.size());
-  if (fit.loadings.rows() != n || fit.specific_variance.size() != n || fit.heywood.size() != fit.assets.size())
+  const bool no_estimates = fit.loadings.size() == 0 && fit.specific_variance.size() == 0 && fit.heywood.empty();
+  if (!(no_estimates && !fit.IsSolutionUsable()) &&
+      (fit.loadings.rows() != n || fit.specific_variance.size() != n || fit.heywood.size() != fit.assets.size()))
     throw DamagedData("the asset list and the loadings disagree in length");
   return w;
 }
@@ -353,7 +357,8 @@ std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id
   if (!as_of.empty()) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
   SQLite::Statement q(db.sql(),
                       "SELECT w.as_of, w.id, w.fitted_at, w.input_hash, w.total_seconds, w.stale, "
-                      "(SELECT a.alignment FROM window_alignments a WHERE a.window_id = w.id) FROM windows w " +
+                      "(SELECT a.alignment FROM window_alignments a WHERE a.window_id = w.id), w.usable, "
+                      "w.termination FROM windows w " +
                           where + " ORDER BY as_of DESC LIMIT 1");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   if (!as_of.empty()) q.bind(2, date_key(as_of, "as-of date"));
@@ -373,6 +378,8 @@ std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id
     std::snprintf(text, sizeof text, "R%016zx", std::hash<std::string_view>{}(bytes));
     stamp.alignment = text;
   }
+  stamp.usable = q.getColumn(7).getInt() != 0;
+  stamp.termination = q.getColumn(8).getString();
   return stamp;
 }
 

@@ -51,7 +51,7 @@ int run_alerts_command(const AlertsArguments& a, const GlobalArguments& global) 
   if (!db) return kExitFailed;
   try {
     pipeline::AlertList list;
-    if (auto f = pipeline::find_alerts(*db, {a.model, a.from, a.to}, list)) return report_query_failure("alerts", f, a.model);
+    if (auto f = pipeline::find_alerts(*db, {a.model, a.from, a.to}, list)) return report_failure("alerts", *f, a.model);
     if (a.format == "csv") std::cout << alerts_csv(list);
     else if (a.format == "json") std::cout << alerts_json(list).dump(2) << "\n";
     else print_alerts_table(list);

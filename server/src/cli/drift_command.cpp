@@ -119,7 +119,7 @@ int run_drift_command(const DriftArguments& a, const GlobalArguments& global) {
         return kExitBadInput;
       }
       pipeline::WindowDrift d;
-      if (auto f = pipeline::find_window_drift(*db, a.model, a.window, a.against, d)) return report_query_failure("drift", f, a.model);
+      if (auto f = pipeline::find_window_drift(*db, a.model, a.window, a.against, d)) return report_failure("drift", *f, a.model);
       if (a.format == "csv") std::cout << window_drift_csv(d);
       else if (a.format == "json") std::cout << window_drift_json(d).dump(2) << "\n";
       else print_window_table(d, a.limit);
@@ -127,7 +127,7 @@ int run_drift_command(const DriftArguments& a, const GlobalArguments& global) {
     }
     pipeline::DriftSeries s;
     if (auto f = pipeline::find_drift_series(*db, {a.model, a.from, a.to}, a.against, s))
-      return report_query_failure("drift", f, a.model);
+      return report_failure("drift", *f, a.model);
     if (a.format == "csv") std::cout << drift_csv(s);
     else if (a.format == "json") std::cout << drift_json(s).dump(2) << "\n";
     else print_series_table(s);

@@ -33,7 +33,7 @@ int run_factor_returns_command(const FactorReturnsArguments& a, const GlobalArgu
     if (!a.window.empty()) {
       pipeline::WindowFactorReturns w;
       if (auto f = pipeline::find_window_factor_returns(*db, a.model, a.window, a.method, w))
-        return report_scores_failure("factor-returns", f, a.model);
+        return report_failure("factor-returns", *f, a.model);
       if (a.format == "csv") std::cout << window_factor_returns_csv(w);
       else if (a.format == "json") std::cout << window_factor_returns_json(w).dump(2) << "\n";
       else {
@@ -44,7 +44,7 @@ int run_factor_returns_command(const FactorReturnsArguments& a, const GlobalArgu
     }
     pipeline::FactorReturnSeriesAnswer s;
     if (auto f = pipeline::find_factor_return_series(*db, {a.model, a.from, a.to}, a.method, s))
-      return report_scores_failure("factor-returns", f, a.model);
+      return report_failure("factor-returns", *f, a.model);
     if (a.format == "csv") std::cout << factor_return_series_csv(s);
     else if (a.format == "json") std::cout << factor_return_series_json(s).dump(2) << "\n";
     else {

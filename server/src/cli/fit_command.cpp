@@ -3,6 +3,7 @@
 #include <chrono>
 #include <cmath>
 #include <cstdio>
+#include <optional>
 #include <iostream>
 #include <stdexcept>
 #include <string>
@@ -13,42 +14,24 @@
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/returns_csv.h"
 #include "cli_common.h"
+#include "cli_failure.h"
 #include "fit_report.h"
 
 namespace factorwatch::server {
 namespace {
 
 // Options the engine does not see: the source, the observations count, the window.
-bool check_source(const FitArguments& a, std::string* error) {
-  if (a.returns_path.empty() == a.covariance_path.empty()) {
-    *error = "give exactly one source: --returns FILE, or --covariance FILE with --observations N";
-    return false;
-  }
-  char value[32];
+std::optional<engine::Failure> source_failure(const FitArguments& a) {
+  if (a.returns_path.empty() == a.covariance_path.empty())
+    return engine::failure(engine::FailureKind::bad_input, "", "",
+                           "give exactly one source: --returns FILE, or --covariance FILE with --observations N");
   if (!a.covariance_path.empty() && !(a.observations > 1 && std::isfinite(a.observations))) {
+    char value[32];
     std::snprintf(value, sizeof value, "%g", a.observations);
-    *error = std::string("option '--observations' = ") + value +
-             ": must be more than 1 (the number of dates behind the matrix)";
-    return false;
+    return engine::bad_number("observations", value, "must be more than 1 (the number of dates behind the matrix)");
   }
-  if (a.window && *a.window < 1) {
-    *error = "option '--window' = " + std::to_string(*a.window) + ": must be at least 1 date";
-    return false;
-  }
-  return true;
-}
-
-// The engine names its fields (half_life); the user typed options (--half-life).
-std::string cli_spelling(std::string message) {
-  static const std::pair<const char*, const char*> names[] = {
-      {"'factors'", "'--factors'"},           {"'half_life'", "'--half-life'"},
-      {"'min_coverage'", "'--min-coverage'"}, {"'tolerance'", "'--tolerance'"},
-      {"'max_iterations'", "'--max-iterations'"}};
-  for (const auto& [engine_name, option] : names) {
-    const auto at = message.find(engine_name);
-    if (at != std::string::npos) message.replace(at, std::string(engine_name).size(), option);
-  }
-  return message;
+  if (a.window && *a.window < 1) return engine::bad_number("window", std::to_string(*a.window), "must be at least 1 date");
+  return std::nullopt;
 }
 
 engine::FitOptions to_fit_options(const FitArguments& a) {
@@ -160,16 +143,9 @@ CLI::App* add_fit_command(CLI::App& app, FitArguments& a) {
 }
 
 int run_fit_command(const FitArguments& a) {
-  std::string error;
-  if (!check_source(a, &error)) {
-    std::fprintf(stderr, "factorwatch fit: %s\n", error.c_str());
-    return kExitBadInput;
-  }
+  if (const auto f = source_failure(a)) return report_failure("fit", *f, "");
   const engine::FitOptions options = to_fit_options(a);
-  if (!options.IsValid(&error)) {
-    std::fprintf(stderr, "factorwatch fit: %s\n", cli_spelling(error).c_str());
-    return kExitBadInput;
-  }
+  if (const auto f = options.FirstFailure()) return report_failure("fit", *f, "");
 
   FitSource source;
   source.half_life = a.half_life;

@@ -52,7 +52,7 @@ int run_history_command(const HistoryArguments& a, const GlobalArguments& global
   try {
     pipeline::AssetHistory h;
     if (auto f = pipeline::find_asset_history(*db, {a.model, a.from, a.to}, a.asset, h))
-      return report_query_failure("history", f, a.model);
+      return report_failure("history", *f, a.model);
     if (a.format == "csv") std::cout << history_csv(h);
     else if (a.format == "json") std::cout << history_json(h).dump(2) << "\n";
     else print_history_table(h);

@@ -9,6 +9,7 @@
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
+#include "cli_failure.h"
 #include "drift_selection.h"
 #include "model_views.h"
 
@@ -96,6 +97,10 @@ int run_model_set(const ModelArguments& a, storage::Database& db) {
   if (a.alert_below_opt->count()) config.alert_below = a.alert_below;
   if (a.alert_below_pinned_opt->count()) config.alert_below_pinned = a.alert_below_pinned;
 
+  if (const auto f = config.FirstFailure()) {
+    std::fprintf(stderr, "factorwatch model set: %s\nNothing was changed.\n", cli_text(*f).c_str());
+    return exit_code(f->kind);
+  }
   storage::SetModelOutcome outcome;
   try {
     outcome = storage::set_model(db, a.name, config);

@@ -27,7 +27,7 @@ int run_residuals_command(const ResidualsArguments& a, const GlobalArguments& gl
   try {
     pipeline::AssetResidualAnswer r;
     if (auto f = pipeline::find_asset_residuals(*db, a.model, a.asset, a.window, a.method, r))
-      return report_scores_failure("residuals", f, a.model);
+      return report_failure("residuals", *f, a.model);
     if (a.format == "csv") std::cout << residuals_csv(r);
     else if (a.format == "json") std::cout << residuals_json(r).dump(2) << "\n";
     else {

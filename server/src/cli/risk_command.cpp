@@ -4,6 +4,7 @@
 #include <iostream>
 #include <stdexcept>
 
+#include "cli_failure.h"
 #include "factorwatch/pipeline/risk_query.h"
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/portfolios.h"
@@ -15,17 +16,6 @@ namespace {
 // A holdings file read for one query only (the weights, or a trade's weight changes).
 engine::Holdings read_holdings(const std::string& path) {
   return storage::read_portfolio_file(path, {"unstored", "", ""}).holdings;
-}
-
-// How the CLI spells each input a failure names.
-std::string option_of(const std::string& field) {
-  if (field == "model") return "MODEL";
-  if (field == "portfolio") return "PORTFOLIO";
-  if (field == "as_of") return "option '--as-of'";
-  if (field == "portfolio_as_of") return "option '--holdings-as-of'";
-  if (field == "benchmark") return "option '--benchmark'";
-  if (field == "trade") return "option '--trade'";
-  return "option '--weights'";
 }
 
 }  // namespace
@@ -80,29 +70,7 @@ int run_risk_command(const RiskArguments& a, const GlobalArguments& global) {
   try {
     const pipeline::WindowPick pick = pipeline::pick_window(*db, q.window);
     const pipeline::RiskOutcome outcome = pipeline::answer_risk(*db, q, pick, nullptr);
-    switch (outcome.failure) {
-      case pipeline::RiskFailure::none: break;
-      case pipeline::RiskFailure::no_model:
-        std::fprintf(stderr, "factorwatch risk: %s (factorwatch model list shows them)\n", outcome.message.c_str());
-        return kExitBadInput;
-      case pipeline::RiskFailure::no_window:
-        std::fprintf(stderr, "factorwatch risk: %s; run: factorwatch refresh %s\n", outcome.message.c_str(),
-                     a.model.c_str());
-        return kExitFailed;
-      case pipeline::RiskFailure::unusable_window:
-        std::fprintf(stderr, "factorwatch risk: %s (factorwatch windows %s lists them)\n", outcome.message.c_str(),
-                     a.model.c_str());
-        return kExitFailed;
-      case pipeline::RiskFailure::no_portfolio:
-      case pipeline::RiskFailure::no_benchmark:
-        std::fprintf(stderr, "factorwatch risk: %s: %s (factorwatch portfolio list shows them)\n",
-                     option_of(outcome.field).c_str(), outcome.message.c_str());
-        return kExitBadInput;
-      case pipeline::RiskFailure::bad_as_of:
-      case pipeline::RiskFailure::bad_weights:
-        std::fprintf(stderr, "factorwatch risk: %s: %s\n", option_of(outcome.field).c_str(), outcome.message.c_str());
-        return kExitBadInput;
-    }
+    if (outcome.failure) return report_failure("risk", *outcome.failure, a.model);
     const RiskViewOptions view{!a.no_assets, a.limit};
     if (a.format == "csv") std::cout << risk_csv(outcome.report, view);
     else if (a.format == "json") std::cout << risk_json(outcome.report, view).dump(2) << "\n";

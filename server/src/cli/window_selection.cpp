@@ -21,20 +21,7 @@ int run_on_window(const WindowArguments& a, const GlobalArguments& global, const
   try {
     const pipeline::WindowQuery query{a.model, a.as_of, split_list(a.assets)};
     const pipeline::WindowPick pick = pipeline::pick_window(*db, query);
-    switch (pick.outcome) {
-      case pipeline::WindowLookup::no_model:
-        std::fprintf(stderr, "factorwatch %s: %s (factorwatch model list shows them)\n", command, pick.message.c_str());
-        return kExitBadInput;
-      case pipeline::WindowLookup::bad_as_of:
-        std::fprintf(stderr, "factorwatch %s: option '--as-of': %s\n", command, pick.message.c_str());
-        return kExitBadInput;
-      case pipeline::WindowLookup::no_window:
-        std::fprintf(stderr, "factorwatch %s: %s; run: factorwatch refresh %s\n", command, pick.message.c_str(),
-                     a.model.c_str());
-        return kExitFailed;
-      case pipeline::WindowLookup::found:
-        break;
-    }
+    if (pick.failure) return report_failure(command, *pick.failure, a.model);
     print(pipeline::read_picked_window(*db, pick, query));
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch %s: %s\n", command, e.what());

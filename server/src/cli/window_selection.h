@@ -8,6 +8,7 @@
 #include <string>
 
 #include "cli_common.h"
+#include "cli_failure.h"
 #include "factorwatch/pipeline/window_query.h"
 
 namespace factorwatch::server {

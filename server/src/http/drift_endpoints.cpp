@@ -27,12 +27,12 @@ ApiResponse drift_endpoint(const ApiContext& context, const ApiRequest& r) {
     if (!query.from.empty() || !query.to.empty())
       return problem(400, "query parameter 'window' compares one window; leave out 'from' and 'to'", r.path, "window");
     pipeline::WindowDrift d;
-    if (auto failed = pipeline::find_window_drift(db, query.model, *window, against, d)) return query_problem(r, failed);
+    if (auto failed = pipeline::find_window_drift(db, query.model, *window, against, d)) return failure_problem(r, *failed);
     const std::string filename = query.model + "-drift-" + d.record.as_of + "-" + d.record.against + ".csv";
     return f == Format::csv ? csv_response(window_drift_csv(d), filename, true) : json_response(window_drift_json(d));
   }
   pipeline::DriftSeries s;
-  if (auto failed = pipeline::find_drift_series(db, query, against, s)) return query_problem(r, failed);
+  if (auto failed = pipeline::find_drift_series(db, query, against, s)) return failure_problem(r, *failed);
   return f == Format::csv ? csv_response(drift_csv(s), query.model + "-drift.csv", true) : json_response(drift_json(s));
 }
 
@@ -43,7 +43,7 @@ ApiResponse history_endpoint(const ApiContext& context, const ApiRequest& r) {
   const pipeline::RangeQuery query = range_of(r);
   pipeline::AssetHistory h;
   if (auto failed = pipeline::find_asset_history(context.database(), query, r.parameter("asset").value_or(""), h))
-    return query_problem(r, failed);
+    return failure_problem(r, *failed);
   return f == Format::csv ? csv_response(history_csv(h), query.model + "-history-" + file_part(h.asset) + ".csv", true)
                           : json_response(history_json(h));
 }
@@ -54,7 +54,7 @@ ApiResponse alerts_endpoint(const ApiContext& context, const ApiRequest& r) {
   const Format f = std::get<Format>(format);
   const pipeline::RangeQuery query = range_of(r);
   pipeline::AlertList a;
-  if (auto failed = pipeline::find_alerts(context.database(), query, a)) return query_problem(r, failed);
+  if (auto failed = pipeline::find_alerts(context.database(), query, a)) return failure_problem(r, *failed);
   return f == Format::csv ? csv_response(alerts_csv(a), query.model + "-alerts.csv", true) : json_response(alerts_json(a));
 }
 

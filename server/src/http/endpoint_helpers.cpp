@@ -3,7 +3,6 @@
 #include <cctype>
 
 #include "factorwatch/engine/caution.h"
-#include "factorwatch/pipeline/drift_query.h"
 
 namespace factorwatch::server {
 
@@ -41,15 +40,38 @@ ApiResponse csv_response(std::string body, const std::string& filename, bool ris
   return csv_response(std::make_shared<const std::string>(std::move(body)), filename, risk_numbers);
 }
 
-ApiResponse query_problem(const ApiRequest& r, const pipeline::QueryFailure& f) {
-  if (f.outcome == pipeline::QueryOutcome::no_model) return unknown_model(r, f.value);
-  const std::string hint =
-      f.refresh_helps ? "; start a refresh with POST /v1/models/" + r.path_values.at("name") + "/refresh" : "";
-  if (f.field.empty()) return problem(404, f.message + hint, r.path);  // no window stored at all yet
-  const std::string detail = "query parameter '" + f.field + "'" + (f.value.empty() ? "" : " = '" + f.value + "'") +
-                             ": " + f.message;
-  if (f.outcome == pipeline::QueryOutcome::bad_input) return problem(400, detail, r.path, f.field);
-  return problem(404, detail + hint, r.path, f.field);
+int http_status(engine::FailureKind kind) {
+  switch (kind) {
+    case engine::FailureKind::bad_input: return 400;
+    case engine::FailureKind::unknown_name:
+    case engine::FailureKind::not_stored: return 404;
+    case engine::FailureKind::not_usable: return 409;
+    case engine::FailureKind::rejected: return 422;
+  }
+  return 400;
+}
+
+ApiResponse failure_problem(const ApiRequest& r, const engine::Failure& f, bool in_body) {
+  const int status = http_status(f.kind);
+  if (f.field == "model") {
+    const std::string hint = f.kind == engine::FailureKind::unknown_name ? " (GET /v1/models lists them)" : "";
+    return problem(status, failure_text(f, false) + hint, r.path, "name");
+  }
+  std::string hint;
+  if (f.refresh_helps && r.path_values.count("name"))
+    hint = "; start a refresh with POST /v1/models/" + r.path_values.at("name") + "/refresh";
+  else if (f.kind == engine::FailureKind::unknown_name &&
+           (f.field == "portfolio" || f.field == "holdings_as_of" || f.field == "benchmark"))
+    hint = " (GET /v1/portfolios lists them)";
+  return problem(status, failure_text(f, in_body) + hint, r.path, f.field);
+}
+
+std::string failure_text(const engine::Failure& f, bool in_body) {
+  const std::string subject = f.field.empty() || f.field == "model" ? ""
+                              : f.field == "universe"              ? "universe"
+                              : in_body                            ? "member '" + f.field + "'"
+                                                                   : "query parameter '" + f.field + "'";
+  return engine::describe(f, subject);
 }
 
 std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& r, const std::string& name) {
@@ -75,7 +97,7 @@ ApiResponse rejected_upload(const ApiRequest& r, const storage::InputError& e) {
 }
 
 ApiResponse unknown_model(const ApiRequest& r, const std::string& name) {
-  return problem(404, "no model named '" + name + "' (GET /v1/models lists them)", r.path, "name");
+  return failure_problem(r, engine::failure(engine::FailureKind::unknown_name, "model", "", "no model named '" + name + "'"));
 }
 
 }  // namespace factorwatch::server

@@ -8,11 +8,8 @@
 #include <variant>
 
 #include "api_message.h"
+#include "factorwatch/engine/failure.h"
 #include "factorwatch/storage/input_error.h"
-
-namespace factorwatch::pipeline {
-struct QueryFailure;
-}
 
 namespace factorwatch::server {
 
@@ -31,10 +28,19 @@ ApiResponse csv_response(std::shared_ptr<const std::string> body, const std::str
 // The same for a body rendered as text.
 ApiResponse csv_response(std::string body, const std::string& filename, bool risk_numbers);
 
-// A failed drift, history, alerts, factor-returns or residuals lookup as a problem naming
-// the query parameter: 400 for bad input, 404 for what is not stored (with the refresh
-// route when a refresh would store it); an unknown model names the path's {name}.
-ApiResponse query_problem(const ApiRequest& request, const pipeline::QueryFailure& failure);
+// The HTTP status of each kind of failure (the one map): 400 bad input, 404 a name or a
+// window that is not stored, 409 a window whose fit failed, 422 weights that cannot be
+// measured.
+int http_status(engine::FailureKind kind);
+
+// A failure from below as a problem (RFC 9457): the field named as the request sent it
+// ("query parameter 'from'", or "member 'weights'" when `in_body`), its value and the
+// rule, then the route that helps (the listing of models or portfolios, the refresh). An
+// unknown model names the path's {name}; the universe list names itself.
+ApiResponse failure_problem(const ApiRequest& request, const engine::Failure& failure, bool in_body = false);
+
+// The failure's text without a hint: "member 'min_coverage' = 2.000000: must be in (0, 1]".
+std::string failure_text(const engine::Failure& failure, bool in_body);
 
 // A true/false query parameter (true, false, 1, 0, yes, no); a 400 naming it otherwise.
 std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& request, const std::string& name);

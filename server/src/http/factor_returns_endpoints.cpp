@@ -19,13 +19,13 @@ ApiResponse factor_returns_endpoint(const ApiContext& context, const ApiRequest&
       return problem(400, "query parameter 'window' shows one window; leave out 'from' and 'to'", r.path, "window");
     if (window->empty()) return problem(400, "query parameter 'window': give the window's as-of date", r.path, "window");
     pipeline::WindowFactorReturns w;
-    if (auto failed = pipeline::find_window_factor_returns(db, query.model, *window, method, w)) return query_problem(r, failed);
+    if (auto failed = pipeline::find_window_factor_returns(db, query.model, *window, method, w)) return failure_problem(r, *failed);
     const std::string filename = query.model + "-factor-returns-" + w.window.window.as_of + "-" +
                                  engine::to_string(w.scores.method) + ".csv";
     return f == Format::csv ? csv_response(window_factor_returns_csv(w), filename, true) : json_response(window_factor_returns_json(w));
   }
   pipeline::FactorReturnSeriesAnswer s;
-  if (auto failed = pipeline::find_factor_return_series(db, query, method, s)) return query_problem(r, failed);
+  if (auto failed = pipeline::find_factor_return_series(db, query, method, s)) return failure_problem(r, *failed);
   return f == Format::csv
              ? csv_response(factor_return_series_csv(s),
                         query.model + "-factor-returns-" + engine::to_string(s.series.method) + ".csv", true)
@@ -40,7 +40,7 @@ ApiResponse residuals_endpoint(const ApiContext& context, const ApiRequest& r) {
   pipeline::AssetResidualAnswer a;
   if (auto failed = pipeline::find_asset_residuals(context.database(), model, r.parameter("asset").value_or(""),
                                          r.parameter("window").value_or(""), r.parameter("method").value_or(""), a))
-    return query_problem(r, failed);
+    return failure_problem(r, *failed);
   const std::string filename = model + "-residuals-" + file_part(a.residuals.asset) + "-" + a.window.window.as_of +
                                "-" + engine::to_string(a.residuals.method) + ".csv";
   return f == Format::csv ? csv_response(residuals_csv(a), filename, true) : json_response(residuals_json(a));

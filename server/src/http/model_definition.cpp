@@ -1,33 +1,14 @@
 #include "model_definition.h"
 
 #include <string>
-#include <string_view>
 #include <utility>
+
+#include "endpoint_helpers.h"
 
 namespace factorwatch::server {
 namespace {
 
 using json = nlohmann::ordered_json;
-
-// The configuration's own messages start by naming a CLI option ("option '--min-coverage'
-// = ..."); over HTTP the same rule is about a JSON member ("member 'min_coverage' = ...").
-// Only the start is looked at, by a plain scan: the rest may quote the client's strings.
-// (std::regex was used before: libstdc++'s recurses once per character matched, so a
-// universe naming "option '--" and 100 000 letters twice overflowed the daemon's stack.)
-BodyProblem as_member_message(const std::string& message) {
-  constexpr std::string_view kOption = "option '--";
-  if (message.rfind(kOption, 0) == 0) {
-    const auto end = message.find('\'', kOption.size());
-    if (end != std::string::npos && end > kOption.size()) {
-      std::string member = message.substr(kOption.size(), end - kOption.size());
-      for (char& c : member)
-        if (c == '-') c = '_';
-      return {"member '" + member + "'" + message.substr(end + 1), member};
-    }
-  }
-  if (message.rfind("universe", 0) == 0) return {message, "universe"};
-  return {message, ""};
-}
 
 // Applies the members of a model definition to `config`; a message naming the member
 // when one is unknown or of the wrong type.
@@ -126,8 +107,8 @@ std::optional<BodyProblem> read_model_definition(std::string_view text, storage:
   }
   if (!body.is_object()) return BodyProblem{"body: must be a JSON object of model settings", "body"};
   if (auto bad = apply_definition(body, config)) return bad;
-  std::string error;
-  if (!config.IsValid(&error)) return as_member_message(error);
+  if (const auto f = config.FirstFailure())
+    return BodyProblem{failure_text(*f, true), f->field};
   return std::nullopt;
 }
 

@@ -15,23 +15,10 @@ namespace {
 
 using nlohmann::ordered_json;
 
-// How the HTTP API names each input a failure is about.
-std::string http_field(const std::string& field) {
-  if (field == "model") return "name";
-  if (field == "portfolio_as_of") return "holdings_as_of";
-  return field;
-}
-
-// Where the input came from: the window's date is always in the query string; the rest is
-// in the query string of a GET and in the body of a POST.
-std::string where(const ApiRequest& r, const std::string& field) {
-  return (field == "as_of" || r.method != "POST" ? "query parameter '" : "member '") + field + "'";
-}
-
 // The window's risk model from the daemon's cache, read and indexed on a miss.
 std::shared_ptr<const pipeline::WindowRiskModel> cached_model(const ApiContext& context, storage::Database& db,
                                                     const pipeline::WindowPick& pick) {
-  if (pick.outcome != pipeline::WindowLookup::found) return nullptr;
+  if (pick.failure) return nullptr;
   const std::string key = std::to_string(pick.model.id) + "|" + pick.stamp.key();
   if (context.risk_models)
     if (auto model = context.risk_models->find(key)) return model;
@@ -49,20 +36,9 @@ ApiResponse answer(const ApiContext& context, const ApiRequest& r, const pipelin
   storage::Database& db = context.database();
   const pipeline::WindowPick pick = pipeline::pick_window(db, q.window);
   const pipeline::RiskOutcome outcome = pipeline::answer_risk(db, q, pick, cached_model(context, db, pick));
-  const std::string field = http_field(outcome.field);
-  switch (outcome.failure) {
-    case pipeline::RiskFailure::none: break;
-    case pipeline::RiskFailure::no_model: return unknown_model(r, q.window.model);
-    case pipeline::RiskFailure::bad_as_of: return problem(400, where(r, field) + ": " + outcome.message, r.path, field);
-    case pipeline::RiskFailure::no_window:
-      return problem(404, outcome.message + "; start one with POST /v1/models/" + q.window.model + "/refresh", r.path,
-                     q.window.as_of.empty() ? "" : "as_of");
-    case pipeline::RiskFailure::unusable_window: return problem(409, outcome.message, r.path, "as_of");
-    case pipeline::RiskFailure::no_portfolio:
-    case pipeline::RiskFailure::no_benchmark:
-      return problem(404, where(r, field) + ": " + outcome.message + " (GET /v1/portfolios lists them)", r.path, field);
-    case pipeline::RiskFailure::bad_weights: return problem(422, where(r, field) + ": " + outcome.message, r.path, field);
-  }
+  // The window's date is always in the query string; the rest is in the query string of a
+  // GET and in the body of a POST.
+  if (const auto& f = outcome.failure) return failure_problem(r, *f, r.method == "POST" && f->field != "as_of");
   const RiskViewOptions view{std::get<bool>(by_asset), 0};
   if (std::get<Format>(format) == Format::csv) {
     const std::string name = q.portfolio.empty() ? "weights" : q.portfolio;

@@ -27,17 +27,7 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
 
   storage::Database& db = context.database();
   const pipeline::WindowPick pick = pipeline::pick_window(db, query);
-  switch (pick.outcome) {
-    case pipeline::WindowLookup::no_model: return unknown_model(r, query.model);
-    case pipeline::WindowLookup::bad_as_of:
-      return problem(400, "query parameter 'as_of': " + pick.message, r.path, "as_of");
-    case pipeline::WindowLookup::no_window:
-      return problem(404,
-                     (query.as_of.empty() ? "" : "query parameter 'as_of': ") + pick.message +
-                         "; start one with POST /v1/models/" + query.model + "/refresh",
-                     r.path, query.as_of.empty() ? "" : "as_of");
-    case pipeline::WindowLookup::found: break;
-  }
+  if (pick.failure) return failure_problem(r, *pick.failure);
   // Lists of assets are not cached: their reasons for missing assets follow the returns
   // stored, which the window stamp does not cover.
   const bool cacheable = query.assets.empty();

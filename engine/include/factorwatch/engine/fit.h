@@ -11,6 +11,7 @@
 #include <string>
 #include <vector>
 
+#include "factorwatch/engine/failure.h"
 #include "factorwatch/engine/panel.h"
 #include "factorwatch/engine/window_products.h"
 
@@ -65,7 +66,10 @@ struct FitOptions {
   // on it beyond round-off (the bound is in window_products.h).
   WindowProducts* products = nullptr;
 
-  // True when usable; otherwise *error names the field, its value and the rule.
+  // The first rule these options break, naming the field as spelled here ("min_coverage");
+  // nullopt when usable.
+  std::optional<Failure> FirstFailure() const;
+  // True when usable; otherwise *error is "option 'field' = value: rule".
   bool IsValid(std::string* error) const;
 };
 

@@ -9,10 +9,12 @@
 #pragma once
 
 #include <Eigen/Dense>
+#include <optional>
 #include <string>
 #include <unordered_map>
 #include <vector>
 
+#include "factorwatch/engine/failure.h"
 #include "factorwatch/engine/fit.h"
 
 namespace factorwatch::engine {
@@ -118,6 +120,11 @@ struct PortfolioRisk {
   std::vector<NotModelled> not_modelled;      // in input order
   WeightSummary weights;
 };
+
+// The first rule a set of weights breaks for portfolio_risk (an asset held twice, a weight
+// that is not finite), as a rejected failure naming `field`; nullopt when it can be
+// measured. Callers with weights from outside check here rather than catch the throws below.
+std::optional<Failure> weights_failure(const Holdings& holdings, const std::string& field);
 
 // Throws std::invalid_argument when an asset appears twice or a weight is not finite.
 PortfolioRisk portfolio_risk(const RiskModel& model, const Holdings& holdings);

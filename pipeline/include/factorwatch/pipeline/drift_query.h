@@ -1,14 +1,17 @@
 // What a drift, history or alerts request is about, found the same way for the CLI and the
 // daemon: the model, a date range, the comparison (against the previous or the pinned
-// window), one window or one asset. Failures are values naming the field at fault (from,
-// to, against, window, asset); each surface spells the field its own way ("option
-// '--from'", "query parameter 'from'") and picks its exit code or HTTP status.
+// window), one window or one asset. Failures are engine::Failure values naming the field
+// at fault (from, to, against, window, asset, or model); each surface spells the field its
+// own way ("option '--from'", "query parameter 'from'") and maps the kind to its exit code
+// or HTTP status.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
 #include "factorwatch/engine/drift.h"
+#include "factorwatch/engine/failure.h"
 #include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/drift.h"
@@ -16,26 +19,8 @@
 
 namespace factorwatch::pipeline {
 
-enum class QueryOutcome {
-  found,
-  bad_input,      // a malformed date, an unknown comparison: CLI exit 2, HTTP 400
-  no_model,       // no model by that name: exit 2, 404
-  unknown_asset,  // no returns stored for the asset: exit 2, 404
-  not_found,      // no such window, or no comparison stored for it: exit 1, 404
-};
-
-struct QueryFailure {
-  QueryOutcome outcome = QueryOutcome::found;
-  std::string field;    // from | to | against | window | asset; "" for the model
-  std::string value;    // what was given for it
-  std::string message;  // why, without the field's name
-  bool refresh_helps = false;  // a refresh would store what is missing
-  explicit operator bool() const { return outcome != QueryOutcome::found; }
-};
-
-inline QueryFailure query_failure(QueryOutcome outcome, std::string field, std::string value, std::string message) {
-  return {outcome, std::move(field), std::move(value), std::move(message)};
-}
+// The outcome of a lookup: nullopt when answered, else why not (engine/failure.h).
+using QueryFailure = std::optional<engine::Failure>;
 
 // The model and an optional date range ("" = open end).
 struct RangeQuery {

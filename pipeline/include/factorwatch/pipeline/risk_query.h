@@ -2,7 +2,7 @@
 // the model and window (latest, or at or before a date), the portfolio (stored by name, or
 // weights sent with the request), its benchmark (stored, sent, or the portfolio's usual
 // one) and an optional trade; engine::portfolio_risk on each book. Failures are values
-// naming the input at fault; each surface adds its own hint.
+// naming the input at fault (engine/failure.h); each surface adds its own hint.
 #pragma once
 
 #include <memory>
@@ -10,6 +10,7 @@
 #include <string>
 #include <vector>
 
+#include "factorwatch/engine/failure.h"
 #include "factorwatch/engine/frequency.h"
 #include "factorwatch/engine/risk.h"
 #include "factorwatch/pipeline/window_query.h"
@@ -52,19 +53,6 @@ struct RiskRequest {
   std::optional<engine::Holdings> trade;  // weight changes for a what-if
 };
 
-// Where a request went wrong. `field` names the input: "model", "as_of", "portfolio",
-// "portfolio_as_of", "benchmark", "weights", "trade" (surfaces spell them their own way).
-enum class RiskFailure {
-  none,
-  no_model,
-  bad_as_of,
-  no_window,
-  unusable_window,  // the window's fit failed: its numbers are not a model to measure risk with
-  no_portfolio,
-  no_benchmark,
-  bad_weights,
-};
-
 // One set of weights measured against the window.
 struct RiskBook {
   std::string role;   // portfolio | benchmark | active | after_trade | active_after_trade
@@ -79,10 +67,13 @@ struct RiskReport {
   std::vector<RiskBook> books;  // portfolio first; benchmark and active when there is one; then the trade's
 };
 
+// The report, or why there is none. The failure's field names the input: "model",
+// "as_of", "portfolio", "holdings_as_of", "benchmark", "weights", "benchmark_weights",
+// "trade" (surfaces spell them their own way). Kinds: an unknown model, portfolio or
+// benchmark is unknown_name; a malformed date is bad_input; no window at the date is
+// not_stored; a failed fit not_usable; weights whose figures overflow are rejected.
 struct RiskOutcome {
-  RiskFailure failure = RiskFailure::none;
-  std::string message;
-  std::string field;
+  std::optional<engine::Failure> failure;
   RiskReport report;
 };
 

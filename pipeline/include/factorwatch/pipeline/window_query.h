@@ -1,13 +1,16 @@
 // Finding the window a one-window request is about, for the CLI and the daemon alike:
 // the model, the window (the latest, or the latest at or before an as-of date) and the
 // assets (all, or a list in the order given, with a reason for each one the window does
-// not hold). Failures are values with a plain message; each surface adds its own hint.
+// not hold). Failures are engine::Failure values; each surface names the field its own
+// way and adds its own hint.
 #pragma once
 
 #include <nlohmann/json.hpp>
+#include <optional>
 #include <string>
 #include <vector>
 
+#include "factorwatch/engine/failure.h"
 #include "factorwatch/engine/frequency.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/models.h"
@@ -21,17 +24,12 @@ struct WindowQuery {
   std::vector<std::string> assets;  // empty = every fitted asset
 };
 
-enum class WindowLookup {
-  found,
-  no_model,   // no model by that name
-  bad_as_of,  // the as-of date is not a date
-  no_window,  // the model has no window (at or before the date) yet
-};
-
 // Which window, without reading its matrices: enough to key a cache.
 struct WindowPick {
-  WindowLookup outcome = WindowLookup::no_model;
-  std::string message;  // why, when not found
+  // Why there is none: an unknown model (field "model"), an as-of date that is not a date
+  // (bad input, "as_of"), no window stored at or before it (not stored; "as_of" when a
+  // date was given), or a window whose fit failed (not usable, "as_of"; `stamp` names it).
+  std::optional<engine::Failure> failure;
   storage::ModelVersion model;
   storage::WindowStamp stamp;
 };
@@ -51,8 +49,12 @@ struct SelectedWindow {
 
 WindowPick pick_window(storage::Database& db, const WindowQuery& query);
 
+// The failure for a model name the database does not hold (field "model").
+engine::Failure unknown_model(const std::string& name);
+
 // Reads the picked window and selects the assets. Throws std::runtime_error when the
-// window vanished in between (replaced by a refit under a new model version).
+// window vanished in between (replaced by a refit under a new model version), or was
+// replaced by a fit that is not usable.
 SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick, const WindowQuery& query);
 
 // JSON list of the assets asked for that the window does not hold, with the reason.

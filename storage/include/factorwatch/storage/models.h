@@ -58,8 +58,10 @@ struct ModelConfig {
   double alert_below = 0.95;
   double alert_below_pinned = 0.85;
 
-  // True when usable; otherwise *error names the field (as the CLI spells it) and the rule.
-  bool IsValid(std::string* error) const;
+  // The first rule the configuration breaks, naming the member as to_json spells it
+  // ("min_coverage"; "universe" for the asset list); nullopt when usable. Each surface
+  // spells the field its own way.
+  std::optional<engine::Failure> FirstFailure() const;
   // The engine options of every window of this configuration (no warm start).
   engine::FitOptions fit_options() const;
   nlohmann::ordered_json to_json() const;

@@ -83,6 +83,8 @@ struct WindowStamp {
   double total_seconds = 0;
   bool stale = false;
   std::string alignment;  // fingerprint of the alignment R; "" until aligned (a realignment changes what is served)
+  bool usable = true;       // the fit converged or stopped at its iteration limit
+  std::string termination;  // how the fit ended ("numerical_failure" and the like when not usable)
 
   std::string key() const;  // all of the above in one string
 };
