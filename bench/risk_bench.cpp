@@ -396,8 +396,8 @@ int main(int argc, char** argv) {
     fs::store_returns(db, panel, source);
     fs::ModelConfig config;
     config.window = a.window;
-    config.factors = a.factors;
-    config.method = a.method == "ml" ? fe::Method::max_likelihood : fe::Method::pca;
+    config.fit.factors = a.factors;
+    config.fit.method = a.method == "ml" ? fe::Method::max_likelihood : fe::Method::pca;
     config.first_as_of = last_date;  // exactly one window: the last `window` dates
     fs::set_model(db, kModel, config);
     const fp::RefreshSummary refreshed = fp::refresh_model(db, kModel);

@@ -48,8 +48,8 @@ void load(storage::Database& db, const std::string& path) { fw::load_returns(db,
 
 storage::ModelConfig config() {
   storage::ModelConfig c;
-  c.method = engine::Method::max_likelihood;
-  c.factors = kK;
+  c.fit.method = engine::Method::max_likelihood;
+  c.fit.factors = kK;
   c.window = 100;
   c.step = 5;
   return c;
@@ -305,7 +305,7 @@ TEST(AlignmentRefresh, RotatedModelsStoreTheirRotationAndKeepTheirRisk) {
   load(db, dir.file("r.csv"));
   for (const auto method : {engine::RotationMethod::varimax, engine::RotationMethod::promax}) {
     storage::ModelConfig c = config();
-    c.rotation = method;
+    c.rotation.method = method;
     const std::string name = engine::to_string(method);
     storage::set_model(db, name, c);
     pipeline::refresh_model(db, name);

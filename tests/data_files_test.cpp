@@ -87,7 +87,7 @@ TEST(DataFiles, NewDatabaseFilesAreOwnerOnlyWhateverTheUmask) {
   {
     storage::Database db(dir.database());
     storage::ModelConfig c;
-    c.factors = 1;
+    c.fit.factors = 1;
     c.window = 20;
     storage::set_model(db, "m", c);  // a write: -wal and -shm in use
     for (const char* suffix : {"", "-wal", "-shm"}) {
@@ -110,7 +110,7 @@ TEST(DataFiles, CreatingTheSameDatabaseTwiceGivesOne) {
   storage::Database a(dir.database());
   storage::Database b(dir.database());
   storage::ModelConfig c;
-  c.factors = 1;
+  c.fit.factors = 1;
   c.window = 20;
   storage::set_model(a, "m", c);
   EXPECT_TRUE(storage::find_model(b, "m"));

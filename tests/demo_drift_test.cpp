@@ -55,8 +55,8 @@ DemoRun refresh_demo(storage::AlignTo align_to) {
   storage::Database db(dir.file(name + ".db"));
   fw::load_returns(db, dir.file("demo.csv"));
   storage::ModelConfig c;
-  c.method = engine::Method::max_likelihood;
-  c.factors = 4;
+  c.fit.method = engine::Method::max_likelihood;
+  c.fit.factors = 4;
   c.window = 504;
   c.step = 5;
   c.align_to = align_to;

@@ -45,7 +45,7 @@ TEST(DemoExposures, StoredWindowsRecoverThePlantedLoadingsOnEachSideOfTheChange)
   storage::store_returns(db, panel, source);
 
   storage::ModelConfig config;
-  config.factors = static_cast<int>(u.loadings_after.cols());
+  config.fit.factors = static_cast<int>(u.loadings_after.cols());
   config.window = 504;
   config.step = 97;                // grid as-of indices 503, 600, ..., 1473
   config.first_as_of = u.dates[600];

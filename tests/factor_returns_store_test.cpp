@@ -53,11 +53,11 @@ struct Store {
     db = std::make_unique<storage::Database>(dir.database());
     fw::load_returns(*db, dir.file("r.csv"));
     storage::ModelConfig c;
-    c.method = engine::Method::max_likelihood;
-    c.factors = kK;
+    c.fit.method = engine::Method::max_likelihood;
+    c.fit.factors = kK;
     c.window = kWindow;
     c.step = kStep;
-    c.rotation = engine::RotationMethod::promax;
+    c.rotation.method = engine::RotationMethod::promax;
     storage::set_model(*db, "m", c);
     pipeline::refresh_model(*db, "m");
     version = storage::find_model(*db, "m")->id;

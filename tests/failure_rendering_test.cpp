@@ -75,11 +75,11 @@ const std::vector<BrokenConfig>& broken_configs() {
   static const std::vector<BrokenConfig> cases = {
       {"window", [](ModelConfig& c) { c.window = 1; }},
       {"step", [](ModelConfig& c) { c.step = 0; }},
-      {"factors", [](ModelConfig& c) { c.factors = 0; }},
-      {"factors", [](ModelConfig& c) { c.factors = c.window; }},
-      {"half_life", [](ModelConfig& c) { c.weighting = fe::Weighting::ewma, c.half_life = 0; }},
-      {"tolerance", [](ModelConfig& c) { c.tolerance = 0.5; }},
-      {"min_coverage", [](ModelConfig& c) { c.min_coverage = 1.5; }},
+      {"factors", [](ModelConfig& c) { c.fit.factors = 0; }},
+      {"factors", [](ModelConfig& c) { c.fit.factors = c.window; }},
+      {"half_life", [](ModelConfig& c) { c.fit.weighting = fe::Weighting::ewma, c.fit.half_life = 0; }},
+      {"tolerance", [](ModelConfig& c) { c.fit.tolerance = 0.5; }},
+      {"min_coverage", [](ModelConfig& c) { c.fit.min_coverage = 1.5; }},
       {"first_as_of", [](ModelConfig& c) { c.first_as_of = "2021-02-30"; }},
       {"pinned_window", [](ModelConfig& c) { c.pinned_window = "soon"; }},
       {"smoothing_half_life", [](ModelConfig& c) { c.smoothing_half_life = std::nan(""); }},
@@ -127,6 +127,24 @@ TEST(FailureText, EveryModelRuleNamesAnOptionOfModelSetAndAMemberOfTheDefinition
     ASSERT_TRUE(bad) << body.dump();
     EXPECT_EQ(bad->field, f->field) << bad->message;
   }
+}
+
+// Over HTTP a half-life of null or 0 means equal weights (docs/api.md); a positive one
+// exponential weights; anything else is refused naming the member.
+TEST(FailureText, AHalfLifeOfZeroOverHttpMeansEqualWeights) {
+  ModelConfig config;
+  ASSERT_FALSE(fs::read_model_definition(R"({"half_life":30})", config));
+  EXPECT_EQ(config.fit.weighting, fe::Weighting::ewma);
+  EXPECT_EQ(config.fit.half_life, 30);
+  ASSERT_FALSE(fs::read_model_definition(R"({"half_life":0})", config));
+  EXPECT_EQ(config.fit.weighting, fe::Weighting::equal);
+  ASSERT_FALSE(fs::read_model_definition(R"({"half_life":12.5})", config));
+  ASSERT_FALSE(fs::read_model_definition(R"({"half_life":null})", config));
+  EXPECT_EQ(config.fit.weighting, fe::Weighting::equal);
+  const auto bad = fs::read_model_definition(R"({"half_life":-2})", config);
+  ASSERT_TRUE(bad);
+  EXPECT_EQ(bad->field, "half_life");
+  EXPECT_EQ(bad->message, "member 'half_life': exponential weighting needs a half-life above 0 dates");
 }
 
 TEST(FailureText, FitOptionsNameTheOptionsOfTheFitCommand) {

@@ -127,8 +127,8 @@ TEST(IngestStore, CorrectionIsRecordedAndMarksCoveringWindowsStale) {
   storage::Database db(dir.database());
   load(db, dir.file("r.csv"));
   storage::ModelConfig config;
-  config.method = engine::Method::pca;
-  config.factors = 2;
+  config.fit.method = engine::Method::pca;
+  config.fit.factors = 2;
   config.window = 20;
   config.step = 5;
   storage::set_model(db, "m", config);

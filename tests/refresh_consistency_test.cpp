@@ -37,8 +37,8 @@ engine::ReturnsPanel planted() {
 
 storage::ModelConfig config() {
   storage::ModelConfig c;
-  c.method = engine::Method::max_likelihood;
-  c.factors = kK;
+  c.fit.method = engine::Method::max_likelihood;
+  c.fit.factors = kK;
   c.window = kWindow;
   c.step = kStep;
   return c;

@@ -43,8 +43,8 @@ void load(storage::Database& db, const std::string& path) { testing::load_return
 
 storage::ModelConfig ml_config(int window, int step) {
   storage::ModelConfig c;
-  c.method = engine::Method::max_likelihood;
-  c.factors = kK;
+  c.fit.method = engine::Method::max_likelihood;
+  c.fit.factors = kK;
   c.window = window;
   c.step = step;
   return c;
@@ -190,7 +190,7 @@ TEST(Refresh, ChangedConfigurationIsANewVersionAndOldWindowsStay) {
   EXPECT_FALSE(same.new_version);
   EXPECT_EQ(same.model.version, 1);
   storage::ModelConfig changed = ml_config(100, 20);
-  changed.factors = 2;
+  changed.fit.factors = 2;
   const auto v2 = storage::set_model(db, "m", changed);
   EXPECT_TRUE(v2.new_version);
   EXPECT_EQ(v2.model.version, 2);
@@ -216,7 +216,7 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
   nlohmann::json old_form = v1.model.config.to_json();
   old_form.erase("tolerance");
   const storage::ModelConfig old_config = storage::ModelConfig::from_json(old_form);
-  EXPECT_EQ(old_config.tolerance, engine::FitOptions{}.tolerance);
+  EXPECT_EQ(old_config.fit.tolerance, engine::FitOptions{}.tolerance);
   EXPECT_EQ(old_config.hash(), v1.model.configuration_hash);
   pipeline::refresh_model(db, "m");
   for (const auto& w : storage::list_windows(db, v1.model.id)) {
@@ -228,7 +228,7 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
   EXPECT_EQ(first->fit.iterations, first->fit.em_passes + first->fit.newton_steps + first->fit.profile_steps);
 
   storage::ModelConfig tighter = ml_config(100, 20);
-  tighter.tolerance = 1e-12;
+  tighter.fit.tolerance = 1e-12;
   const auto v2 = storage::set_model(db, "m", tighter);
   EXPECT_TRUE(v2.new_version);
   pipeline::refresh_model(db, "m");
@@ -240,7 +240,7 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
   }
   EXPECT_EQ(pipeline::read_served_window(db, v2.model.id, "")->fit.tolerance, 1e-12);
 
-  tighter.tolerance = 0.5;
+  tighter.fit.tolerance = 0.5;
   const auto failure = tighter.FirstFailure();
   ASSERT_TRUE(failure);
   EXPECT_EQ(failure->field, "tolerance");
@@ -325,7 +325,7 @@ TEST(Refresh, BackfillWithCarriedProductsEqualsColdFits) {
   const engine::ReturnsPanel file = storage::read_returns_csv(dir.file("wide.csv"));
   for (const engine::Method method : {engine::Method::pca, engine::Method::max_likelihood}) {
     storage::ModelConfig config = ml_config(60, 1);
-    config.method = method;
+    config.fit.method = method;
     const std::string name = engine::to_string(method);
     storage::set_model(db, name, config);
     EXPECT_EQ(pipeline::refresh_model(db, name).fitted, 31u);
@@ -357,7 +357,7 @@ TEST(Refresh, UniverseListRestrictsTheAssets) {
   storage::Database db(dir.database());
   load(db, dir.file("r.csv"));
   storage::ModelConfig config = ml_config(100, 60);
-  config.factors = 2;
+  config.fit.factors = 2;
   config.universe.assign(p.assets.begin() + 10, p.assets.begin() + 30);
   config.universe.push_back("ZQ-not-yet-listed");
   storage::set_model(db, "part", config);

@@ -217,8 +217,8 @@ TEST(StoredChecksums, MigrationFromSchema6BackFillsEveryChecksum) {
     storage::Database db(dir.database());
     fw::load_returns(db, dir.file("r.csv"));
     storage::ModelConfig c;
-    c.method = engine::Method::max_likelihood;
-    c.factors = kK;
+    c.fit.method = engine::Method::max_likelihood;
+    c.fit.factors = kK;
     c.window = kWindow;
     c.step = kStep;
     storage::set_model(db, "m", c);

@@ -181,7 +181,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
   std::vector<std::size_t> deferred;  // compared with the pinned window once it is aligned
   // The previous usable window's congruences with the pinned window: an alert against the
   // pinned window is raised when a factor falls below the threshold, moving away from it.
-  const Eigen::VectorXd at_pinned = Eigen::VectorXd::Ones(c.factors);
+  const Eigen::VectorXd at_pinned = Eigen::VectorXd::Ones(c.fit.factors);
   std::optional<Eigen::VectorXd> prior_pinned;
   if (pinned != kNone && start > pinned) {
     for (std::size_t j = start; j-- > pinned && !prior_pinned;) {
@@ -217,7 +217,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     if (!record || !record->fit.IsSolutionUsable()) {
       row.status = "not usable";
       row.message = "the fit of this window is not usable: nothing to align or compare";
-      row.matrix = Eigen::MatrixXd::Identity(c.factors, c.factors);
+      row.matrix = Eigen::MatrixXd::Identity(c.fit.factors, c.fit.factors);
       storage::save_alignment(db, rows[i].window_id, row);
       ++run.aligned;
       if (++in_transaction == kWindowsPerCommit) commit();

@@ -48,7 +48,7 @@ std::vector<Eigen::Index> flagged_factors(const storage::DriftRecord& r, double 
 }
 
 Eigen::Index factor_columns(const storage::ModelConfig& c, const std::vector<storage::DriftRecord>& rows) {
-  Eigen::Index k = c.factors;
+  Eigen::Index k = c.fit.factors;
   for (const auto& r : rows)
     k = std::max({k, r.congruence.size(), r.principal_angles_degrees.size(), r.factor_variance_change.size(),
                   r.explained_share_change.size()});

@@ -61,11 +61,11 @@ std::string series_basis_text(const storage::ModelConfig& c) {
     case storage::AlignTo::pinned: reference = "the pinned window"; break;
     case storage::AlignTo::smoothed: reference = "the smoothed reference"; break;
   }
-  return std::string("rotation ") + engine::to_string(c.rotation) + ", each window aligned onto " + reference;
+  return std::string("rotation ") + engine::to_string(c.rotation.method) + ", each window aligned onto " + reference;
 }
 
 Eigen::Index series_factor_columns(const FactorReturnSeriesAnswer& a) {
-  Eigen::Index k = a.model.config.factors;
+  Eigen::Index k = a.model.config.fit.factors;
   for (const FactorReturnRow& r : a.series.rows) k = std::max(k, r.scores.size());
   return k;
 }

@@ -139,7 +139,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
   }
 
   const engine::FitOptions base = config.fit_options();
-  const engine::RotationOptions rotation = config.rotation_options();
+  const engine::RotationOptions rotation = config.rotation;
   const std::vector<std::int32_t> universe = storage::stored_asset_ids(db, config.universe);
   if (!config.universe.empty() && universe.empty())
     throw std::invalid_argument("model '" + model->name + "': none of its " + std::to_string(config.universe.size()) +
@@ -201,7 +201,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       record.provenance = engine::build_info();
       const auto t_fit = Clock::now();
       record.fit = engine::fit(panel, options);
-      if (config.rotation != engine::RotationMethod::none && record.fit.IsSolutionUsable())
+      if (config.rotation.method != engine::RotationMethod::none && record.fit.IsSolutionUsable())
         record.rotation = engine::rotate_fit_loadings(record.fit.standardized_loadings(), rotation).matrix;
       summary.fit_seconds += since(t_fit);
       if (!record.fit.IsSolutionUsable()) ++summary.unusable;

@@ -92,7 +92,7 @@ SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick,
 }
 
 std::string factor_basis_text(const SelectedWindow& s) {
-  std::string text = std::string("rotation ") + engine::to_string(s.model.config.rotation) + ", ";
+  std::string text = std::string("rotation ") + engine::to_string(s.model.config.rotation.method) + ", ";
   const auto& a = s.window.alignment;
   if (!a) return text + "not aligned yet";
   if (a->status != "aligned") return text + "alignment: " + a->status;

@@ -13,14 +13,12 @@
 #include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/model_fields.h"
 #include "factorwatch/storage/timestamps.h"
 #include "fingerprint.h"
 
 namespace factorwatch::storage {
 namespace {
-
-const char* weighting_name(engine::Weighting w) { return w == engine::Weighting::ewma ? "ewma" : "equal"; }
-
 
 ModelVersion read_version(SQLite::Statement& q) {
   ModelVersion m;
@@ -54,140 +52,65 @@ std::optional<AlignTo> parse_align_to(const std::string& s) {
   return std::nullopt;
 }
 
-std::optional<engine::Failure> ModelConfig::FirstFailure() const {
-  using engine::bad_number;
-  auto bad_date = [](const char* field, const std::string& value) {
-    return engine::failure(engine::FailureKind::bad_input, field, value, "not a date in the form yyyy-mm-dd");
-  };
-  if (window < 2) return bad_number("window", std::to_string(window), "must be at least 2 dates");
-  if (step < 1) return bad_number("step", std::to_string(step), "must be at least 1 date");
-  if (factors < 1) return bad_number("factors", std::to_string(factors), "must be at least 1");
-  if (factors >= window)
-    return bad_number("factors", std::to_string(factors),
-                      "must be below the window length (" + std::to_string(window) + " dates)");
-  if (weighting == engine::Weighting::ewma && !(half_life > 0 && std::isfinite(half_life)))
-    return bad_number("half_life", "", "exponential weighting needs a half-life above 0 dates");
-  if (!(tolerance > 0 && tolerance <= 0.01))
-    return bad_number("tolerance", detail::shortest(tolerance), "must be in (0, 0.01]");
-  if (!(min_coverage > 0 && min_coverage <= 1))
-    return bad_number("min_coverage", std::to_string(min_coverage), "must be in (0, 1]");
-  if (!first_as_of.empty() && !detail::parse_iso_date(first_as_of)) return bad_date("first_as_of", first_as_of);
-  if (!pinned_window.empty() && !detail::parse_iso_date(pinned_window)) return bad_date("pinned_window", pinned_window);
-  if (!(smoothing_half_life > 0 && std::isfinite(smoothing_half_life)))
-    return bad_number("smoothing_half_life", std::to_string(smoothing_half_life), "must be above 0 windows");
-  if (min_shared_assets < 1)
-    return bad_number("min_shared_assets", std::to_string(min_shared_assets), "must be at least 1");
-  if (!(alert_below >= 0 && alert_below <= 1))
-    return bad_number("alert_below", std::to_string(alert_below), "must be in [0, 1] (0: no alert)");
-  if (!(alert_below_pinned >= 0 && alert_below_pinned <= 1))
-    return bad_number("alert_below_pinned", std::to_string(alert_below_pinned), "must be in [0, 1] (0: no alert)");
-  std::set<std::string> seen;
-  for (const std::string& a : universe) {
-    if (auto problem = identifier_problem(a)) return bad_number("universe", "", "the asset name " + *problem);
-    if (!seen.insert(a).second)
-      return bad_number("universe", "", "asset " + detail::quoted(a) + " is listed twice");
-  }
-  // What is left of the engine's rules cannot fail for a configuration that passed the
-  // checks above (the fixed options are valid); they stay as a guard.
-  if (auto f = fit_options().FirstFailure()) return f;
-  std::string error;
-  if (!rotation_options().IsValid(&error)) return bad_number("rotation", "", error);
-  return std::nullopt;
-}
-
-engine::RotationOptions ModelConfig::rotation_options() const {
+engine::RotationOptions model_rotation() {
   engine::RotationOptions o;
-  o.method = rotation;
-  o.kaiser_normalize = kaiser_normalize;
-  // Tighter than R's default 1e-5: the rotation of a window should not depend on where
-  // the criterion's slow tail happened to stop (the alignment would see that as drift).
-  o.tolerance = 1e-10;
+  o.method = engine::RotationMethod::none;
+  o.kaiser_normalize = true;
+  o.tolerance = kRotationTolerance;
   return o;
 }
 
+std::optional<engine::Failure> ModelConfig::FirstFailure() const {
+  for (const ModelField& field : model_fields())
+    if (auto f = field.check(*this)) return f;
+  // What is left of the engine's rules cannot fail for a configuration that passed the
+  // checks above (the options a model does not set keep valid defaults); a guard.
+  if (auto f = fit_options().FirstFailure()) return f;
+  std::string error;
+  if (!rotation.IsValid(&error)) return engine::bad_number("rotation", "", error);
+  return std::nullopt;
+}
+
 engine::FitOptions ModelConfig::fit_options() const {
-  engine::FitOptions o;
-  o.method = method;
-  o.factors = factors;
-  o.basis = basis;
-  o.weighting = weighting;
-  o.half_life = weighting == engine::Weighting::ewma ? half_life : 0;
-  o.min_coverage = min_coverage;
-  o.tolerance = tolerance;
+  engine::FitOptions o = fit;
+  if (o.weighting != engine::Weighting::ewma) o.half_life = 0;
   return o;
 }
 
 nlohmann::ordered_json ModelConfig::to_json() const {
   nlohmann::ordered_json j;
-  j["universe"] = universe;  // [] = all assets
-  j["window"] = window;
-  j["step"] = step;
-  j["method"] = engine::to_string(method);
-  j["factors"] = factors;
-  j["basis"] = engine::to_string(basis);
-  j["weighting"] = weighting_name(weighting);
-  j["half_life"] = half_life;
-  j["min_coverage"] = min_coverage;
-  j["first_as_of"] = first_as_of;
-  j["tolerance"] = tolerance;
-  j["rotation"] = engine::to_string(rotation);
-  j["kaiser_normalize"] = kaiser_normalize;
-  j["align_to"] = to_string(align_to);
-  j["pinned_window"] = pinned_window;
-  j["smoothing_half_life"] = smoothing_half_life;
-  j["min_shared_assets"] = min_shared_assets;
-  j["alert_below"] = alert_below;
-  j["alert_below_pinned"] = alert_below_pinned;
+  for (const ModelField& field : model_fields()) j[field.member] = field.get(*this);
   return j;
 }
 
 ModelConfig ModelConfig::from_json(const nlohmann::json& j) {
   ModelConfig c;
-  try {
-    c.universe = j.at("universe").get<std::vector<std::string>>();
-    c.window = j.at("window").get<int>();
-    c.step = j.at("step").get<int>();
-    const auto method = engine::parse_method(j.at("method").get<std::string>());
-    const auto basis = engine::parse_basis(j.at("basis").get<std::string>());
-    if (!method || !basis) throw std::runtime_error("unknown method or basis");
-    c.method = *method;
-    c.basis = *basis;
-    c.factors = j.at("factors").get<int>();
-    c.weighting = j.at("weighting").get<std::string>() == "ewma" ? engine::Weighting::ewma : engine::Weighting::equal;
-    c.half_life = j.at("half_life").get<double>();
-    c.min_coverage = j.at("min_coverage").get<double>();
-    c.first_as_of = j.at("first_as_of").get<std::string>();
-    // Members from schema 5 on: absent in configurations stored before, which had these defaults.
-    if (j.contains("rotation")) {
-      const auto rotation = engine::parse_rotation(j.at("rotation").get<std::string>());
-      if (!rotation) throw std::runtime_error("unknown rotation");
-      c.rotation = *rotation;
+  auto unreadable = [](const std::string& why) {
+    return std::runtime_error("stored model configuration is not readable: " + why);
+  };
+  if (!j.is_object()) throw unreadable("not a JSON object");
+  for (const ModelField& field : model_fields()) {
+    const auto value = j.find(field.member);
+    if (value == j.end()) {
+      // Members from schema 5 on are absent in configurations stored before, which had
+      // the defaults.
+      if (field.added_after_schema_4) continue;
+      throw unreadable("member '" + std::string(field.member) + "' is missing");
     }
-    if (j.contains("kaiser_normalize")) c.kaiser_normalize = j.at("kaiser_normalize").get<bool>();
-    if (j.contains("align_to")) {
-      const auto align_to = parse_align_to(j.at("align_to").get<std::string>());
-      if (!align_to) throw std::runtime_error("unknown alignment reference");
-      c.align_to = *align_to;
-    }
-    if (j.contains("pinned_window")) c.pinned_window = j.at("pinned_window").get<std::string>();
-    if (j.contains("smoothing_half_life")) c.smoothing_half_life = j.at("smoothing_half_life").get<double>();
-    if (j.contains("min_shared_assets")) c.min_shared_assets = j.at("min_shared_assets").get<int>();
-    if (j.contains("alert_below")) c.alert_below = j.at("alert_below").get<double>();
-    if (j.contains("alert_below_pinned")) c.alert_below_pinned = j.at("alert_below_pinned").get<double>();
-    if (j.contains("tolerance")) c.tolerance = j.at("tolerance").get<double>();
-  } catch (const nlohmann::json::exception& e) {
-    throw std::runtime_error(std::string("stored model configuration is not readable: ") + e.what());
+    if (auto why = field.set(c, *value)) throw unreadable("member '" + std::string(field.member) + "': " + *why);
   }
+  // The stored weighting is what was fitted, whatever the half-life (setting the half-life
+  // above chose the weighting from it).
+  if (auto why = find_model_field("weighting")->set(c, j.at("weighting")))
+    throw unreadable("member 'weighting': " + *why);
   return c;
 }
 
 std::string ModelConfig::hash() const {
   nlohmann::ordered_json j = to_json();
-  const ModelConfig defaults;
-  const nlohmann::ordered_json d = defaults.to_json();
-  for (const char* member : {"rotation", "kaiser_normalize", "align_to", "pinned_window", "smoothing_half_life",
-                             "min_shared_assets", "alert_below", "alert_below_pinned", "tolerance"})
-    if (j[member] == d[member]) j.erase(member);
+  const nlohmann::ordered_json d = ModelConfig{}.to_json();
+  for (const ModelField& field : model_fields())
+    if (field.added_after_schema_4 && j[field.member] == d[field.member]) j.erase(field.member);
   detail::Fingerprint f;
   f.add(j.dump());
   return f.hex();

@@ -6,6 +6,8 @@
 #include <optional>
 #include <string>
 
+#include "factorwatch/engine/fit.h"
+
 namespace factorwatch::server {
 
 // The command line as given; mapped onto engine::FitOptions by run_fit_command.
@@ -14,7 +16,7 @@ struct FitArguments {
   std::string covariance_path;
   double observations = 0;
   std::string method = "ml";
-  int factors = 3;
+  int factors = engine::FitOptions{}.factors;
   std::string basis = "covariance";
   std::optional<double> half_life;  // dates; absent = equal weights
   std::optional<long> window;       // last this many dates; absent = all

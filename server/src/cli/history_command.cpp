@@ -13,7 +13,7 @@ namespace factorwatch::server {
 namespace {
 
 void print_history_table(const pipeline::AssetHistory& h) {
-  const Eigen::Index k = h.model.config.factors;
+  const Eigen::Index k = h.model.config.fit.factors;
   std::size_t present = 0;
   for (const auto& p : h.points) present += p.present;
   std::printf("model %s, version %d: asset %s in %zu of %zu windows\n\n", h.model.name.c_str(), h.model.version,

@@ -7,6 +7,7 @@
 
 #include "factorwatch/storage/assets.h"
 #include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/model_fields.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
 #include "cli_failure.h"
@@ -23,15 +24,15 @@ std::string describe(const storage::ModelConfig& c) {
                 "  universe:      %s\n  window:        %d dates, a new window every %d date%s\n"
                 "  method:        %s, %d factors, %s basis\n  weighting:     %s\n  min coverage:  %.2f\n"
                 "  first as-of:   %s\n",
-                universe.c_str(), c.window, c.step, c.step == 1 ? "" : "s", engine::to_string(c.method), c.factors,
-                engine::to_string(c.basis),
-                c.weighting == engine::Weighting::ewma ? ("exponential, half-life " + std::to_string(c.half_life) + " dates").c_str()
+                universe.c_str(), c.window, c.step, c.step == 1 ? "" : "s", engine::to_string(c.fit.method), c.fit.factors,
+                engine::to_string(c.fit.basis),
+                c.fit.weighting == engine::Weighting::ewma ? ("exponential, half-life " + std::to_string(c.fit.half_life) + " dates").c_str()
                                                        : "equal",
-                c.min_coverage, c.first_as_of.empty() ? "as early as the data allow" : c.first_as_of.c_str());
+                c.fit.min_coverage, c.first_as_of.empty() ? "as early as the data allow" : c.first_as_of.c_str());
   std::string out = text;
-  out += "  rotation:      " + std::string(engine::to_string(c.rotation));
-  if (c.rotation != engine::RotationMethod::none)
-    out += c.kaiser_normalize ? " (rows Kaiser-normalised)" : " (without Kaiser normalisation)";
+  out += "  rotation:      " + std::string(engine::to_string(c.rotation.method));
+  if (c.rotation.method != engine::RotationMethod::none)
+    out += c.rotation.kaiser_normalize ? " (rows Kaiser-normalised)" : " (without Kaiser normalisation)";
   out += "\n  aligned onto:  ";
   switch (c.align_to) {
     case storage::AlignTo::previous: out += "the previous window"; break;
@@ -44,9 +45,9 @@ std::string describe(const storage::ModelConfig& c) {
   out += ", with at least " + std::to_string(c.effective_min_shared_assets()) + " shared assets\n";
   out += "  pinned window: " + (c.pinned_window.empty() ? std::string("the first window") : c.pinned_window) + "\n";
   char tolerance[96];
-  std::snprintf(tolerance, sizeof tolerance, "  tolerance:     %g (%s)\n", c.tolerance,
-                c.method == engine::Method::max_likelihood ? "largest scaled gradient of the log-likelihood"
-                : c.method == engine::Method::principal_axis ? "largest change of a communality"
+  std::snprintf(tolerance, sizeof tolerance, "  tolerance:     %g (%s)\n", c.fit.tolerance,
+                c.fit.method == engine::Method::max_likelihood ? "largest scaled gradient of the log-likelihood"
+                : c.fit.method == engine::Method::principal_axis ? "largest change of a communality"
                                                              : "not used by pca");
   out += tolerance;
   out += "  drift alerts:  against the previous window " + threshold_text(c.alert_below) +
@@ -54,48 +55,41 @@ std::string describe(const storage::ModelConfig& c) {
   return out;
 }
 
-std::string number_text(double x) {
-  char text[32];
-  std::snprintf(text, sizeof text, "%g", x);
-  return text;
+// The option's value as the JSON value the field table reads: a universe list file read
+// into its names, the default's keyword as null, yes/no as true/false.
+nlohmann::json option_json(const storage::ModelField& field, const ModelOptionValue& v) {
+  switch (field.kind) {
+    case storage::FieldKind::universe:
+      return v.text == "all" ? nlohmann::json("all") : nlohmann::json(storage::read_universe_file(v.text));
+    case storage::FieldKind::whole_number: return v.whole;
+    case storage::FieldKind::number:
+    case storage::FieldKind::half_life: return v.number;
+    case storage::FieldKind::date_or_default: return v.text == field.keyword ? nlohmann::json() : nlohmann::json(v.text);
+    case storage::FieldKind::yes_no: return v.text == "yes";
+    case storage::FieldKind::choice:
+    case storage::FieldKind::follows: break;
+  }
+  return v.text;
 }
 
 int run_model_set(const ModelArguments& a, storage::Database& db) {
   storage::ModelConfig config;
   if (auto current = storage::find_model(db, a.name)) config = current->config;
-  try {
-    if (a.universe_opt->count()) {
-      if (a.universe == "all") config.universe.clear();
-      else config.universe = storage::read_universe_file(a.universe);
+  for (const storage::ModelField& field : storage::model_fields()) {
+    const auto given = a.options.find(field.member);
+    if (given == a.options.end() || given->second.option->count() == 0) continue;
+    std::optional<std::string> why;
+    try {
+      why = field.set(config, option_json(field, given->second));
+    } catch (const storage::InputError& e) {  // the universe file
+      std::fprintf(stderr, "factorwatch model set: %s\n", e.what());
+      return kExitBadInput;
     }
-  } catch (const storage::InputError& e) {
-    std::fprintf(stderr, "factorwatch model set: %s\n", e.what());
-    return kExitBadInput;
+    if (why)  // CLI11 has checked the type and the choices; a guard
+      return report_failure("model set", engine::failure(engine::FailureKind::bad_input, field.member, "", *why),
+                            a.name);
   }
-  if (a.window_opt->count()) config.window = a.window;
-  if (a.step_opt->count()) config.step = a.step;
-  if (a.method_opt->count()) config.method = *engine::parse_method(a.method);
-  if (a.factors_opt->count()) config.factors = a.factors;
-  if (a.basis_opt->count()) config.basis = *engine::parse_basis(a.basis);
-  if (a.half_life_opt->count()) {
-    config.weighting = engine::Weighting::ewma;
-    config.half_life = a.half_life;
-  }
-  if (a.equal_weights) {
-    config.weighting = engine::Weighting::equal;
-    config.half_life = 0;
-  }
-  if (a.min_coverage_opt->count()) config.min_coverage = a.min_coverage;
-  if (a.tolerance_opt->count()) config.tolerance = a.tolerance;
-  if (a.first_as_of_opt->count()) config.first_as_of = a.first_as_of == "none" ? "" : a.first_as_of;
-  if (a.rotation_opt->count()) config.rotation = *engine::parse_rotation(a.rotation);
-  if (a.kaiser_opt->count()) config.kaiser_normalize = a.kaiser_normalize == "yes";
-  if (a.align_to_opt->count()) config.align_to = *storage::parse_align_to(a.align_to);
-  if (a.pinned_window_opt->count()) config.pinned_window = a.pinned_window == "first" ? "" : a.pinned_window;
-  if (a.smoothing_opt->count()) config.smoothing_half_life = a.smoothing_half_life;
-  if (a.min_shared_opt->count()) config.min_shared_assets = a.min_shared_assets;
-  if (a.alert_below_opt->count()) config.alert_below = a.alert_below;
-  if (a.alert_below_pinned_opt->count()) config.alert_below_pinned = a.alert_below_pinned;
+  if (a.equal_weights) storage::find_model_field("half_life")->set(config, nullptr);
 
   if (const auto f = config.FirstFailure()) {
     std::fprintf(stderr, "factorwatch model set: %s\nNothing was changed.\n", cli_text(*f).c_str());
@@ -150,8 +144,8 @@ int run_model_list(storage::Database& db) {
               "windows", "latest as-of");
   for (const auto& m : models) {
     const storage::WindowCounts counts = storage::count_windows(db, m.id);
-    std::printf("%-20s %7d %-14s %7d %6d %5d %8zu  %s\n", m.name.c_str(), m.version, engine::to_string(m.config.method),
-                m.config.factors, m.config.window, m.config.step, counts.windows,
+    std::printf("%-20s %7d %-14s %7d %6d %5d %8zu  %s\n", m.name.c_str(), m.version, engine::to_string(m.config.fit.method),
+                m.config.fit.factors, m.config.window, m.config.step, counts.windows,
                 counts.windows == 0 ? "-" : counts.latest_as_of.c_str());
   }
   return kExitOk;
@@ -164,66 +158,25 @@ CLI::App* add_model_command(CLI::App& app, ModelArguments& a) {
   model->require_subcommand(1);
   a.set = model->add_subcommand("set", "Define a model, or change it (a change starts a new version)");
   a.set->add_option("NAME", a.name, "Model name: letters, digits, '.', '_', '-'")->required();
-  a.universe_opt = a.set->add_option("--universe", a.universe,
-                                     "File listing the assets to fit, one per line; 'all' for every stored asset (default)")
-                       ->type_name("FILE|all");
-  a.window_opt = a.set->add_option("--window", a.window, "Dates per window (default 504)")->type_name("DATES");
-  a.step_opt = a.set->add_option("--step", a.step, "Fit a window every this many dates (default 1)")->type_name("DATES");
-  a.method_opt = a.set->add_option("--method", a.method, "pca, principal-axis or ml (default ml)")
-                     ->check(CLI::IsMember({"pca", "principal-axis", "ml"}));
-  a.factors_opt = a.set->add_option("--factors", a.factors, "Number of factors (default 5)")->type_name("K");
-  a.basis_opt = a.set->add_option("--basis", a.basis, "covariance or correlation (default covariance)")
-                    ->check(CLI::IsMember({"covariance", "correlation"}));
-  a.half_life_opt = a.set->add_option("--half-life", a.half_life, "Exponential weights with this half-life")
-                        ->type_name("DATES");
-  auto* equal = a.set->add_flag("--equal-weights", a.equal_weights, "Equal weights (the default)");
-  equal->excludes(a.half_life_opt);
-  a.min_coverage_opt = a.set->add_option("--min-coverage", a.min_coverage,
-                                         "Share of a window's dates an asset needs (default 0.8)")
-                           ->type_name("SHARE");
-  a.first_as_of_opt = a.set->add_option("--first-as-of", a.first_as_of,
-                                        "Fit no window ending before this date ('none': no limit)")
-                          ->type_name("DATE");
-  const storage::ModelConfig defaults;  // the help states the defaults the storage applies
-  a.tolerance_opt = a.set->add_option("--tolerance", a.tolerance,
-                                      "Where ml and principal-axis fits stop: ml, the largest scaled gradient of the "
-                                      "log-likelihood; principal-axis, the largest change of a communality (default " +
-                                          number_text(defaults.tolerance) + ")")
-                        ->type_name("X");
-  a.rotation_opt = a.set->add_option("--rotation", a.rotation,
-                                     std::string("Rotation of every window's loadings: none, varimax or promax (default ") +
-                                         engine::to_string(defaults.rotation) + ")")
-                       ->check(CLI::IsMember({"none", "varimax", "promax"}));
-  a.kaiser_opt = a.set->add_option("--kaiser-normalize", a.kaiser_normalize,
-                                   std::string("Scale each asset's row to unit length while rotating (default ") +
-                                       (defaults.kaiser_normalize ? "yes" : "no") + ")")
-                     ->check(CLI::IsMember({"yes", "no"}));
-  a.align_to_opt = a.set->add_option("--align-to", a.align_to,
-                                     std::string("Align each window's factors onto the previous window, the pinned "
-                                                 "window or a smoothed reference of past windows (default ") +
-                                         storage::to_string(defaults.align_to) + ")")
-                       ->check(CLI::IsMember({"previous", "pinned", "smoothed"}));
-  a.pinned_window_opt = a.set->add_option("--pinned-window", a.pinned_window,
-                                          "As-of date of the window drift is also measured against (and aligned onto "
-                                          "with --align-to pinned); 'first': the model's first window (default)")
-                            ->type_name("DATE|first");
-  a.smoothing_opt = a.set->add_option("--smoothing-half-life", a.smoothing_half_life,
-                                      "Half-life of the smoothed reference, in windows (default " +
-                                          number_text(defaults.smoothing_half_life) + ")")
-                        ->type_name("N");
-  a.min_shared_opt = a.set->add_option("--min-shared-assets", a.min_shared_assets,
-                                       "Fewer assets shared with the reference and a window is left as fitted "
-                                       "(default " + std::to_string(defaults.min_shared_assets) + ")")
-                         ->type_name("N");
-  a.alert_below_opt = a.set->add_option("--alert-below", a.alert_below,
-                                        "Alert when a factor's congruence with the previous window is below this "
-                                        "(default " + number_text(defaults.alert_below) + "; 0: no alerts)")
-                          ->type_name("X");
-  a.alert_below_pinned_opt = a.set->add_option("--alert-below-pinned", a.alert_below_pinned,
-                                               "Alert when a factor's congruence with the pinned window falls below "
-                                               "this (default " + number_text(defaults.alert_below_pinned) +
-                                                   "; 0: no alerts)")
-                                 ->type_name("X");
+  // One option per member of the field table, typed by its kind so that CLI11 converts
+  // and checks the value; the flag is the member with dashes.
+  for (const storage::ModelField& field : storage::model_fields()) {
+    if (field.kind == storage::FieldKind::follows) continue;
+    std::string flag = std::string("--") + field.member;
+    std::replace(flag.begin(), flag.end(), '_', '-');
+    ModelOptionValue& value = a.options[field.member];
+    const std::string help = storage::help_text(field);
+    switch (field.kind) {
+      case storage::FieldKind::whole_number: value.option = a.set->add_option(flag, value.whole, help); break;
+      case storage::FieldKind::number:
+      case storage::FieldKind::half_life: value.option = a.set->add_option(flag, value.number, help); break;
+      default: value.option = a.set->add_option(flag, value.text, help); break;
+    }
+    if (!field.choices.empty()) value.option->check(CLI::IsMember(field.choices));
+    else value.option->type_name(field.value_name);
+    if (field.kind == storage::FieldKind::half_life)
+      a.set->add_flag("--equal-weights", a.equal_weights, "Equal weights (the default)")->excludes(value.option);
+  }
   a.show = model->add_subcommand("show", "Show a model's configuration and stored windows");
   a.show->add_option("NAME", a.name, "Model name")->required();
   a.show->add_option("--format", a.format, "table or json")->check(CLI::IsMember({"table", "json"}))->capture_default_str();

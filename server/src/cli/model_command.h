@@ -5,41 +5,29 @@
 #pragma once
 
 #include <CLI/CLI.hpp>
+#include <map>
 #include <string>
 
 #include "cli_common.h"
 
 namespace factorwatch::server {
 
+// The value of one `model set` option, bound by CLI11 in the type the member's kind takes
+// (storage/model_fields.h): a whole number, a number or a word.
+struct ModelOptionValue {
+  int whole = 0;
+  double number = 0;
+  std::string text;
+  CLI::Option* option = nullptr;  // given when option->count() > 0
+};
+
 struct ModelArguments {
   std::string name;
-  std::string universe;  // list file, or "all"
-  int window = 0;
-  int step = 0;
-  std::string method;
-  int factors = 0;
-  std::string basis;
-  double half_life = 0;
-  bool equal_weights = false;
-  double min_coverage = 0;
-  std::string first_as_of;
-  std::string rotation;          // none | varimax | promax
-  std::string kaiser_normalize;  // yes | no
-  std::string align_to;          // previous | pinned | smoothed
-  std::string pinned_window;     // date, or "first"
-  double smoothing_half_life = 0;
-  int min_shared_assets = 0;
-  double alert_below = 0;
-  double alert_below_pinned = 0;
-  double tolerance = 0;
+  // One entry per member of the field table that the command line sets, by member name
+  // (a map: CLI11 keeps the addresses of the values).
+  std::map<std::string, ModelOptionValue> options;
+  bool equal_weights = false;  // --equal-weights: the half-life's default, said as a flag
   std::string format = "table";
-  // Which options were given (CLI11 fills these after parsing).
-  CLI::Option *universe_opt = nullptr, *window_opt = nullptr, *step_opt = nullptr, *method_opt = nullptr,
-              *factors_opt = nullptr, *basis_opt = nullptr, *half_life_opt = nullptr, *min_coverage_opt = nullptr,
-              *first_as_of_opt = nullptr, *rotation_opt = nullptr, *kaiser_opt = nullptr, *align_to_opt = nullptr,
-              *pinned_window_opt = nullptr, *smoothing_opt = nullptr, *min_shared_opt = nullptr,
-              *alert_below_opt = nullptr, *alert_below_pinned_opt = nullptr,
-              *tolerance_opt = nullptr;
   CLI::App *set = nullptr, *show = nullptr, *list = nullptr;
 };
 

@@ -64,7 +64,7 @@ nlohmann::ordered_json drift_json(const pipeline::DriftSeries& s) {
   j["caution"] = engine::kCaution;
   j["model"] = s.model.name;
   j["version"] = s.model.version;
-  j["factors"] = s.model.config.factors;
+  j["factors"] = s.model.config.fit.factors;
   j["thresholds"] = thresholds_json(s.model.config);
   nlohmann::ordered_json rows = nlohmann::ordered_json::array();
   for (const storage::DriftRecord& r : s.rows) {

@@ -66,7 +66,7 @@ nlohmann::ordered_json exposures_json(const pipeline::SelectedWindow& s) {
   if (!s.note.empty()) j["note"] = s.note;
   j["explained_share"] = std::vector<double>(f.explained_share.data(), f.explained_share.data() + f.explained_share.size());
   // The basis the loadings are served in: the model's rotation, then the alignment.
-  j["rotation"] = engine::to_string(s.model.config.rotation);
+  j["rotation"] = engine::to_string(s.model.config.rotation.method);
   if (const auto& a = s.window.alignment) {
     nlohmann::ordered_json alignment;
     alignment["status"] = a->status;

@@ -12,7 +12,7 @@ namespace factorwatch::server {
 namespace {
 
 Eigen::Index history_columns(const pipeline::AssetHistory& h) {
-  Eigen::Index k = h.model.config.factors;
+  Eigen::Index k = h.model.config.fit.factors;
   for (const auto& p : h.points) k = std::max(k, p.exposures.size());
   return k;
 }
@@ -46,7 +46,7 @@ nlohmann::ordered_json history_json(const pipeline::AssetHistory& h) {
   j["model"] = h.model.name;
   j["version"] = h.model.version;
   j["asset"] = h.asset;
-  j["factors"] = h.model.config.factors;
+  j["factors"] = h.model.config.fit.factors;
   nlohmann::ordered_json windows = nlohmann::ordered_json::array();
   for (const pipeline::ExposurePoint& p : h.points) {
     nlohmann::ordered_json w;

@@ -89,8 +89,8 @@ nlohmann::ordered_json models_json(storage::Database& db) {
     const storage::ModelConfig& c = line.model.config;
     rows.push_back({{"model", line.model.name},
                     {"version", line.model.version},
-                    {"method", engine::to_string(c.method)},
-                    {"factors", c.factors},
+                    {"method", engine::to_string(c.fit.method)},
+                    {"factors", c.fit.factors},
                     {"window", c.window},
                     {"step", c.step},
                     {"windows", line.windows},
@@ -104,8 +104,8 @@ std::string models_csv(storage::Database& db) {
   std::string out = "model,version,method,factors,window,step,windows,latest_as_of\n";
   for (const ModelLine& line : model_lines(db)) {
     const storage::ModelConfig& c = line.model.config;
-    out += csv_field(line.model.name) + "," + std::to_string(line.model.version) + "," + engine::to_string(c.method) +
-           "," + std::to_string(c.factors) + "," + std::to_string(c.window) + "," + std::to_string(c.step) + "," +
+    out += csv_field(line.model.name) + "," + std::to_string(line.model.version) + "," + engine::to_string(c.fit.method) +
+           "," + std::to_string(c.fit.factors) + "," + std::to_string(c.window) + "," + std::to_string(c.step) + "," +
            std::to_string(line.windows) + "," + line.latest_as_of + "\n";
   }
   return out;

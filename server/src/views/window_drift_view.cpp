@@ -18,7 +18,7 @@ std::string window_drift_title(const pipeline::WindowDrift& d) {
 std::string window_drift_csv(const pipeline::WindowDrift& d) {
   const storage::DriftRecord& r = d.record;
   const engine::DriftComparison& c = d.comparison;
-  const Eigen::Index k = std::max<Eigen::Index>(d.model.config.factors, c.exposure_change.cols());
+  const Eigen::Index k = std::max<Eigen::Index>(d.model.config.fit.factors, c.exposure_change.cols());
   std::string out = csv_caution_line();
   out += "# model " + d.model.name + " version " + std::to_string(d.model.version) + ", " + window_drift_title(d) + "\n";
   if (r.congruence.size() == 0) {
@@ -72,7 +72,7 @@ nlohmann::ordered_json window_drift_json(const pipeline::WindowDrift& d) {
   if (!c.message.empty()) j["message"] = c.message;
   if (!d.note.empty()) j["note"] = d.note;
   j["shared_assets"] = r.shared;
-  j["factors"] = d.model.config.factors;
+  j["factors"] = d.model.config.fit.factors;
   const double threshold = pipeline::alert_threshold(d.model.config, r.against);
   j["threshold"] = threshold > 0 ? nlohmann::ordered_json(threshold) : nlohmann::ordered_json();
   j["congruence"] = numbers_json(r.congruence);

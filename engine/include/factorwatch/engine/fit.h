@@ -33,7 +33,7 @@ struct WarmStart {
 
 struct FitOptions {
   Method method = Method::max_likelihood;
-  int factors = 3;                  // k, number of latent factors, >= 1
+  int factors = 5;                  // k, number of latent factors, >= 1 (the one default: models too)
   Basis basis = Basis::covariance;  // matrix the factors are extracted from
   Weighting weighting = Weighting::equal;
   double half_life = 0;             // in periods (dates); required > 0 for ewma

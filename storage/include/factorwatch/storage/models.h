@@ -18,25 +18,27 @@ enum class AlignTo { previous, pinned, smoothed };
 const char* to_string(AlignTo a);  // "previous", "pinned", "smoothed"
 std::optional<AlignTo> parse_align_to(const std::string& s);
 
+// Tighter than R's default 1e-5: the rotation of a window should not depend on where the
+// criterion's slow tail happened to stop (the alignment would see that as drift).
+inline constexpr double kRotationTolerance = 1e-10;
+// The rotation options a model starts from: no rotation, Kaiser normalisation when one is
+// chosen, kRotationTolerance.
+engine::RotationOptions model_rotation();
+
 struct ModelConfig {
   std::vector<std::string> universe;  // assets to fit; empty = every stored asset
   int window = 504;                   // dates (observations) per window
   int step = 1;                       // fit a window every `step` dates
-  engine::Method method = engine::Method::max_likelihood;
-  int factors = 5;
-  engine::Basis basis = engine::Basis::covariance;
-  engine::Weighting weighting = engine::Weighting::equal;
-  double half_life = 0;               // dates; only with EWMA weighting
-  double min_coverage = 0.8;          // share of a window's dates an asset needs
+  // The fit of every window: method, factors, basis, weighting (with its half-life in
+  // dates), minimum coverage and tolerance are the model's; the rest of the engine's
+  // options keep their defaults (the field table, model_fields.h, lists what a model sets).
+  // The defaults are the engine's: one default for k.
+  engine::FitOptions fit;
   std::string first_as_of;            // earliest as-of date to fit; "" = as early as the data allow
-  // Where the iterative fits stop (engine::FitOptions::tolerance): ML, the largest scaled
-  // gradient of the log-likelihood; principal axis, the largest change of a communality.
-  double tolerance = engine::FitOptions{}.tolerance;
 
-  // Rotation of every window's loadings (none, varimax, promax), with or without Kaiser
-  // normalisation of the rows.
-  engine::RotationMethod rotation = engine::RotationMethod::none;
-  bool kaiser_normalize = true;
+  // Rotation of every window's loadings (method none, varimax or promax, with or without
+  // Kaiser normalisation of the rows); its stopping rule is fixed (kRotationTolerance).
+  engine::RotationOptions rotation = model_rotation();
   // What each window is aligned onto (orthogonal Procrustes on the shared assets): the
   // previous window (chained), one pinned window, or an exponentially weighted average of
   // the past aligned windows with this half-life in windows.
@@ -62,16 +64,17 @@ struct ModelConfig {
   // ("min_coverage"; "universe" for the asset list); nullopt when usable. Each surface
   // spells the field its own way.
   std::optional<engine::Failure> FirstFailure() const;
-  // The engine options of every window of this configuration (no warm start).
+  // The engine options of every window of this configuration (no warm start): `fit`, with
+  // the half-life only under exponential weighting.
   engine::FitOptions fit_options() const;
   nlohmann::ordered_json to_json() const;
   // Throws std::runtime_error on a configuration that is not one of ours.
   static ModelConfig from_json(const nlohmann::json& j);
   // The minimum that applies: min_shared_assets, or the number of factors if larger (a
   // rotation is not determined by fewer rows than factors).
-  int effective_min_shared_assets() const { return min_shared_assets > factors ? min_shared_assets : factors; }
-  // The rotation options of every window of this configuration.
-  engine::RotationOptions rotation_options() const;
+  int effective_min_shared_assets() const {
+    return min_shared_assets > fit.factors ? min_shared_assets : fit.factors;
+  }
   // Fingerprint of the canonical JSON. Members added after schema 4 (rotation, tolerance and on)
   // enter it only when they differ from their defaults, so a model defined before they
   // existed keeps its hash, its version and its windows.
