@@ -87,6 +87,7 @@ const std::vector<BrokenConfig>& broken_configs() {
       {"alert_below", [](ModelConfig& c) { c.alert_below = 1.5; }},
       {"alert_below_pinned", [](ModelConfig& c) { c.alert_below_pinned = -0.1; }},
       {"universe", [](ModelConfig& c) { c.universe = {"ZQ-1", "ZQ-1"}; }},
+      {"max_iterations", [](ModelConfig& c) { c.fit.max_iterations = 0; }},
   };
   return cases;
 }

@@ -255,6 +255,16 @@ std::vector<ModelField> build_fields() {
                {}, "", true, [](const ModelConfig& c) { return ordered_json(c.alert_below_pinned); },
                [](ModelConfig& c, const json& v) { return real(v, c.alert_below_pinned); },
                [](const ModelConfig& c) { return share_of_one("alert_below_pinned", c.alert_below_pinned); }});
+  f.push_back({"max_iterations", FieldKind::whole_number, "N",
+               "Iteration limit of ml and principal-axis fits; a window that reaches it is kept and marked "
+               "(default {default})",
+               {}, "", true, [](const ModelConfig& c) { return ordered_json(c.fit.max_iterations); },
+               [](ModelConfig& c, const json& v) { return whole(v, c.fit.max_iterations); },
+               [](const ModelConfig& c) -> Check {
+                 if (c.fit.max_iterations < 1)
+                   return bad_number("max_iterations", integer_text(c.fit.max_iterations), "must be at least 1");
+                 return std::nullopt;
+               }});
   return f;
 }
 
