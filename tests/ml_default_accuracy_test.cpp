@@ -21,6 +21,7 @@
 #include "factorwatch/engine/fit.h"
 #include "factorwatch/storage/covariance_csv.h"
 #include "reference_table.h"
+#include "simulated_model.h"
 
 namespace {
 
@@ -180,6 +181,23 @@ TEST(StoppingRule, IterationLimitIsNotConvergence) {
   ASSERT_TRUE(std::isfinite(f.largest_scaled_gradient));
   EXPECT_GT(f.largest_scaled_gradient, o.tolerance);
   EXPECT_LE(f.iterations, 3);
+}
+
+// The limit counts every step on the wide path too, where the fixed point in psi runs
+// first: a limit of 3 used to allow 5 (two profile steps, then a whole SQUAREM cycle of
+// three EM passes). Planted data, 260 assets (above the polishing width of 200).
+TEST(StoppingRule, TheIterationLimitHoldsOnTheWidePath) {
+  const auto planted = factorwatch::testing::simulate_planted_model(150, 260, 3, 20261205u);
+  for (int limit : {2, 3, 4, 5, 7, 12}) {
+    FitOptions o = defaults(3, true);
+    o.max_iterations = limit;
+    const FactorFit f = fit(planted.panel, o);
+    EXPECT_LE(f.iterations, limit) << f.message;
+    EXPECT_EQ(f.iterations, f.em_passes + f.newton_steps + f.profile_steps);
+    if (f.iterations < limit) {
+      EXPECT_EQ(f.termination, Termination::converged) << "limit " << limit;
+    }
+  }
 }
 
 // The reported criterion belongs to the returned estimate: re-measured there (a warm start

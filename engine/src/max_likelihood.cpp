@@ -182,7 +182,8 @@ Estimate ml_estimate(const SecondMoments& S, Eigen::MatrixXd L, Eigen::VectorXd 
         continue;  // the next EM evaluation measures the criterion at the polished point
       }
     }
-    if (!options.accelerate || passes + 2 > options.max_iterations) {
+    // A SQUAREM cycle takes up to two more passes; the limit counts every step taken.
+    if (!options.accelerate || passes + newton_steps + profile_steps + 2 > options.max_iterations) {
       theta = std::move(next);
       continue;
     }
