@@ -27,6 +27,15 @@ RiskFigure figure(double variance, int periods_per_year) {
   return f;
 }
 
+// The first holding whose asset was held before in the list; nullptr when each is once.
+const Holding* first_repeated(const Holdings& holdings) {
+  std::unordered_set<std::string_view> seen;
+  seen.reserve(holdings.size());
+  for (const Holding& h : holdings)
+    if (!seen.insert(h.asset).second) return &h;
+  return nullptr;
+}
+
 [[noreturn]] void repeated(const std::string& asset, const char* what) {
   throw std::invalid_argument(std::string(what) + ": asset '" + asset + "' appears more than once");
 }
@@ -34,10 +43,7 @@ RiskFigure figure(double variance, int periods_per_year) {
 // Each asset once (active_weights and apply_trade only add weights up; portfolio_risk
 // rejects a non-finite result).
 void check_unique(const Holdings& holdings, const char* what) {
-  std::unordered_set<std::string_view> seen;
-  seen.reserve(holdings.size());
-  for (const Holding& h : holdings)
-    if (!seen.insert(h.asset).second) repeated(h.asset, what);
+  if (const Holding* h = first_repeated(holdings)) repeated(h->asset, what);
 }
 
 }  // namespace
@@ -185,14 +191,11 @@ PortfolioRisk portfolio_risk(const RiskModel& model, const Holdings& holdings) {
 }
 
 std::optional<Failure> weights_failure(const Holdings& holdings, const std::string& field) {
-  std::unordered_set<std::string_view> seen;
-  seen.reserve(holdings.size());
-  for (const Holding& h : holdings) {
-    if (!seen.insert(h.asset).second)
-      return failure(FailureKind::rejected, field, "", "asset '" + h.asset + "' appears more than once");
+  if (const Holding* h = first_repeated(holdings))
+    return failure(FailureKind::rejected, field, "", "asset '" + h->asset + "' appears more than once");
+  for (const Holding& h : holdings)
     if (!std::isfinite(h.weight))
       return failure(FailureKind::rejected, field, "", "the weight of asset '" + h.asset + "' is not finite");
-  }
   return std::nullopt;
 }
 

@@ -37,12 +37,6 @@ QueryFailure select_window(storage::Database& db, const WindowQuery& q, Selected
   } catch (const std::runtime_error& e) {  // replaced by a refit between the two reads
     return engine::failure(engine::FailureKind::not_stored, "window", q.as_of, e.what());
   }
-  // A failed fit's numbers are no model to score returns with.
-  const engine::FactorFit& fit = out.window.fit;
-  if (!fit.IsSolutionUsable())
-    return engine::failure(engine::FailureKind::not_usable, "window", q.as_of,
-                   "the window as of " + out.window.as_of + " has no usable fit (" + engine::to_string(fit.termination) +
-                       "); ask for an earlier window");
   return std::nullopt;
 }
 

@@ -8,10 +8,14 @@
 namespace factorwatch::pipeline {
 namespace {
 
-RiskOutcome failed(engine::FailureKind kind, std::string field, std::string rule) {
+RiskOutcome refused(engine::Failure failure) {
   RiskOutcome out;
-  out.failure = engine::failure(kind, std::move(field), "", std::move(rule));
+  out.failure = std::move(failure);
   return out;
+}
+
+RiskOutcome failed(engine::FailureKind kind, std::string field, std::string rule) {
+  return refused(engine::failure(kind, std::move(field), "", std::move(rule)));
 }
 
 void add_note(std::string& notes, const std::string& note) {
@@ -92,20 +96,14 @@ std::shared_ptr<const WindowRiskModel> load_window_risk_model(storage::Database&
   w->stale = s.window.stale;
   w->basis = factor_basis_text(s);
   w->frequency = window_frequency(s);
-  w->usable = s.window.fit.IsSolutionUsable();
-  w->termination = engine::to_string(s.window.fit.termination);
-  // A failed fit may hold non-finite numbers, which the risk model refuses: it stays empty.
-  if (w->usable) w->risk = engine::RiskModel(s.window.fit, w->frequency.periods_per_year);
+  // The pick refused a failed fit, and read_picked_window one stored in between.
+  w->risk = engine::RiskModel(s.window.fit, w->frequency.periods_per_year);
   return w;
 }
 
 RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const WindowPick& pick,
                         std::shared_ptr<const WindowRiskModel> window_model) {
-  if (pick.failure) {
-    RiskOutcome out;
-    out.failure = pick.failure;
-    return out;
-  }
+  if (pick.failure) return refused(*pick.failure);
   if (!q.portfolio_as_of.empty() && !storage::is_calendar_date(q.portfolio_as_of))
     return failed(engine::FailureKind::bad_input, "holdings_as_of",
                   "'" + q.portfolio_as_of + "' is not a date (yyyy-mm-dd)");
@@ -115,10 +113,6 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
   RiskReport& report = out.report;
   report.window = window_model ? std::move(window_model) : load_window_risk_model(db, pick);
   const WindowRiskModel& w = *report.window;
-  if (!w.usable)
-    return failed(engine::FailureKind::not_usable, "as_of",
-                  "the window as of " + w.as_of + " has no usable fit (" + w.termination +
-                      "); ask for an earlier window, or refit");
   if (!q.window.as_of.empty() && w.as_of != q.window.as_of)
     add_note(report.note, "no window ends on " + q.window.as_of + "; using the latest before it, as of " + w.as_of);
 
@@ -164,11 +158,6 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
   const std::string field = q.holdings ? "weights" : "portfolio";
   const std::string name = q.holdings ? "" : q.portfolio;
   const std::string benchmark_field = q.benchmark_holdings ? "benchmark_weights" : "benchmark";
-  auto refused = [](engine::Failure f) {
-    RiskOutcome refusal;
-    refusal.failure = std::move(f);
-    return refusal;
-  };
   if (auto f = measure(db, w, "portfolio", name, portfolio_as_of, holdings, field, report)) return refused(*f);
   if (benchmark) {
     if (auto f = measure(db, w, "benchmark", benchmark_name, benchmark_as_of, *benchmark, benchmark_field, report))

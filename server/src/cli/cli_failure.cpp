@@ -17,6 +17,13 @@ int exit_code(engine::FailureKind kind) {
   return kExitFailed;
 }
 
+std::string cli_flag(const std::string& field) {
+  std::string flag = "--" + field;
+  for (char& c : flag)
+    if (c == '_') c = '-';
+  return flag;
+}
+
 std::string cli_text(const engine::Failure& f) {
   if (f.field.empty() || f.field == "model") return f.rule;
   if (f.field == "universe") return engine::describe(f, "universe");
@@ -26,10 +33,7 @@ std::string cli_text(const engine::Failure& f) {
     named.value.clear();
     return engine::describe(named, "asset '" + f.value + "'");
   }
-  std::string flag = f.field;
-  for (char& c : flag)
-    if (c == '_') c = '-';
-  return engine::describe(f, "option '--" + flag + "'");
+  return engine::describe(f, "option '" + cli_flag(f.field) + "'");
 }
 
 std::string cli_hint(const engine::Failure& f, const std::string& model) {

@@ -13,6 +13,10 @@ namespace factorwatch::server {
 // comparison stored yet, a failed fit).
 int exit_code(engine::FailureKind kind);
 
+// The command line's option for a field: "--" and the field with dashes ("min_coverage"
+// -> "--min-coverage"); `model set` registers its options by this rule.
+std::string cli_flag(const std::string& field);
+
 // The failure in the command line's words: an option by its flag ("option '--min-coverage'
 // = 0: must be in (0, 1]"), an argument by its value ("asset 'ZQ-1': unknown asset ..."),
 // a stored portfolio as the PORTFOLIO argument, the model and the universe list by their

@@ -162,8 +162,7 @@ CLI::App* add_model_command(CLI::App& app, ModelArguments& a) {
   // and checks the value; the flag is the member with dashes.
   for (const storage::ModelField& field : storage::model_fields()) {
     if (field.kind == storage::FieldKind::follows) continue;
-    std::string flag = std::string("--") + field.member;
-    std::replace(flag.begin(), flag.end(), '_', '-');
+    const std::string flag = cli_flag(field.member);
     ModelOptionValue& value = a.options[field.member];
     const std::string help = storage::help_text(field);
     switch (field.kind) {

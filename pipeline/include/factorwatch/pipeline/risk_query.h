@@ -27,8 +27,6 @@ struct WindowRiskModel {
   std::string as_of, first_date;
   bool stale = false;
   std::string basis;      // the served factors in words: "rotation none, aligned onto 2026-11-30 (previous)"
-  bool usable = true;     // the fit converged (or stopped at its iteration limit); else no risk from it
-  std::string termination;
   engine::Frequency frequency;
   engine::RiskModel risk;
 };
