@@ -24,6 +24,8 @@
 #include <string>
 #include <vector>
 
+#include "factorwatch/engine/date.h"
+
 namespace factorwatch::bench {
 
 using Index = Eigen::Index;
@@ -103,30 +105,14 @@ inline RowMatrix planted_rows(Index total_rows, Index assets, Index first, Index
   return out;
 }
 
-// Monday-to-Friday ISO dates from 2023-01-02 (a Monday).
-inline std::vector<std::string> business_dates(Index first, Index count) {
-  static const int month_days[12] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
-  std::vector<std::string> out;
-  int y = 2023, m = 1, d = 2, weekday = 0;  // 0 = Monday
+// Monday-to-Friday dates from 2023-01-02 (a Monday), skipping the first `first`.
+inline std::vector<engine::Date> business_dates(Index first, Index count) {
+  std::vector<engine::Date> out;
+  engine::Date d = *engine::Date::from_iso("2023-01-02");
   Index index = 0;
-  while (Index(out.size()) < count) {
-    if (weekday < 5) {
-      if (index >= first) {
-        char buf[40];  // room for any int, so the compiler can prove no truncation
-        std::snprintf(buf, sizeof buf, "%04d-%02d-%02d", y, m, d);
-        out.emplace_back(buf);
-      }
-      ++index;
-    }
-    weekday = (weekday + 1) % 7;
-    const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
-    if (++d > month_days[m - 1] + (m == 2 && leap ? 1 : 0)) {
-      d = 1;
-      if (++m > 12) {
-        m = 1;
-        ++y;
-      }
-    }
+  for (int weekday = 0; Index(out.size()) < count; weekday = (weekday + 1) % 7) {  // 0 = Monday
+    if (weekday < 5 && index++ >= first) out.push_back(d);
+    d = engine::Date::from_days(d.days() + 1);
   }
   return out;
 }

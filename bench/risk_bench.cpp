@@ -384,7 +384,7 @@ int main(int argc, char** argv) {
   panel.dates = fb::business_dates(0, a.dates);
   panel.assets = fb::asset_names(a.assets);
   panel.values = fb::planted_rows(a.dates, a.assets, 0, a.dates);
-  const std::string last_date = panel.dates.back();
+  const fe::Date last_date = panel.dates.back();
   fe::Holdings book = make_book(panel.assets, a.names, a.seed);
   const fe::Holdings index = make_index(panel.assets, a.seed);
   double fit_seconds = 0;
@@ -461,7 +461,7 @@ int main(int argc, char** argv) {
   const double first_us = micros(first_start, Clock::now());
   std::vector<double> cold_us, load_us;
   fs::Database& db = context.database();
-  const fp::WindowPick pick = fp::pick_window(db, fp::WindowQuery{kModel, "", {}});
+  const fp::WindowPick pick = fp::pick_window(db, fp::WindowQuery{kModel, std::nullopt, {}});
   for (int i = 0; i < a.cold; ++i) {
     fv::RiskModelCache empty(fv::kRiskModelWindows);
     const fv::ApiContext cold_context = make_context(&empty);
@@ -543,7 +543,7 @@ int main(int argc, char** argv) {
   // The body the daemon sends is the view's JSON as the CLI gets it (compact here).
   if (a.runs("get_json")) {
     fp::RiskRequest q;
-    q.window = fp::WindowQuery{kModel, "", {}};
+    q.window = fp::WindowQuery{kModel, std::nullopt, {}};
     q.portfolio = kBook;
     q.no_benchmark = true;
     const std::string expected = fv::risk_json(fp::answer_risk(db, q, pick, window).report, {true, 0}).dump();
@@ -554,7 +554,7 @@ int main(int argc, char** argv) {
   // ---- the GET path in parts ----
   const int s = a.split_queries, u = std::min(a.warmup, s);
   fp::RiskRequest q_plain, q_bench;
-  q_plain.window = q_bench.window = fp::WindowQuery{kModel, "", {}};
+  q_plain.window = q_bench.window = fp::WindowQuery{kModel, std::nullopt, {}};
   q_plain.portfolio = q_bench.portfolio = kBook;
   q_plain.no_benchmark = true;
   const fv::RiskViewOptions view{true, 0};
@@ -567,7 +567,7 @@ int main(int argc, char** argv) {
     std::function<void()> call;
   };
   const std::vector<Part> parts = {
-      {"pick_window", [&] { sink = sink + double(fp::pick_window(db, fp::WindowQuery{kModel, "", {}}).model.id); }},
+      {"pick_window", [&] { sink = sink + double(fp::pick_window(db, fp::WindowQuery{kModel, std::nullopt, {}}).model.id); }},
       {"risk_model_cache_find", [&] { sink = sink + double(risk_models.find(std::to_string(pick.model.id) + "|" + pick.stamp.key()) != nullptr); }},
       {"read_portfolio_book", [&] { sink = sink + double(fs::read_portfolio(db, kBook)->holdings.size()); }},
       {"read_portfolio_index", [&] { sink = sink + double(fs::read_portfolio(db, kIndex)->holdings.size()); }},

@@ -71,7 +71,8 @@ int main(int argc, char** argv) {
   for (int d = 0; d < decimals; ++d) scale *= 10;
   const factorwatch::bench::RowMatrix values = factorwatch::bench::planted_rows(first + dates, assets, first, dates);
   const std::vector<std::string> names = factorwatch::bench::asset_names(assets);
-  const std::vector<std::string> days = factorwatch::bench::business_dates(first, dates);
+  std::vector<std::string> days;
+  for (factorwatch::engine::Date d : factorwatch::bench::business_dates(first, dates)) days.push_back(d.iso());
 
   std::FILE* f = std::fopen(out_path.c_str(), "wb");
   if (!f) {

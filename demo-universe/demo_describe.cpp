@@ -42,8 +42,8 @@ std::string describe_planted(const DemoUniverse& u) {
   std::string s;
   s += "Fictional demo universe: invented numbers, not market data.\n";
   s += format("Seed %llu; %d business days %s .. %s (Monday to Friday, no holidays); %d assets %s .. %s.\n",
-              static_cast<unsigned long long>(o.seed), periods, u.dates.front().c_str(),
-              u.dates.back().c_str(), n, u.assets.front().c_str(), u.assets.back().c_str());
+              static_cast<unsigned long long>(o.seed), periods, u.dates.front().iso().c_str(),
+              u.dates.back().iso().c_str(), n, u.assets.front().c_str(), u.assets.back().c_str());
   s += "\nPlanted model (daily returns, return units: 0.01 = 1% a day):\n";
   s += format("  x_t = mu + L f_t + e_t,  f_t ~ N(0, I_%d),  e_t ~ N(0, Psi),  Sigma = L L' + Psi\n", k);
   s += format("  f1 market-like: every asset loads %.4g x beta, beta uniform in [0.6, 1.4)\n", o.market_vol);
@@ -59,11 +59,11 @@ std::string describe_planted(const DemoUniverse& u) {
               o.specific_vol_low, o.specific_vol_high, o.drift_low, o.drift_high);
   s += "\nStructural change:\n";
   s += format("  from date index %d (%s) on, f%d leaves cluster %d (%s)\n", u.change_index,
-              u.dates[u.change_index].c_str(), u.moving_factor, u.from_cluster,
+              u.dates[u.change_index].iso().c_str(), u.moving_factor, u.from_cluster,
               cluster_span(u, u.from_cluster).c_str());
   s += format("  and loads on cluster %d (%s) instead; all other loadings are unchanged.\n", u.to_cluster,
               cluster_span(u, u.to_cluster).c_str());
-  s += format("  Last date under the old loadings: %s.\n", u.dates[u.change_index - 1].c_str());
+  s += format("  Last date under the old loadings: %s.\n", u.dates[u.change_index - 1].iso().c_str());
 
   int late = 0, early = 0;
   long long listed_cells = 0, gaps = 0;

@@ -65,10 +65,11 @@ void write_long(const DemoUniverse& u, const std::filesystem::path& path) {
   CsvFile out(path);
   out.text("date,asset,return\n");
   for (Eigen::Index t = 0; t < u.values.rows(); ++t) {
+    const std::string date = u.dates[t].iso();
     for (Eigen::Index i = 0; i < u.values.cols(); ++i) {
       const double v = u.values(t, i);
       if (std::isnan(v)) continue;
-      out.text(u.dates[t]).ch(',').text(u.assets[i]).ch(',').number(v).ch('\n');
+      out.text(date).ch(',').text(u.assets[i]).ch(',').number(v).ch('\n');
     }
   }
   out.close();
@@ -80,7 +81,7 @@ void write_wide(const DemoUniverse& u, const std::filesystem::path& path) {
   for (const auto& a : u.assets) out.ch(',').text(a);
   out.ch('\n');
   for (Eigen::Index t = 0; t < u.values.rows(); ++t) {
-    out.text(u.dates[t]);
+    out.text(u.dates[t].iso());
     for (Eigen::Index i = 0; i < u.values.cols(); ++i) {
       out.ch(',');
       if (!std::isnan(u.values(t, i))) out.number(u.values(t, i));

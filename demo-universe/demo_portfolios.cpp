@@ -24,7 +24,7 @@ void scale_to(std::vector<std::pair<std::string, double>>& weights, std::size_t 
 
 DemoPortfolio demo_benchmark(const DemoUniverse& u) {
   RandomStream rng(u.options.seed, Stream::portfolios);
-  DemoPortfolio p{"demo-benchmark", u.dates.back(), "", {}};
+  DemoPortfolio p{"demo-benchmark", u.dates.back().iso(), "", {}};
   for (std::size_t i = 0; i < u.assets.size(); ++i) {
     const double size = std::exp(rng.normal());  // drawn for every asset, so the book's draws do not depend on listing
     if (listed_at_end(u, i)) p.weights.emplace_back(u.assets[i], size);
@@ -58,7 +58,7 @@ DemoPortfolio demo_book(const DemoUniverse& u) {
   std::sort(longs.begin(), longs.end());
   std::sort(shorts.begin(), shorts.end());
 
-  DemoPortfolio p{"demo-book", u.dates.back(), "demo-benchmark", {}};
+  DemoPortfolio p{"demo-book", u.dates.back().iso(), "demo-benchmark", {}};
   for (std::size_t i : longs) p.weights.emplace_back(u.assets[i], rng.uniform(0.5, 1.5));
   scale_to(p.weights, 0, p.weights.size(), 1.15);
   const std::size_t first_short = p.weights.size();

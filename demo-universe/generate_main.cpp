@@ -81,9 +81,9 @@ int main(int argc, char** argv) {
     const long long observed = (universe.values.array() == universe.values.array()).count();
     std::printf("wrote %s: %zu dates (%s .. %s), %zu assets, %lld observed values, change at %s; "
                 "generated in %.2f s, written in %.2f s\n",
-                out_dir.c_str(), universe.dates.size(), universe.dates.front().c_str(),
-                universe.dates.back().c_str(), universe.assets.size(), observed,
-                universe.dates[universe.change_index].c_str(), seconds(start, generated),
+                out_dir.c_str(), universe.dates.size(), universe.dates.front().iso().c_str(),
+                universe.dates.back().iso().c_str(), universe.assets.size(), observed,
+                universe.dates[universe.change_index].iso().c_str(), seconds(start, generated),
                 seconds(generated, written));
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch-demo-universe: %s\n", e.what());

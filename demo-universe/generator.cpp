@@ -47,9 +47,9 @@ bool DemoOptions::IsValid(std::string* error) const {
   if (moving_factor < 2 || moving_factor > factors) {
     return fail(error, "moving_factor", moving_factor, "must be in 2..factors (f1 is the market factor)");
   }
-  const auto start = parse_iso_date(start_date);
+  const auto start = engine::Date::from_iso(start_date);
   if (!start) return fail(error, "start_date", '"' + start_date + '"', "must be a real date as yyyy-mm-dd");
-  if (start->year < 1 || start->year > 9000) return fail(error, "start_date", start_date, "year must be in 1..9000");
+  if (start->key() / 10000 > 9000) return fail(error, "start_date", start_date, "year must be in 1..9000");
   const int periods = static_cast<int>(business_days(*start, years).size());
   if (change_day != -1 && (change_day < 1 || change_day >= periods)) {
     std::string rule = "must be -1 (60% through) or in 1.." + std::to_string(periods - 1);
@@ -88,7 +88,7 @@ DemoUniverse generate_demo_universe(const DemoOptions& options) {
   if (!options.IsValid(&error)) throw std::invalid_argument("DemoOptions: " + error);
 
   DemoUniverse u;
-  u.dates = business_days(*parse_iso_date(options.start_date), options.years);
+  u.dates = business_days(*engine::Date::from_iso(options.start_date), options.years);
   const int periods = static_cast<int>(u.dates.size());
   const int n = options.assets;
   const int k = options.factors;

@@ -14,6 +14,8 @@
 #include <string>
 #include <vector>
 
+#include "factorwatch/engine/date.h"
+
 namespace factorwatch::demo {
 
 using RowMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
@@ -55,7 +57,7 @@ struct DemoOptions {
 };
 
 struct DemoUniverse {
-  std::vector<std::string> dates;   // T ascending ISO dates, Monday to Friday
+  std::vector<engine::Date> dates;  // T ascending dates, Monday to Friday
   std::vector<std::string> assets;  // N ids "ZQ-0001", ...
   RowMatrix values;                 // T x N daily returns; quiet NaN = not listed or gap
 

@@ -9,7 +9,7 @@ packages=(
   curl python3 zlib1g-dev
   libeigen3-dev libspectra-dev
   libcpp-httplib-dev nlohmann-json3-dev libsqlitecpp-dev libsqlite3-dev
-  libgtest-dev libcli11-dev libfast-float-dev
+  libgtest-dev libcli11-dev libfast-float-dev libhowardhinnant-date-dev
   "$@"
 )
 

@@ -7,21 +7,22 @@
 #include "endpoint_helpers.h"
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/portfolios.h"
-#include "factorwatch/storage/timestamps.h"
+#include "factorwatch/engine/date.h"
 #include "fuzz_checks.h"
 
 using namespace factorwatch;
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   if (size == 0) return 0;
-  storage::PortfolioFileOptions options{"book", "", ""};
-  if (data[0] & 1) options.as_of = "2024-06-28";
+  storage::PortfolioFileOptions options{"book", std::nullopt, ""};
+  if (data[0] & 1) options.as_of = engine::Date::from_iso("2024-06-28");
   if (data[0] & 2) options.benchmark = "index";
   const std::string text(fuzz::as_text(data + 1, size - 1));
   try {
     const storage::Portfolio p = storage::parse_portfolio_text(text, "request body", options);
     fuzz::require(!p.holdings.empty(), "a portfolio without holdings");
-    fuzz::require(storage::is_calendar_date(p.as_of), "the as-of date is not a date");
+    // The as-of date is a Date, so a real day; it is the option's when given.
+    fuzz::require(!options.as_of || p.as_of == *options.as_of, "the option's as-of date was not kept");
     fuzz::require(p.benchmark.empty() || storage::is_portfolio_name(p.benchmark), "a benchmark that is not a name");
     fuzz::require(p.benchmark != p.name, "a portfolio is its own benchmark");
     fuzz::require(p.content_sha256.size() == 64, "no content hash");

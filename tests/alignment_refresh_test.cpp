@@ -126,8 +126,8 @@ TEST(AlignmentRefresh, EveryWindowIsAlignedOntoThePreviousAndRiskIsUnchanged) {
   // Drift: against the previous window from the second window on, against the pinned
   // (first) window likewise; served windows are aligned so consecutive congruence is high.
   const auto model = storage::find_model(db, "m");
-  const auto previous = storage::read_drift(db, model->id, "", "", "previous");
-  const auto pinned = storage::read_drift(db, model->id, "", "", "pinned");
+  const auto previous = storage::read_drift(db, model->id, std::nullopt, std::nullopt, "previous");
+  const auto pinned = storage::read_drift(db, model->id, std::nullopt, std::nullopt, "pinned");
   ASSERT_EQ(previous.size(), windows.size() - 1);
   ASSERT_EQ(pinned.size(), windows.size() - 1);
   for (std::size_t i = 0; i < previous.size(); ++i) {
@@ -142,7 +142,7 @@ TEST(AlignmentRefresh, EveryWindowIsAlignedOntoThePreviousAndRiskIsUnchanged) {
     EXPECT_EQ(previous[i].movers[0].size(), storage::kMoversKept);
   }
   // No change is planted: no alert at the default threshold 0.95.
-  EXPECT_TRUE(storage::read_alerts(db, model->id, "", "").empty());
+  EXPECT_TRUE(storage::read_alerts(db, model->id, std::nullopt, std::nullopt).empty());
   EXPECT_EQ(summary.alerts, 0u);
 }
 
@@ -162,8 +162,8 @@ void expect_same_served(storage::Database& a, storage::Database& b, double toler
   }
   const auto ma = storage::find_model(a, "m");
   const auto mb = storage::find_model(b, "m");
-  const auto da = storage::read_drift(a, ma->id, "", "");
-  const auto db = storage::read_drift(b, mb->id, "", "");
+  const auto da = storage::read_drift(a, ma->id, std::nullopt, std::nullopt);
+  const auto db = storage::read_drift(b, mb->id, std::nullopt, std::nullopt);
   ASSERT_EQ(da.size(), db.size());
   for (std::size_t i = 0; i < da.size(); ++i) {
     EXPECT_EQ(da[i].as_of, db[i].as_of);
@@ -250,7 +250,7 @@ TEST(AlignmentRefresh, TooFewSharedAssetsLeavesAWindowAsFittedWithAStatus) {
     EXPECT_TRUE(windows[i].served.fit.loadings == windows[i].fitted.fit.loadings);
   }
   const auto model = storage::find_model(db, "m");
-  for (const auto& d : storage::read_drift(db, model->id, "", "")) {
+  for (const auto& d : storage::read_drift(db, model->id, std::nullopt, std::nullopt)) {
     EXPECT_EQ(d.status, "too few shared assets");
     EXPECT_EQ(d.congruence.size(), 0);
   }
@@ -280,8 +280,8 @@ TEST(AlignmentRefresh, PinnedAndSmoothedReferences) {
     expect_same_risk(w.served.fit, w.fitted.fit, 3);
   }
   const auto model = storage::find_model(db, "m");
-  for (const auto& d : storage::read_drift(db, model->id, "", "", "pinned")) EXPECT_EQ(d.against_as_of, p.dates[149]);
-  EXPECT_EQ(storage::read_drift(db, model->id, "", "", "pinned").size(), 20u);  // every window but the pinned one
+  for (const auto& d : storage::read_drift(db, model->id, std::nullopt, std::nullopt, "pinned")) EXPECT_EQ(d.against_as_of, p.dates[149]);
+  EXPECT_EQ(storage::read_drift(db, model->id, std::nullopt, std::nullopt, "pinned").size(), 20u);  // every window but the pinned one
 
   storage::ModelConfig smoothed = config();
   smoothed.align_to = storage::AlignTo::smoothed;
@@ -293,7 +293,7 @@ TEST(AlignmentRefresh, PinnedAndSmoothedReferences) {
   for (std::size_t i = 1; i < windows.size(); ++i) {
     EXPECT_EQ(windows[i].served.alignment->status, "aligned");
     EXPECT_EQ(windows[i].served.alignment->reference, "smoothed");
-    EXPECT_EQ(windows[i].served.alignment->reference_as_of, "");
+    EXPECT_FALSE(windows[i].served.alignment->reference_as_of);
     EXPECT_GT(windows[i].served.alignment->factor_fit.minCoeff(), 0.95);
   }
 }
@@ -310,7 +310,7 @@ TEST(AlignmentRefresh, RotatedModelsStoreTheirRotationAndKeepTheirRisk) {
     storage::set_model(db, name, c);
     pipeline::refresh_model(db, name);
     for (const auto& w : stored_windows(db, name)) {
-      SCOPED_TRACE(name + " " + w.served.as_of);
+      SCOPED_TRACE(name + " " + w.served.as_of.iso());
       ASSERT_EQ(w.fitted.rotation.rows(), kK);
       ASSERT_EQ(w.fitted.rotation.cols(), kK);
       if (method == engine::RotationMethod::varimax)

@@ -172,7 +172,7 @@ TEST(ApiHandlers, AWindowWhoseFitFailedIsAConflictOnEveryRouteThatNeedsIt) {
   const auto summary = factorwatch::pipeline::refresh_model(api.context().database(), "m");
   ASSERT_GT(summary.unusable, 0u);
   ASSERT_GT(summary.fitted, summary.unusable);
-  const std::string last = planted.panel.dates.back();
+  const std::string last = planted.panel.dates.back().iso();
   const std::string asset = planted.panel.assets.front();
   expect_problem(api.call("GET", "/v1/models/m/exposures"), 409, "as_of", "exposures");
   expect_problem(api.call("GET", "/v1/models/m/specific-risk?format=csv"), 409, "as_of", "specific risk");
@@ -182,10 +182,56 @@ TEST(ApiHandlers, AWindowWhoseFitFailedIsAConflictOnEveryRouteThatNeedsIt) {
   const std::string weights = R"({"weights":{")" + asset + R"(":1}})";
   expect_problem(api.call("POST", "/v1/models/m/risk", weights), 409, "as_of", "risk");
   // An earlier window still answers, and the series of factor returns skips the failed ones.
-  const auto earlier = api.call("POST", "/v1/models/m/risk?as_of=" + planted.panel.dates[79], weights);
+  const auto earlier = api.call("POST", "/v1/models/m/risk?as_of=" + planted.panel.dates[79].iso(), weights);
   EXPECT_EQ(earlier.status, 200) << *earlier.body;
-  EXPECT_EQ(api.call("GET", "/v1/models/m/exposures?as_of=" + planted.panel.dates[79]).status, 200);
+  EXPECT_EQ(api.call("GET", "/v1/models/m/exposures?as_of=" + planted.panel.dates[79].iso()).status, 200);
   EXPECT_EQ(api.call("GET", "/v1/models/m/factor-returns").status, 200);
+}
+
+// Dates are read once, where they enter, by one rule with one message (engine::Date,
+// pipeline::read_date): before, an as-of date was checked three ways on its way to SQL
+// and a malformed one was described in four wordings. Every date a request can carry.
+TEST(ApiHandlers, EveryDateParameterIsReadByOneRuleWithOneMessage) {
+  fw::TempDir dir;
+  fw::InProcessApi api(dir.path());
+  load_and_fit(api, dir, 120, R"({"factors":2,"window":60,"step":20})");
+  ASSERT_EQ(api.call("PUT", "/v1/portfolios/book?as_of=2021-03-31", "asset,weight\nP1000,1\n", "text/csv").status, 201);
+  const std::string weights = R"({"weights":{"P1000":1}})";
+  struct Case {
+    std::string method, target, body, field;
+  };
+  for (const std::string bad : {"2024-02-30", "2023-02-29", "2024-13-01", "2024-1-05", "20240105", "yesterday",
+                                "2024-01-05T00:00", "0000-01-01"}) {
+    const std::vector<Case> cases = {
+        {"GET", "/v1/models/m/exposures?as_of=" + bad, "", "as_of"},
+        {"GET", "/v1/models/m/specific-risk?as_of=" + bad, "", "as_of"},
+        {"POST", "/v1/models/m/risk?as_of=" + bad, weights, "as_of"},
+        {"GET", "/v1/models/m/risk?portfolio=book&holdings_as_of=" + bad, "", "holdings_as_of"},
+        {"GET", "/v1/models/m/drift?from=" + bad, "", "from"},
+        {"GET", "/v1/models/m/drift?window=" + bad, "", "window"},
+        {"GET", "/v1/models/m/alerts?to=" + bad, "", "to"},
+        {"GET", "/v1/models/m/history?asset=P1000&from=" + bad, "", "from"},
+        {"GET", "/v1/models/m/factor-returns?to=" + bad, "", "to"},
+        {"GET", "/v1/models/m/factor-returns?window=" + bad, "", "window"},
+        {"GET", "/v1/models/m/residuals?asset=P1000&window=" + bad, "", "window"},
+        {"GET", "/v1/portfolios/book?as_of=" + bad, "", "as_of"},
+        {"DELETE", "/v1/portfolios/book?as_of=" + bad, "", "as_of"},
+    };
+    for (const Case& c : cases) {
+      const auto r = api.call(c.method, c.target, c.body);
+      expect_problem(r, 400, c.field, c.target);
+      EXPECT_EQ(json::parse(*r.body)["detail"],
+                "query parameter '" + c.field + "' = '" + bad + "': not a date in the form yyyy-mm-dd")
+          << c.target;
+    }
+    const auto body = api.call("POST", "/v1/models/m/risk", R"({"portfolio":"book","holdings_as_of":")" + bad + R"("})");
+    expect_problem(body, 400, "holdings_as_of", "holdings_as_of in the body");
+    EXPECT_EQ(json::parse(*body.body)["detail"],
+              "member 'holdings_as_of' = '" + bad + "': not a date in the form yyyy-mm-dd");
+  }
+  // The portfolio was not removed by the refused deletes, and a real date still answers.
+  EXPECT_EQ(api.call("GET", "/v1/portfolios/book?as_of=2021-03-31").status, 200);
+  EXPECT_EQ(api.call("GET", "/v1/models/m/exposures?as_of=2099-12-31").status, 200);  // the latest before it
 }
 
 }  // namespace

@@ -372,7 +372,7 @@ void write_small_file(const std::string& path, const std::vector<std::string>& d
 TEST(CrashSafety, KilledLoadLeavesTheFileWhollyStoredOrWhollyAbsent) {
   TempDir files;
   ASSERT_FALSE(files.path().empty());
-  const std::vector<std::string> dates = factorwatch::testing::business_dates(kBigDates);
+  const std::vector<std::string> dates = factorwatch::testing::iso_texts(factorwatch::testing::business_dates(kBigDates));
   const std::string small = files.file("small.csv"), big = files.file("big.csv");
   write_small_file(small, dates);
   const long long big_rows = write_big_file(big, dates);
@@ -511,7 +511,7 @@ void write_wide_csv(const std::string& path, const factorwatch::demo::DemoUniver
   text += "\n";
   char number[40];
   for (Eigen::Index t = 0; t < u.values.rows(); ++t) {
-    text += u.dates[static_cast<std::size_t>(t)];
+    text += u.dates[static_cast<std::size_t>(t)].iso();
     for (Eigen::Index i = 0; i < u.values.cols(); ++i) {
       text += ',';
       const double v = u.values(t, i);

@@ -63,8 +63,8 @@ DemoRun refresh_demo(storage::AlignTo align_to) {
   storage::set_model(db, "demo", c);
   pipeline::refresh_model(db, "demo");
   const auto model = storage::find_model(db, "demo");
-  return {storage::list_windows(db, model->id), storage::read_alerts(db, model->id, "", ""),
-          storage::read_drift(db, model->id, "", "", "pinned")};
+  return {storage::list_windows(db, model->id), storage::read_alerts(db, model->id, std::nullopt, std::nullopt),
+          storage::read_drift(db, model->id, std::nullopt, std::nullopt, "pinned")};
 }
 
 int cluster_of(const std::string& asset) {  // 1-based, as the generator numbers them
@@ -83,7 +83,7 @@ int cluster_of(const std::string& asset) {  // 1-based, as the generator numbers
 // the pinned window down to 0.9046 (measured), which is why the default threshold is 0.85.
 TEST(DemoDrift, PlantedChangeIsFlaggedAndNothingBeforeIt) {
   const DemoRun run = refresh_demo(storage::AlignTo::previous);
-  const std::string change = universe().dates[static_cast<std::size_t>(universe().change_index)];
+  const engine::Date change = universe().dates[static_cast<std::size_t>(universe().change_index)];
   std::size_t before = 0, first_after = run.windows.size();
   for (std::size_t i = 0; i < run.windows.size(); ++i) {
     if (run.windows[i].as_of < change) ++before;
@@ -93,8 +93,8 @@ TEST(DemoDrift, PlantedChangeIsFlaggedAndNothingBeforeIt) {
   ASSERT_EQ(before, 88u);
   std::size_t false_alarms = 0;
   for (const auto& a : run.alerts) {
-    std::printf("  alert %s vs %s (%s) f%d congruence %.4f; movers:", a.as_of.c_str(), a.against.c_str(),
-                a.against_as_of.c_str(), a.factor, a.congruence);
+    std::printf("  alert %s vs %s (%s) f%d congruence %.4f; movers:", a.as_of.iso().c_str(), a.against.c_str(),
+                a.against_as_of.iso().c_str(), a.factor, a.congruence);
     int moved_clusters = 0;
     for (std::size_t m = 0; m < std::min<std::size_t>(5, a.movers.size()); ++m) {
       const int c = cluster_of(a.movers[m].asset);
@@ -108,7 +108,7 @@ TEST(DemoDrift, PlantedChangeIsFlaggedAndNothingBeforeIt) {
     EXPECT_GE(moved_clusters, 4) << a.as_of;
   }
   std::printf("%zu windows, %zu before the change (%s): %zu alerts, %zu of them before the change\n",
-              run.windows.size(), before, change.c_str(), run.alerts.size(), false_alarms);
+              run.windows.size(), before, change.iso().c_str(), run.alerts.size(), false_alarms);
   EXPECT_EQ(false_alarms, 0u);  // false-alarm rate 0 of 88 windows without a change
   // The noise floor: the lowest congruence with the pinned window of any factor before the
   // change, sampling noise alone. The default threshold 0.85 must sit below it.

@@ -95,35 +95,28 @@ double sampling_tolerance(const Eigen::MatrixXd& sigma, int periods) {
   return std::sqrt(e0_squared + 16.0 * 2.0 / t);
 }
 
-TEST(DemoCalendar, CivilDaysKnownValuesAndRoundTrip) {
-  EXPECT_EQ(days_from_civil({1970, 1, 1}), 0);
-  EXPECT_EQ(days_from_civil({2000, 3, 1}), 11017);
-  EXPECT_EQ(days_from_civil({1969, 12, 31}), -1);
-  EXPECT_EQ(weekday(days_from_civil({2020, 1, 1})), 2);  // a Wednesday
-  EXPECT_EQ(weekday(days_from_civil({2024, 2, 29})), 3);  // a Thursday
-  for (std::int64_t d = -800000; d <= 800000; d += 37) {
-    const CivilDate c = civil_from_days(d);
-    ASSERT_EQ(days_from_civil(c), d);
-    ASSERT_TRUE(parse_iso_date(format_iso_date(c)) || c.year < 0 || c.year > 9999);
-  }
-}
-
-TEST(DemoCalendar, ParsingIsStrict) {
-  EXPECT_TRUE(parse_iso_date("2024-02-29"));
-  EXPECT_FALSE(parse_iso_date("2023-02-29"));
-  EXPECT_FALSE(parse_iso_date("2023-13-01"));
-  EXPECT_FALSE(parse_iso_date("2023-1-01"));
-  EXPECT_FALSE(parse_iso_date("2023/01/01"));
-  EXPECT_FALSE(parse_iso_date(""));
+// The calendar is engine::Date's (its day counts are checked against numpy in
+// date_key_test). Weekdays, 0 = Monday: Python's datetime.date(y, m, d).weekday().
+TEST(DemoCalendar, WeekdaysMatchPythonsDatetime) {
+  const struct {
+    const char* date;
+    int weekday;
+  } cases[] = {{"2020-01-01", 2}, {"2024-02-29", 3}, {"1970-01-01", 3}, {"0001-01-01", 0}, {"9999-12-31", 4},
+               {"2022-01-01", 5}};
+  for (const auto& c : cases) EXPECT_EQ(engine::Date::from_iso(c.date)->weekday(), c.weekday) << c.date;
 }
 
 TEST(DemoCalendar, BusinessDaysSkipWeekendsAndStartOnOrAfter) {
   // 2022-01-01 is a Saturday: the first business day is Monday 2022-01-03.
-  const auto days = business_days({2022, 1, 1}, 1);
+  const auto days = business_days(*engine::Date::from_iso("2022-01-01"), 1);
   ASSERT_FALSE(days.empty());
-  EXPECT_EQ(days.front(), "2022-01-03");
-  EXPECT_EQ(days.back(), "2022-12-30");
+  EXPECT_EQ(days.front().iso(), "2022-01-03");
+  EXPECT_EQ(days.back().iso(), "2022-12-30");
   EXPECT_EQ(days.size(), 260u);
+  // A 29 February start ends on 1 March of a common year: 2024-02-29 .. 2025-02-28.
+  const auto leap = business_days(*engine::Date::from_iso("2024-02-29"), 1);
+  EXPECT_EQ(leap.front().iso(), "2024-02-29");
+  EXPECT_EQ(leap.back().iso(), "2025-02-28");
 }
 
 TEST(DemoOptions, MisuseThrowsNamingTheField) {
@@ -202,20 +195,15 @@ TEST(DemoUniverse, ShapeDatesAndAssetIds) {
   EXPECT_EQ(u.values.cols(), static_cast<Eigen::Index>(u.assets.size()));
   EXPECT_EQ(u.values.rows(), static_cast<Eigen::Index>(u.dates.size()));
   EXPECT_GE(u.dates.size(), 6u * 52u * 5u);
-  EXPECT_EQ(u.dates.front(), "2020-01-01");  // a Wednesday, so the first date
+  EXPECT_EQ(u.dates.front().iso(), "2020-01-01");  // a Wednesday, so the first date
 
   // Six calendar years span at least 6 * 365 days less a weekend's slack.
-  const std::int64_t first = days_from_civil(*parse_iso_date(u.dates.front()));
-  const std::int64_t last = days_from_civil(*parse_iso_date(u.dates.back()));
-  EXPECT_GE(last - first, 6 * 365 - 3);
-  std::int64_t previous = first - 1;
-  for (const auto& date : u.dates) {
-    const auto parsed = parse_iso_date(date);
-    ASSERT_TRUE(parsed) << date;
-    const std::int64_t d = days_from_civil(*parsed);
-    ASSERT_LT(weekday(d), 5) << date << " is a weekend day";
-    ASSERT_GT(d, previous) << date << " is not ascending";
-    previous = d;
+  EXPECT_GE(engine::days_between(u.dates.front(), u.dates.back()), 6 * 365 - 3);
+  for (std::size_t t = 0; t < u.dates.size(); ++t) {
+    ASSERT_LT(u.dates[t].weekday(), 5) << u.dates[t] << " is a weekend day";
+    if (t > 0) {
+      ASSERT_GT(u.dates[t], u.dates[t - 1]) << u.dates[t] << " is not ascending";
+    }
   }
 
   std::set<std::string> unique(u.assets.begin(), u.assets.end());

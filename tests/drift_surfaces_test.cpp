@@ -50,7 +50,7 @@ fw::PlantedModel planted_with_a_change(std::string& change_date) {
     m.panel.values.row(t) += ((l - m.loadings) * m.factors.row(t).transpose()).transpose();
   }
   m.panel.dates = fw::business_dates(kDates);
-  change_date = m.panel.dates[kChange];
+  change_date = m.panel.dates[kChange].iso();
   return m;
 }
 
@@ -259,7 +259,7 @@ TEST_F(DriftSurfaces, APlantedChangeRaisesAnAlertOnItsFactorNearTheChange) {
   const ordered_json alerts = json_of("alerts m --format json");
   EXPECT_EQ(alerts.begin().key(), "caution");
   ASSERT_FALSE(alerts["alerts"].empty()) << run("drift m").out;
-  const std::vector<std::string> dates = fw::business_dates(kDates);
+  const std::vector<std::string> dates = factorwatch::testing::iso_texts(fw::business_dates(kDates));
   const std::string window_after = dates[kChange + kWindow];
   std::string first = alerts["alerts"][0]["as_of"];
   for (const auto& a : alerts["alerts"]) {

@@ -16,7 +16,7 @@ inline engine::ReturnsPanel eustock_returns() {
   p.assets.assign(t.header.begin() + 1, t.header.end());
   p.values.resize(Eigen::Index(t.rows.size()), Eigen::Index(p.assets.size()));
   for (std::size_t r = 0; r < t.rows.size(); ++r) {
-    p.dates.push_back(t.rows[r][0]);
+    p.dates.push_back(*engine::Date::from_iso(t.rows[r][0]));
     for (std::size_t c = 0; c < p.assets.size(); ++c)
       p.values(Eigen::Index(r), Eigen::Index(c)) = std::stod(t.rows[r][c + 1]);
   }

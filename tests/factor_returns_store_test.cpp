@@ -65,7 +65,7 @@ struct Store {
 
   // The file's returns on the window's dates, every column (the engine ignores the ones
   // the fit lacks).
-  engine::ReturnsPanel slice(const std::string& first, const std::string& last) const {
+  engine::ReturnsPanel slice(engine::Date first, engine::Date last) const {
     const auto begin = std::find(panel.dates.begin(), panel.dates.end(), first) - panel.dates.begin();
     const auto end = std::find(panel.dates.begin(), panel.dates.end(), last) - panel.dates.begin() + 1;
     engine::ReturnsPanel p;
@@ -112,7 +112,7 @@ TEST(FactorReturnsStore, WindowScoresEqualTheEngineOnTheFileUnderServedFactors) 
   }
   std::printf("[ measured ] max |stored - engine on the file| = %.2e\n", worst);
   // The window with the gaps on date 130: 4 fewer assets used that date.
-  const pipeline::WindowScores last = pipeline::window_scores(*s.db, s.version, "", engine::ScoreMethod::bartlett);
+  const pipeline::WindowScores last = pipeline::window_scores(*s.db, s.version, std::nullopt, engine::ScoreMethod::bartlett);
   ASSERT_TRUE(last.ok());
   EXPECT_EQ(last.as_of, s.panel.dates[159]);
   const auto at130 =
@@ -125,7 +125,7 @@ TEST(FactorReturnsStore, SeriesHasOneRowPerWindowWithThatWindowsScoreOfItsAsOfDa
   const auto windows = storage::list_windows(*s.db, s.version);
   double worst = 0;
   for (auto method : {engine::ScoreMethod::bartlett, engine::ScoreMethod::regression}) {
-    const pipeline::FactorReturnSeries series = pipeline::factor_return_series(*s.db, s.version, "", "", method);
+    const pipeline::FactorReturnSeries series = pipeline::factor_return_series(*s.db, s.version, std::nullopt, std::nullopt, method);
     EXPECT_EQ(series.method, method);
     EXPECT_TRUE(series.skipped.empty());
     ASSERT_EQ(series.rows.size(), windows.size());
@@ -148,7 +148,7 @@ TEST(FactorReturnsStore, SeriesHasOneRowPerWindowWithThatWindowsScoreOfItsAsOfDa
     }
     // The last as-of date has a gap in asset 8.
     EXPECT_EQ(series.rows.back().assets_used,
-              pipeline::window_scores(*s.db, s.version, "", method).scores.modelled_assets - 1);
+              pipeline::window_scores(*s.db, s.version, std::nullopt, method).scores.modelled_assets - 1);
   }
   std::printf("[ measured ] max |series row - window's own last row| = %.2e\n", worst);
   // A date range keeps the windows inside it.
@@ -158,9 +158,10 @@ TEST(FactorReturnsStore, SeriesHasOneRowPerWindowWithThatWindowsScoreOfItsAsOfDa
   EXPECT_EQ(some.rows.front().as_of, windows[2].as_of);
   EXPECT_EQ(some.rows.back().as_of, windows[4].as_of);
   EXPECT_TRUE(
-      pipeline::factor_return_series(*s.db, s.version, "2030-01-01", "", engine::ScoreMethod::bartlett).rows.empty());
-  EXPECT_THROW(pipeline::factor_return_series(*s.db, s.version, "2021-13-01", "", engine::ScoreMethod::bartlett),
-               std::invalid_argument);
+      pipeline::factor_return_series(*s.db, s.version, factorwatch::testing::day("2030-01-01"), std::nullopt,
+                                     engine::ScoreMethod::bartlett)
+          .rows.empty());
+  EXPECT_FALSE(engine::Date::from_iso("2021-13-01"));  // not a date: the surfaces refuse it (read_date)
 }
 
 // e = (x - mu) - l' f from the file's returns, the served fit and the window's scores.
@@ -168,7 +169,7 @@ TEST(FactorReturnsStore, SeriesHasOneRowPerWindowWithThatWindowsScoreOfItsAsOfDa
 // loadings are about 1e-2).
 TEST(FactorReturnsStore, ResidualsOfAnAssetAreReturnMinusMeanMinusLoadingsTimesScores) {
   Store s;
-  const std::string as_of = s.panel.dates[129];  // the window of dates 30..129
+  const engine::Date as_of = s.panel.dates[129];  // the window of dates 30..129
   const auto window = pipeline::read_served_window(*s.db, s.version, as_of, false);
   ASSERT_TRUE(window);
   const engine::ReturnsPanel file = s.slice(window->first_date, window->as_of);
@@ -226,9 +227,8 @@ TEST(FactorReturnsStore, FailuresAreValues) {
   const pipeline::AssetResiduals none =
       pipeline::asset_residuals(*s.db, s.version, s.panel.dates[10], "P1000", engine::ScoreMethod::bartlett);
   EXPECT_FALSE(none.ok());
-  // A malformed date is misuse.
-  EXPECT_THROW(pipeline::window_scores(*s.db, s.version, "2021-02-30", engine::ScoreMethod::bartlett),
-               std::invalid_argument);
+  // A malformed date cannot get this far: engine::Date holds real days only.
+  EXPECT_FALSE(engine::Date::from_iso("2021-02-30"));
 }
 
 }  // namespace

@@ -109,7 +109,7 @@ class FactorReturnsSurfaces : public ::testing::Test {
   static long version_id(storage::Database& db) { return storage::find_model(db, "m")->id; }
   // The return of `asset` on `date` as written to the file (NaN for a gap).
   static double file_return(const std::string& asset, const std::string& date) {
-    const auto t = std::find(panel_.dates.begin(), panel_.dates.end(), date) - panel_.dates.begin();
+    const auto t = std::find(panel_.dates.begin(), panel_.dates.end(), fw::day(date.c_str())) - panel_.dates.begin();
     const auto i = std::find(panel_.assets.begin(), panel_.assets.end(), asset) - panel_.assets.begin();
     return panel_.values(t, i);
   }
@@ -130,7 +130,7 @@ TEST_F(FactorReturnsSurfaces, OneWindowJsonEqualsStorageExactly) {
     for (const auto method : {engine::ScoreMethod::bartlett, engine::ScoreMethod::regression}) {
       const json cli =
           json_of("factor-returns m --window " + as_of + " --method " + engine::to_string(method) + " --format json");
-      const pipeline::WindowScores stored = pipeline::window_scores(db, version_id(db), as_of, method, false);
+      const pipeline::WindowScores stored = pipeline::window_scores(db, version_id(db), fw::day(as_of.c_str()), method, false);
       ASSERT_TRUE(stored.ok()) << stored.failure;
       EXPECT_EQ(cli["caution"], engine::kCaution);
       EXPECT_EQ(cli["as_of"], as_of);
@@ -161,9 +161,9 @@ TEST_F(FactorReturnsSurfaces, OneWindowJsonEqualsStorageExactly) {
     }
   }
   // A date between windows: the latest window before it, with a note.
-  const json between = json_of("factor-returns m --window " + panel_.dates[kDates - 2] + " --format json");
+  const json between = json_of("factor-returns m --window " + panel_.dates[kDates - 2].iso() + " --format json");
   EXPECT_EQ(between["as_of"], windows_[windows_.size() - 2]);
-  EXPECT_NE(between.value("note", std::string()).find("no window ends on " + panel_.dates[kDates - 2]),
+  EXPECT_NE(between.value("note", std::string()).find("no window ends on " + panel_.dates[kDates - 2].iso()),
             std::string::npos);
 }
 
@@ -178,7 +178,7 @@ TEST_F(FactorReturnsSurfaces, BartlettScoresFollowTheFormulaOnTheServedModel) {
   storage::Database db(dir_->database());
   const std::string as_of = windows_.back();
   const ServedModel m = served_model(json_of("exposures m --as-of " + as_of + " --format json"));
-  const auto window = pipeline::read_served_window(db, version_id(db), as_of, false);  // served
+  const auto window = pipeline::read_served_window(db, version_id(db), fw::day(as_of.c_str()), false);  // served
   ASSERT_TRUE(window);
   const json cli = json_of("factor-returns m --window " + as_of + " --format json");
   const json regression = json_of("factor-returns m --window " + as_of + " --method regression --format json");
@@ -200,7 +200,7 @@ TEST_F(FactorReturnsSurfaces, BartlettScoresFollowTheFormulaOnTheServedModel) {
     }
     EXPECT_EQ(cli["dates"][t]["assets_used"], observed) << date;
     if (observed < kFactors + 1) {
-      EXPECT_EQ(date, panel_.dates[kSparseDate]);
+      EXPECT_EQ(date, panel_.dates[kSparseDate].iso());
       EXPECT_TRUE(cli["dates"][t]["factor_returns"][0].is_null());
       EXPECT_NE(cli["dates"][t]["reason"].get<std::string>().find("fewer than k + 1"), std::string::npos);
       continue;
@@ -240,7 +240,7 @@ TEST_F(FactorReturnsSurfaces, SeriesHasOneRowPerWindowEqualToItsLastDate) {
     EXPECT_EQ(series["method"], name);
     EXPECT_EQ(series["factors"], kFactors);
     EXPECT_TRUE(series["skipped"].empty());
-    const pipeline::FactorReturnSeries stored = pipeline::factor_return_series(db, version_id(db), "", "", method);
+    const pipeline::FactorReturnSeries stored = pipeline::factor_return_series(db, version_id(db), std::nullopt, std::nullopt, method);
     ASSERT_EQ(series["rows"].size(), windows_.size());
     ASSERT_EQ(stored.rows.size(), windows_.size());
     for (std::size_t w = 0; w < windows_.size(); ++w) {
@@ -282,7 +282,7 @@ TEST_F(FactorReturnsSurfaces, ResidualsAreReturnMinusMeanMinusLoadingsTimesFacto
   double worst = 0;
   for (const std::string& as_of : {windows_[4], windows_.back()}) {
     const ServedModel m = served_model(json_of("exposures m --as-of " + as_of + " --format json"));
-    const auto window = pipeline::read_served_window(db, version_id(db), as_of, false);
+    const auto window = pipeline::read_served_window(db, version_id(db), fw::day(as_of.c_str()), false);
     ASSERT_TRUE(window);
     for (const auto method : {engine::ScoreMethod::bartlett, engine::ScoreMethod::regression}) {
       const std::string name = engine::to_string(method);
@@ -364,7 +364,7 @@ TEST_F(FactorReturnsSurfaces, CsvIsCautionHeadingAndOneHeaderRow) {
   EXPECT_EQ(lines[2], "date,f1,f2,assets_used,reason");
   const auto sparse = fw::csv_fields(lines[3 + kSparseDate - (kDates - kWindow)]);
   ASSERT_EQ(sparse.size(), 5u);
-  EXPECT_EQ(sparse[0], panel_.dates[kSparseDate]);
+  EXPECT_EQ(sparse[0], panel_.dates[kSparseDate].iso());
   EXPECT_EQ(sparse[1], "");
   EXPECT_EQ(sparse[3], "2");
   EXPECT_NE(sparse[4].find("fewer than k + 1"), std::string::npos);
@@ -404,7 +404,7 @@ TEST_F(FactorReturnsSurfaces, TablesNameTheMethodAndEndWithTheCaution) {
     EXPECT_NE(r.out.find(regression ? kRegressionWords : kBartlettWords), std::string::npos) << r.out;
   }
   const auto w = run("factor-returns m --window " + windows_.back());
-  EXPECT_NE(w.out.find(panel_.dates[kSparseDate] + "         -         -       2  not scored: "), std::string::npos)
+  EXPECT_NE(w.out.find(panel_.dates[kSparseDate].iso() + "         -         -       2  not scored: "), std::string::npos)
       << w.out;
 }
 
@@ -424,9 +424,9 @@ TEST_F(FactorReturnsSurfaces, CommandLineFailuresNameTheOptionAndExit) {
   r = run("factor-returns m --window 2021-02-30");
   EXPECT_EQ(r.status, 2);
   EXPECT_NE(r.err.find("option '--window' = '2021-02-30'"), std::string::npos) << r.err;
-  r = run("factor-returns m --window " + panel_.dates[10]);  // before the first window
+  r = run("factor-returns m --window " + panel_.dates[10].iso());  // before the first window
   EXPECT_EQ(r.status, 1);
-  EXPECT_NE(r.err.find("no window on or before " + panel_.dates[10]), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("no window on or before " + panel_.dates[10].iso()), std::string::npos) << r.err;
   r = run("factor-returns m --method thomson");
   EXPECT_EQ(r.status, 2);
   EXPECT_NE(r.err.find("--method"), std::string::npos) << r.err;
@@ -492,13 +492,13 @@ TEST_F(FactorReturnsSurfaces, DaemonProblemsNameTheField) {
       {"/v1/models/m/factor-returns?from=2021-13-01", 400, "from", "not a date"},
       {"/v1/models/m/factor-returns?window=2021-02-30", 400, "window", "not a date"},
       {"/v1/models/m/factor-returns?window=" + windows_[1] + "&to=" + windows_[2], 400, "window", "leave out"},
-      {"/v1/models/m/factor-returns?window=" + panel_.dates[10], 404, "window", "no window on or before"},
+      {"/v1/models/m/factor-returns?window=" + panel_.dates[10].iso(), 404, "window", "no window on or before"},
       {"/v1/models/m/residuals", 400, "asset", "name the asset"},
       {"/v1/models/m/residuals?asset=NOPE", 404, "asset", "unknown asset (no returns stored)"},
       {"/v1/models/m/residuals?asset=P1005&window=" + windows_.front(), 404, "asset",
        "excluded from the fit: coverage"},
       {"/v1/models/m/residuals?asset=P1003&method=x", 400, "method", "must be bartlett or regression"},
-      {"/v1/models/m/residuals?asset=P1003&window=" + panel_.dates[10], 404, "window", "no window on or before"},
+      {"/v1/models/m/residuals?asset=P1003&window=" + panel_.dates[10].iso(), 404, "window", "no window on or before"},
       {"/v1/models/nope/residuals?asset=P1003", 404, "name", "no model named 'nope'"},
   };
   for (const Case& c : cases) {

@@ -352,18 +352,20 @@ ReturnsPanel r_data(const std::string& name, const RCase& c) {
     const fw::ReferenceTable t = fw::read_reference("eustock_returns.csv");
     p.values.resize(Eigen::Index(t.rows.size()), Eigen::Index(c.variables.size()));
     for (std::size_t r = 0; r < t.rows.size(); ++r) {
-      p.dates.push_back(t.text(r, "date"));
+      p.dates.push_back(*factorwatch::engine::Date::from_iso(t.text(r, "date")));
       for (std::size_t j = 0; j < c.variables.size(); ++j)
         p.values(Eigen::Index(r), Eigen::Index(j)) = t.number(r, c.variables[j]);
     }
     return p;
   }
   const auto& data = c.q.at("data");
-  p.dates = c.score_rows;  // car1..car32, all rows
-  p.values.resize(Eigen::Index(p.dates.size()), Eigen::Index(c.variables.size()));
-  for (std::size_t r = 0; r < p.dates.size(); ++r)
+  // Rows are cars (car1..car32), not dates: one stand-in date per row, in their order.
+  p.values.resize(Eigen::Index(c.score_rows.size()), Eigen::Index(c.variables.size()));
+  for (std::size_t r = 0; r < c.score_rows.size(); ++r) {
+    p.dates.push_back(factorwatch::engine::Date::from_days(static_cast<std::int32_t>(r)));
     for (std::size_t j = 0; j < c.variables.size(); ++j)
-      p.values(Eigen::Index(r), Eigen::Index(j)) = data.at(p.dates[r]).at(c.variables[j]);
+      p.values(Eigen::Index(r), Eigen::Index(j)) = data.at(c.score_rows[r]).at(c.variables[j]);
+  }
   return p;
 }
 
@@ -399,7 +401,12 @@ void check_against_r(const std::string& name, int k, double score_tolerance) {
     const auto& expected = c.q.at(method == ScoreMethod::bartlett ? "bartlett" : "regression");
     double worst = 0, largest = 0;
     for (std::size_t t = 0; t < c.score_rows.size(); ++t) {
-      ASSERT_EQ(s.dates[t], c.score_rows[t]);
+      // The scores keep the panel's rows: R's row names are the dates (EuStockMarkets) or, for
+      // the cars, stand-in dates one per row (r_data).
+      ASSERT_EQ(s.dates[t], scored.dates[t]);
+      if (name == "eustock_k1") {
+        ASSERT_EQ(s.dates[t].iso(), c.score_rows[t]);
+      }
       for (int j = 0; j < k; ++j) {
         const double r = expected.at(c.score_rows[t]).at(std::to_string(j + 1));
         worst = std::max(worst, std::abs(s.scores(Eigen::Index(t), j) - r));

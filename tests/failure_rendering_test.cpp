@@ -14,6 +14,7 @@
 #include <vector>
 
 #include "cli_common.h"
+#include "factorwatch/storage/model_fields.h"
 #include "cli_failure.h"
 #include "endpoint_helpers.h"
 #include "factorwatch/engine/failure.h"
@@ -80,8 +81,6 @@ const std::vector<BrokenConfig>& broken_configs() {
       {"half_life", [](ModelConfig& c) { c.fit.weighting = fe::Weighting::ewma, c.fit.half_life = 0; }},
       {"tolerance", [](ModelConfig& c) { c.fit.tolerance = 0.5; }},
       {"min_coverage", [](ModelConfig& c) { c.fit.min_coverage = 1.5; }},
-      {"first_as_of", [](ModelConfig& c) { c.first_as_of = "2021-02-30"; }},
-      {"pinned_window", [](ModelConfig& c) { c.pinned_window = "soon"; }},
       {"smoothing_half_life", [](ModelConfig& c) { c.smoothing_half_life = std::nan(""); }},
       {"min_shared_assets", [](ModelConfig& c) { c.min_shared_assets = 0; }},
       {"alert_below", [](ModelConfig& c) { c.alert_below = 1.5; }},
@@ -90,6 +89,31 @@ const std::vector<BrokenConfig>& broken_configs() {
       {"max_iterations", [](ModelConfig& c) { c.fit.max_iterations = 0; }},
   };
   return cases;
+}
+
+// A model's dates are read when set (a configuration holds dates, not text): a text that is
+// not a date is refused there, naming the member and the text on both surfaces.
+TEST(FailureText, AModelDateThatIsNotADateIsRefusedWhenSetNamingTheMemberAndTheText) {
+  for (const auto& [member, text] : std::vector<std::pair<std::string, std::string>>{
+           {"first_as_of", "2021-02-30"}, {"pinned_window", "soon"}, {"first_as_of", "2021-2-3"}}) {
+    ModelConfig config;
+    const auto f = factorwatch::storage::set_model_field(*factorwatch::storage::find_model_field(member), config,
+                                                         nlohmann::json(text));
+    ASSERT_TRUE(f) << member << " " << text;
+    EXPECT_EQ(f->kind, fe::FailureKind::bad_input);
+    EXPECT_EQ(fs::failure_text(*f, true), "member '" + member + "' = '" + text + "': not a date in the form yyyy-mm-dd");
+    std::string flag = "--" + member;
+    for (char& ch : flag) if (ch == '_') ch = '-';
+    EXPECT_EQ(fs::cli_text(*f), "option '" + flag + "' = '" + text + "': not a date in the form yyyy-mm-dd");
+    EXPECT_FALSE(config.first_as_of || config.pinned_window);  // nothing set
+  }
+  ModelConfig config;
+  EXPECT_FALSE(factorwatch::storage::set_model_field(*factorwatch::storage::find_model_field("first_as_of"), config,
+                                                     nlohmann::json("2024-02-29")));
+  EXPECT_EQ(config.first_as_of, fe::Date::from_iso("2024-02-29"));
+  EXPECT_FALSE(factorwatch::storage::set_model_field(*factorwatch::storage::find_model_field("first_as_of"), config,
+                                                     nlohmann::json()));
+  EXPECT_FALSE(config.first_as_of);  // null: as early as the data allow
 }
 
 TEST(FailureText, EveryModelRuleNamesAnOptionOfModelSetAndAMemberOfTheDefinition) {

@@ -91,7 +91,7 @@ TEST_F(HostileIdentifiers, AllowedNamesAreStoredAndShownExactly) {
   // CSV: read back by the holdings reader itself (it is a holdings file): the same names.
   const auto csv = run("portfolio show book --format csv");
   ASSERT_EQ(csv.status, 0) << csv.err;
-  const fw::Portfolio back = fw::parse_portfolio_text(csv.out, "show.csv", {"back", "2024-01-31", ""});
+  const fw::Portfolio back = fw::parse_portfolio_text(csv.out, "show.csv", {"back", factorwatch::testing::day("2024-01-31"), ""});
   ASSERT_EQ(back.holdings.size(), hostile_names().size());
   for (std::size_t i = 0; i < back.holdings.size(); ++i) EXPECT_EQ(back.holdings[i].asset, hostile_names()[i]);
   EXPECT_NE(csv.out.find("\"Robert\"\"); DROP TABLE assets;--\",0.05"), std::string::npos) << csv.out;

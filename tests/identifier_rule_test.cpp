@@ -144,7 +144,7 @@ TEST_F(IdentifierReaders, LongButAllowedNamesAreKeptExactly) {
 
 // --- holdings files ----------------------------------------------------------------
 
-fw::PortfolioFileOptions book() { return {"book", "2024-01-31", ""}; }
+fw::PortfolioFileOptions book() { return {"book", factorwatch::testing::day("2024-01-31"), ""}; }
 
 TEST_F(IdentifierReaders, HoldingsCsvNamesTheLine) {
   expect_refused([&] { fw::parse_portfolio_text("asset,weight\nZQ-1,0.5\n\"ZQ\x1b[0m\",0.5\n", "h.csv", book()); },

@@ -127,7 +127,7 @@ TEST(IngestCatalogue, EveryFileIsRejectedAsListed) {
 TEST(IngestCatalogue, EveryFileLeavesTheDatabaseUnchanged) {
   factorwatch::testing::TempDir dir;
   std::string good = "date,asset,return\n";
-  const auto dates = factorwatch::testing::business_dates(60);
+  const auto dates = factorwatch::testing::iso_texts(factorwatch::testing::business_dates(60));
   for (std::size_t t = 0; t < dates.size(); ++t)
     for (int i = 0; i < 4; ++i)
       good += dates[t] + ",ZQ-000" + std::to_string(i + 1) + "," + std::to_string(0.001 * ((t * 7 + i * 3) % 11) - 0.005) + "\n";

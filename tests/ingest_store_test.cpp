@@ -111,7 +111,7 @@ TEST(IngestStore, MissingCellsNeverEraseStoredReturns) {
   storage::Database db(dir.database());
   load(db, dir.file("r.csv"));
   const std::string before = returns_table(db);
-  const auto dates = testing::business_dates(2);
+  const auto dates = testing::iso_texts(testing::business_dates(2));
   testing::write_text(dir.file("gaps.csv"), "date,asset,return\n" + dates[1] + ",ZQ-none,\n");
   testing::write_text(dir.file("gaps_wide.csv"), "date,a0,a1\n" + dates[1] + ",,\n");
   load(db, dir.file("gaps_wide.csv"));
@@ -136,7 +136,7 @@ TEST(IngestStore, CorrectionIsRecordedAndMarksCoveringWindowsStale) {
   ASSERT_EQ(refreshed.fitted, 9u);  // as-of indices 19, 24, ..., 59
 
   // Correct the return of asset a3 on date index 30: windows ending at 34..49 hold it.
-  const std::string date = p.dates[30];
+  const std::string date = p.dates[30].iso();
   testing::write_text(dir.file("fix.csv"), "date,asset,return\n" + date + "," + p.assets[3] + ",0.0123\n");
   const auto s = load(db, dir.file("fix.csv"));
   EXPECT_EQ(s.outcome, "correction");
@@ -169,7 +169,7 @@ TEST(IngestStore, RejectedFileLeavesTheDatabaseFileUnchanged) {
   ASSERT_EQ(testing::run_factorwatch(dir.path(), "load " + dir.file("good.csv")).status, 0);
   const std::string db_before = testing::read_bytes(dir.database());
   const std::string wal_before = testing::read_bytes(dir.database() + "-wal");
-  const auto dates = testing::business_dates(25);
+  const auto dates = testing::iso_texts(testing::business_dates(25));
   // Valid rows first, then one bad number: nothing of the file may land.
   testing::write_text(dir.file("bad.csv"), "date,asset,return\n" + dates[21] + ",ZQ-9,0.01\n" + dates[22] +
                                                ",ZQ-9,0.02\n" + dates[23] + ",ZQ-9,zero\n");

@@ -90,7 +90,7 @@ fw::PortfolioFileOptions named(const std::string& name, const std::string& as_of
                                const std::string& benchmark = "") {
   fw::PortfolioFileOptions o;
   o.name = name;
-  o.as_of = as_of;
+  if (!as_of.empty()) o.as_of = factorwatch::testing::day(as_of.c_str());
   o.benchmark = benchmark;
   return o;
 }
@@ -102,7 +102,7 @@ TEST(PortfolioStore, CsvRoundTripKeepsEveryBitAndTheFileOrder) {
   fwt::write_text(dir.file("book.csv"), awkward_csv());
   const fw::Portfolio p = fw::read_portfolio_file(dir.file("book.csv"), named("book", "2024-03-28"));
   EXPECT_EQ(p.name, "book");
-  EXPECT_EQ(p.as_of, "2024-03-28");
+  EXPECT_EQ(p.as_of.iso(), "2024-03-28");
   EXPECT_EQ(p.benchmark, "");
   EXPECT_EQ(p.source, dir.file("book.csv"));
   EXPECT_EQ(p.content_sha256.size(), 64u);
@@ -116,7 +116,7 @@ TEST(PortfolioStore, CsvRoundTripKeepsEveryBitAndTheFileOrder) {
   EXPECT_FALSE(outcome.unchanged);
   const auto back = fw::read_portfolio(db, "book");
   ASSERT_TRUE(back);
-  EXPECT_EQ(back->as_of, "2024-03-28");
+  EXPECT_EQ(back->as_of.iso(), "2024-03-28");
   EXPECT_EQ(back->source, dir.file("book.csv"));
   EXPECT_EQ(back->content_sha256, p.content_sha256);
   EXPECT_FALSE(back->stored_at.empty());
@@ -134,7 +134,7 @@ TEST(PortfolioStore, JsonWeightsFormKeepsOrderAndValues) {
       "}\n";
   fwt::write_text(dir.file("w.json"), text);
   const fw::Portfolio p = fw::read_portfolio_file(dir.file("w.json"), named("book"));
-  EXPECT_EQ(p.as_of, "2024-02-29");  // the file's, no option given
+  EXPECT_EQ(p.as_of.iso(), "2024-02-29");  // the file's, no option given
   EXPECT_EQ(p.benchmark, "index.eq-1");
   // File order, not the sorted order a plain JSON object would give; -0 is stored as 0
   // (SQLite keeps an integral REAL as an integer, which has no sign of zero). ZQ-0004 is
@@ -190,8 +190,8 @@ TEST(PortfolioStore, JsonHoldingsFormAndCsvGiveTheSameContent) {
 // as_of: option > file > today (UTC); benchmark: option > file > none.
 TEST(PortfolioStore, OptionsWinOverTheFileWhichWinsOverToday) {
   const std::string json = "{\"as_of\": \"2024-01-31\", \"benchmark\": \"bench-a\", \"weights\": {\"ZQ-1\": 1}}";
-  EXPECT_EQ(fw::parse_portfolio_text(json, "j", named("p")).as_of, "2024-01-31");
-  EXPECT_EQ(fw::parse_portfolio_text(json, "j", named("p", "2024-02-29")).as_of, "2024-02-29");
+  EXPECT_EQ(fw::parse_portfolio_text(json, "j", named("p")).as_of.iso(), "2024-01-31");
+  EXPECT_EQ(fw::parse_portfolio_text(json, "j", named("p", "2024-02-29")).as_of.iso(), "2024-02-29");
   EXPECT_EQ(fw::parse_portfolio_text(json, "j", named("p")).benchmark, "bench-a");
   EXPECT_EQ(fw::parse_portfolio_text(json, "j", named("p", "", "bench-b")).benchmark, "bench-b");
   // The file may name this portfolio's own name as benchmark only when the option replaces it.
@@ -199,10 +199,9 @@ TEST(PortfolioStore, OptionsWinOverTheFileWhichWinsOverToday) {
   EXPECT_EQ(fw::parse_portfolio_text(self, "j", named("p", "", "bench-b")).benchmark, "bench-b");
   // No date anywhere: today's UTC date (read twice around the call, in case midnight passes).
   const std::string before = today();
-  const std::string got = fw::parse_portfolio_text("asset,weight\nZQ-1,1\n", "c", named("p")).as_of;
+  const std::string got = fw::parse_portfolio_text("asset,weight\nZQ-1,1\n", "c", named("p")).as_of.iso();
   const std::string after = today();
   EXPECT_TRUE(got == before || got == after) << got;
-  EXPECT_TRUE(fw::is_calendar_date(got));
   const std::string none = "{\"as_of\": null, \"benchmark\": null, \"weights\": {\"ZQ-1\": 1}}";
   EXPECT_EQ(fw::parse_portfolio_text(none, "j", named("p", "2024-02-29")).benchmark, "");
   EXPECT_EQ(fw::parse_portfolio_text("asset,weight\nZQ-1,1\n", "c", named("p", "2024-02-29")).benchmark, "");
@@ -241,8 +240,8 @@ TEST(PortfolioStore, SameDateReplacesOrIsUnchangedAndOtherDatesStay) {
   EXPECT_FALSE(later.created);
   EXPECT_FALSE(later.replaced);
   EXPECT_FALSE(later.unchanged);
-  EXPECT_EQ(fw::portfolio_dates(db, "book"), (std::vector<std::string>{"2024-01-31", "2024-02-29"}));
-  expect_same_holdings(fw::read_portfolio(db, "book", "2024-01-31")->holdings, {{"ZQ-2", 0.7}, {"ZQ-3", 0.3}});
+  EXPECT_EQ(factorwatch::testing::iso_texts(fw::portfolio_dates(db, "book")), (std::vector<std::string>{"2024-01-31", "2024-02-29"}));
+  expect_same_holdings(fw::read_portfolio(db, "book", factorwatch::testing::day("2024-01-31"))->holdings, {{"ZQ-2", 0.7}, {"ZQ-3", 0.3}});
   // The replaced set left no rows behind.
   EXPECT_EQ(db.sql().execAndGet("SELECT count(*) FROM holdings").getInt(), 3);
 }
@@ -253,19 +252,20 @@ TEST(PortfolioStore, ReadsTheLatestSetAtOrBeforeADate) {
   fw::save_portfolio(db, csv_portfolio("book", "2024-02-29", "ZQ-2,1\n"));
   fw::save_portfolio(db, csv_portfolio("book", "2024-01-31", "ZQ-1,1\n"));
   fw::save_portfolio(db, csv_portfolio("book", "2024-03-28", "ZQ-3,1\n"));
-  EXPECT_EQ(fw::read_portfolio(db, "book")->as_of, "2024-03-28");
-  EXPECT_EQ(fw::read_portfolio(db, "book", "2024-02-15")->as_of, "2024-01-31");
-  EXPECT_EQ(fw::read_portfolio(db, "book", "2024-02-29")->as_of, "2024-02-29");
-  EXPECT_EQ(fw::read_portfolio(db, "book", "2024-02-29")->holdings.at(0).asset, "ZQ-2");
-  EXPECT_EQ(fw::read_portfolio(db, "book", "2099-12-31")->as_of, "2024-03-28");
-  EXPECT_FALSE(fw::read_portfolio(db, "book", "2024-01-30"));
+  EXPECT_EQ(fw::read_portfolio(db, "book")->as_of.iso(), "2024-03-28");
+  EXPECT_EQ(fw::read_portfolio(db, "book", factorwatch::testing::day("2024-02-15"))->as_of.iso(), "2024-01-31");
+  EXPECT_EQ(fw::read_portfolio(db, "book", factorwatch::testing::day("2024-02-29"))->as_of.iso(), "2024-02-29");
+  EXPECT_EQ(fw::read_portfolio(db, "book", factorwatch::testing::day("2024-02-29"))->holdings.at(0).asset, "ZQ-2");
+  EXPECT_EQ(fw::read_portfolio(db, "book", factorwatch::testing::day("2099-12-31"))->as_of.iso(), "2024-03-28");
+  EXPECT_FALSE(fw::read_portfolio(db, "book", factorwatch::testing::day("2024-01-30")));
   EXPECT_FALSE(fw::read_portfolio(db, "nobody"));
-  EXPECT_THROW(fw::read_portfolio(db, "book", "2024-02-30"), std::invalid_argument);
-  EXPECT_EQ(fw::portfolio_dates(db, "book"), (std::vector<std::string>{"2024-01-31", "2024-02-29", "2024-03-28"}));
+  // A day that does not exist cannot be asked for: engine::Date holds real days only.
+  EXPECT_FALSE(factorwatch::engine::Date::from_iso("2024-02-30"));
+  EXPECT_EQ(factorwatch::testing::iso_texts(fw::portfolio_dates(db, "book")), (std::vector<std::string>{"2024-01-31", "2024-02-29", "2024-03-28"}));
   EXPECT_TRUE(fw::portfolio_dates(db, "nobody").empty());
   // Inside a transaction the caller holds (SQLite does not nest them) the reads still work.
   db.sql().exec("BEGIN");
-  EXPECT_EQ(fw::read_portfolio(db, "book", "2024-02-15")->as_of, "2024-01-31");
+  EXPECT_EQ(fw::read_portfolio(db, "book", factorwatch::testing::day("2024-02-15"))->as_of.iso(), "2024-01-31");
   EXPECT_EQ(fw::list_portfolios(db).size(), 1u);
   db.sql().exec("COMMIT");
 }
@@ -283,7 +283,7 @@ TEST(PortfolioStore, ListsEachNameWithItsLatestSet) {
   EXPECT_EQ(list[0].dates, 1u);
   EXPECT_EQ(list[0].benchmark, "");
   EXPECT_EQ(list[1].name, "zeta");
-  EXPECT_EQ(list[1].latest_as_of, "2024-02-29");
+  EXPECT_EQ(list[1].latest_as_of.iso(), "2024-02-29");
   EXPECT_EQ(list[1].dates, 2u);
   EXPECT_EQ(list[1].benchmark, "alpha");
   EXPECT_EQ(list[1].holdings, 3u);
@@ -300,11 +300,10 @@ TEST(PortfolioStore, DeletesOneDateOrAll) {
   fw::save_portfolio(db, csv_portfolio("book", "2024-02-29", "ZQ-2,1\n"));
   fw::save_portfolio(db, csv_portfolio("book", "2024-03-28", "ZQ-3,1\nZQ-4,1\n"));
   fw::save_portfolio(db, csv_portfolio("other", "2024-03-28", "ZQ-3,1\n"));
-  EXPECT_EQ(fw::delete_portfolio(db, "book", "2024-02-29"), 1u);
-  EXPECT_EQ(fw::delete_portfolio(db, "book", "2024-02-29"), 0u);
-  EXPECT_EQ(fw::portfolio_dates(db, "book"), (std::vector<std::string>{"2024-01-31", "2024-03-28"}));
-  EXPECT_EQ(fw::read_portfolio(db, "book", "2024-02-29")->as_of, "2024-01-31");
-  EXPECT_THROW(fw::delete_portfolio(db, "book", "2024-02-30"), std::invalid_argument);
+  EXPECT_EQ(fw::delete_portfolio(db, "book", factorwatch::testing::day("2024-02-29")), 1u);
+  EXPECT_EQ(fw::delete_portfolio(db, "book", factorwatch::testing::day("2024-02-29")), 0u);
+  EXPECT_EQ(factorwatch::testing::iso_texts(fw::portfolio_dates(db, "book")), (std::vector<std::string>{"2024-01-31", "2024-03-28"}));
+  EXPECT_EQ(fw::read_portfolio(db, "book", factorwatch::testing::day("2024-02-29"))->as_of.iso(), "2024-01-31");
   EXPECT_EQ(fw::delete_portfolio(db, "nobody"), 0u);
 
   EXPECT_EQ(fw::delete_portfolio(db, "book"), 2u);
@@ -317,7 +316,7 @@ TEST(PortfolioStore, DeletesOneDateOrAll) {
   EXPECT_EQ(db.sql().execAndGet("SELECT count(*) FROM holding_sets").getInt(), 1);
 
   // Deleting a name's last date removes the name: storing it again creates it.
-  EXPECT_EQ(fw::delete_portfolio(db, "other", "2024-03-28"), 1u);
+  EXPECT_EQ(fw::delete_portfolio(db, "other", factorwatch::testing::day("2024-03-28")), 1u);
   EXPECT_TRUE(fw::list_portfolios(db).empty());
   EXPECT_TRUE(fw::save_portfolio(db, csv_portfolio("other", "2024-03-28", "ZQ-3,1\n")).created);
 }
@@ -326,7 +325,7 @@ TEST(PortfolioStore, CountsHoldingsWithoutStoredReturnsAndKeepsThem) {
   TempDir dir;
   fw::Database db(dir.database());
   engine::ReturnsPanel panel;
-  panel.dates = {"2024-01-02", "2024-01-03"};
+  panel.dates = factorwatch::testing::dates_of({"2024-01-02", "2024-01-03"});
   panel.assets = {"ZQ-1", "ZQ-2"};
   panel.values.resize(2, 2);
   panel.values << 0.01, -0.02, 0.005, 0.0;
@@ -514,7 +513,6 @@ TEST(PortfolioStore, SaveRefusesHoldingsNoFileCouldHold) {
     return p;
   };
   EXPECT_THROW(fw::save_portfolio(db, bad([](fw::Portfolio& p) { p.name = "a b"; })), std::invalid_argument);
-  EXPECT_THROW(fw::save_portfolio(db, bad([](fw::Portfolio& p) { p.as_of = "2024-02-30"; })), std::invalid_argument);
   EXPECT_THROW(fw::save_portfolio(db, bad([](fw::Portfolio& p) { p.benchmark = "book"; })), std::invalid_argument);
   EXPECT_THROW(fw::save_portfolio(db, bad([](fw::Portfolio& p) { p.holdings.clear(); })), std::invalid_argument);
   EXPECT_THROW(fw::save_portfolio(db, bad([](fw::Portfolio& p) { p.holdings.push_back({"ZQ-1", 2}); })),

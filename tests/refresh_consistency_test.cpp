@@ -113,7 +113,7 @@ TEST(RefreshConsistency, ALoadCommittingDuringARefreshLeavesItsWindowsStale) {
   pipeline::refresh_model(clean, "m");
   const long clean_model = storage::find_model(clean, "m")->id;
   for (int end = kWindow - 1; end < kT; end += kStep) {
-    const std::string as_of = p.dates[static_cast<std::size_t>(end)];
+    const engine::Date as_of = p.dates[static_cast<std::size_t>(end)];
     const auto a = storage::read_window(db, model, as_of, false);
     const auto b = storage::read_window(clean, clean_model, as_of, false);
     ASSERT_TRUE(a && b) << as_of;
@@ -203,7 +203,7 @@ TEST(RefreshConsistency, SaveWindowComparesTheRowsReadWithTheRowsStored) {
   pipeline::refresh_model(db, "m");
   const long model = storage::find_model(db, "m")->id;
   storage::WindowRecord w = *storage::read_window(db, model, p.dates[99], false);
-  const std::uint64_t read = storage::stored_rows_digest(db, storage::date_key(w.first_date), storage::date_key(w.as_of));
+  const std::uint64_t read = storage::stored_rows_digest(db, w.first_date, w.as_of);
   EXPECT_TRUE(storage::save_window(db, model, w, read));
   EXPECT_FALSE(pipeline::read_served_window(db, model, w.as_of)->stale);
   store(db, correction(p, 10, 0), "fix");

@@ -195,12 +195,12 @@ TEST(Refresh, ChangedConfigurationIsANewVersionAndOldWindowsStay) {
   EXPECT_TRUE(v2.new_version);
   EXPECT_EQ(v2.model.version, 2);
   EXPECT_EQ(storage::list_windows(db, v1.model.id).size(), 4u);  // as-of 99, 119, 139, 159: kept, 3 factors
-  EXPECT_EQ(pipeline::read_served_window(db, v1.model.id, "")->fit.factors, 3);
+  EXPECT_EQ(pipeline::read_served_window(db, v1.model.id, std::nullopt)->fit.factors, 3);
   EXPECT_EQ(storage::list_windows(db, v2.model.id).size(), 0u);
   pipeline::refresh_model(db, "m");
-  EXPECT_EQ(pipeline::read_served_window(db, v2.model.id, "")->fit.factors, 2);
-  EXPECT_NE(pipeline::read_served_window(db, v2.model.id, "")->configuration_hash,
-            pipeline::read_served_window(db, v1.model.id, "")->configuration_hash);
+  EXPECT_EQ(pipeline::read_served_window(db, v2.model.id, std::nullopt)->fit.factors, 2);
+  EXPECT_NE(pipeline::read_served_window(db, v2.model.id, std::nullopt)->configuration_hash,
+            pipeline::read_served_window(db, v1.model.id, std::nullopt)->configuration_hash);
 }
 
 // The ML stopping rule's tolerance is a model option. Left at its default it does not enter
@@ -223,7 +223,7 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
     EXPECT_TRUE(std::isfinite(w.largest_scaled_gradient)) << w.as_of;
     EXPECT_LE(w.largest_scaled_gradient, 1e-8) << w.as_of;
   }
-  const auto first = pipeline::read_served_window(db, v1.model.id, "");
+  const auto first = pipeline::read_served_window(db, v1.model.id, std::nullopt);
   EXPECT_EQ(first->fit.tolerance, 1e-8);
   EXPECT_EQ(first->fit.iterations, first->fit.em_passes + first->fit.newton_steps + first->fit.profile_steps);
 
@@ -238,7 +238,7 @@ TEST(Refresh, ToleranceIsAModelOptionAndStoredWindowsCarryTheCriterion) {
     EXPECT_EQ(w.termination, "converged");
     EXPECT_LE(w.largest_scaled_gradient, 1e-12) << w.as_of;
   }
-  EXPECT_EQ(pipeline::read_served_window(db, v2.model.id, "")->fit.tolerance, 1e-12);
+  EXPECT_EQ(pipeline::read_served_window(db, v2.model.id, std::nullopt)->fit.tolerance, 1e-12);
 
   tighter.fit.tolerance = 0.5;
   const auto failure = tighter.FirstFailure();
@@ -257,7 +257,7 @@ TEST(Refresh, WindowFromBeforeTheGradientRuleReadsWithoutACriterion) {
   pipeline::refresh_model(db, "m");
   db.sql().exec("UPDATE windows SET statistics = json_remove(statistics, '$.largest_scaled_gradient', "
                 "'$.tolerance', '$.em_passes', '$.newton_steps')");
-  const auto w = pipeline::read_served_window(db, v1.model.id, "");
+  const auto w = pipeline::read_served_window(db, v1.model.id, std::nullopt);
   ASSERT_TRUE(w);
   EXPECT_TRUE(std::isnan(w->fit.largest_scaled_gradient));
   EXPECT_TRUE(std::isnan(w->fit.tolerance));
@@ -306,7 +306,7 @@ TEST(Refresh, EveryWindowRecordsTheBuildThatFittedIt) {
     ADD_FAILURE() << "a damaged provenance was read";
   } catch (const storage::DamagedData& e) {
     EXPECT_NE(std::string(e.what()).find("provenance"), std::string::npos) << e.what();
-    EXPECT_NE(std::string(e.what()).find(summaries.back().as_of), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find(summaries.back().as_of.iso()), std::string::npos) << e.what();
   }
 }
 
@@ -362,7 +362,7 @@ TEST(Refresh, UniverseListRestrictsTheAssets) {
   config.universe.push_back("ZQ-not-yet-listed");
   storage::set_model(db, "part", config);
   pipeline::refresh_model(db, "part");
-  const auto w = pipeline::read_served_window(db, storage::find_model(db, "part")->id, "");
+  const auto w = pipeline::read_served_window(db, storage::find_model(db, "part")->id, std::nullopt);
   ASSERT_TRUE(w);
   EXPECT_EQ(w->fit.assets, std::vector<std::string>(p.assets.begin() + 10, p.assets.begin() + 30));
 }

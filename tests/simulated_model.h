@@ -37,7 +37,7 @@ inline PlantedModel simulate_planted_model(int T, int N, int k, unsigned seed) {
     for (int i = 0; i < N; ++i)
       m.panel.values(t, i) = m.mean[i] + m.loadings.row(i).dot(m.factors.row(t)) +
                              std::sqrt(m.specific_variance[i]) * normal(rng);
-    m.panel.dates.push_back("d" + std::to_string(t));
+    m.panel.dates.push_back(engine::Date::from_days(t));  // positions; no calendar is simulated
   }
   for (int i = 0; i < N; ++i) m.panel.assets.push_back("P" + std::to_string(1000 + i));
   return m;

@@ -29,8 +29,8 @@ class NightlyRoutine : public ::testing::Test {
     night.values = p.values.bottomRows(1);
     factorwatch::testing::write_long_csv(dir.file("history.csv"), history);
     factorwatch::testing::write_long_csv(dir.file("night.csv"), night);
-    last_date = p.dates.back();
-    before_last = p.dates[128];
+    last_date = p.dates.back().iso();
+    before_last = p.dates[128].iso();
   }
   TempDir dir;
   std::string last_date, before_last;

@@ -11,6 +11,7 @@
 #include <filesystem>
 #include <fstream>
 #include <iterator>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
@@ -39,24 +40,37 @@ class TempDir {
   std::string path_;
 };
 
-// Monday-to-Friday ISO dates from 2021-01-04 (a Monday).
-inline std::vector<std::string> business_dates(int count) {
-  static const int month_days[] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
-  std::vector<std::string> out;
-  int y = 2021, m = 1, d = 4, weekday = 0;  // 0 = Monday
-  while (static_cast<int>(out.size()) < count) {
-    if (weekday < 5) {
-      char text[40];
-      std::snprintf(text, sizeof text, "%04d-%02d-%02d", y, m, d);
-      out.push_back(text);
-    }
-    weekday = (weekday + 1) % 7;
-    const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
-    if (++d > month_days[m - 1] + (m == 2 && leap)) {
-      d = 1;
-      if (++m > 12) m = 1, ++y;
-    }
+// Monday-to-Friday dates from 2021-01-04 (a Monday).
+inline std::vector<engine::Date> business_dates(int count) {
+  std::vector<engine::Date> out;
+  engine::Date d = *engine::Date::from_iso("2021-01-04");
+  for (int weekday = 0; static_cast<int>(out.size()) < count; weekday = (weekday + 1) % 7) {  // 0 = Monday
+    if (weekday < 5) out.push_back(d);
+    d = engine::Date::from_days(d.days() + 1);
   }
+  return out;
+}
+
+// A date written in a test; the test is wrong when it is not one.
+inline engine::Date day(const char* iso) {
+  const auto d = engine::Date::from_iso(iso);
+  if (!d) throw std::invalid_argument(std::string("test date '") + iso + "' is not a date");
+  return *d;
+}
+
+// Dates written as text (a generated universe's calendar, a reference file's column).
+inline std::vector<engine::Date> dates_of(const std::vector<std::string>& iso) {
+  std::vector<engine::Date> out;
+  out.reserve(iso.size());
+  for (const std::string& text : iso) out.push_back(day(text.c_str()));
+  return out;
+}
+
+// The dates as text, for files and command lines a test writes.
+inline std::vector<std::string> iso_texts(const std::vector<engine::Date>& dates) {
+  std::vector<std::string> out;
+  out.reserve(dates.size());
+  for (engine::Date d : dates) out.push_back(d.iso());
   return out;
 }
 
@@ -70,7 +84,7 @@ inline void write_long_csv(const std::string& path, const engine::ReturnsPanel& 
       const double v = panel.values(t, i);
       if (v != v) continue;
       std::snprintf(number, sizeof number, "%.17g", v);
-      out << panel.dates[static_cast<std::size_t>(t)] << ',' << panel.assets[static_cast<std::size_t>(i)] << ','
+      out << panel.dates[static_cast<std::size_t>(t)].iso() << ',' << panel.assets[static_cast<std::size_t>(i)] << ','
           << number << '\n';
     }
 }

@@ -123,8 +123,8 @@ class DamagedDatabase : public ::testing::Test {
     ASSERT_EQ(run("model set m " + model_options()).status, 0);
   }
   fw::CommandResult run(const std::string& arguments) { return fw::run_factorwatch(dir_.path(), arguments); }
-  std::string as_of(int index) const { return panel_.dates[static_cast<std::size_t>(index)]; }
-  std::string key(int index) const { return std::to_string(storage::date_key(as_of(index))); }
+  std::string as_of(int index) const { return panel_.dates[static_cast<std::size_t>(index)].iso(); }
+  std::string key(int index) const { return std::to_string(panel_.dates[static_cast<std::size_t>(index)].key()); }
 
   TempDir dir_;
   engine::ReturnsPanel panel_;

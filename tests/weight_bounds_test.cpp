@@ -25,7 +25,7 @@ namespace fw = factorwatch::storage;
 namespace fwt = factorwatch::testing;
 using nlohmann::json;
 
-fw::PortfolioFileOptions book() { return {"book", "2024-01-31", ""}; }
+fw::PortfolioFileOptions book() { return {"book", factorwatch::testing::day("2024-01-31"), ""}; }
 
 void expect_refused(const std::string& text, std::size_t line, const std::string& field, const std::string& words) {
   try {

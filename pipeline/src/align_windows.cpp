@@ -24,7 +24,6 @@ namespace {
 using storage::AlignmentState;
 using storage::AlignTo;
 using storage::Database;
-using storage::iso_date;
 using storage::ModelConfig;
 using storage::ModelVersion;
 using storage::WindowAlignment;
@@ -40,8 +39,8 @@ engine::NamedLoadings standardized(const engine::FactorFit& fit) { return {fit.a
 
 // A stored window as served (its rotation and its stored alignment applied); nullopt when
 // it is missing or its fit is not usable.
-std::optional<engine::FactorFit> served_window(Database& db, long model_version_id, std::int32_t as_of) {
-  auto w = read_served_window(db, model_version_id, iso_date(as_of), false);
+std::optional<engine::FactorFit> served_window(Database& db, long model_version_id, engine::Date as_of) {
+  auto w = read_served_window(db, model_version_id, as_of, false);
   if (!w || !w->fit.IsSolutionUsable()) return std::nullopt;
   return std::move(w->fit);
 }
@@ -54,11 +53,11 @@ bool below(double congruence, double threshold) {
 // With `prior` (the previous window's congruences against the same pinned window), a
 // factor is flagged only when it falls below the threshold, not again in every later
 // window that stays below: a change since the pinned window is news once.
-std::size_t write_drift(Database& db, long long window_id, const char* against, std::int32_t against_as_of,
+std::size_t write_drift(Database& db, long long window_id, const char* against, engine::Date against_as_of,
                         const engine::DriftComparison& d, double threshold, const Eigen::VectorXd* prior = nullptr) {
   storage::DriftRecord record;
   record.against = against;
-  record.against_as_of = iso_date(against_as_of);
+  record.against_as_of = against_as_of;
   record.status = engine::to_string(d.status);
   record.shared = static_cast<long long>(d.assets.size());
   record.congruence = d.congruence;
@@ -94,7 +93,7 @@ std::size_t write_drift(Database& db, long long window_id, const char* against, 
 
 }  // namespace
 
-void FittedWindows::keep(std::int32_t as_of, const WindowRecord& record) {
+void FittedWindows::keep(engine::Date as_of, const WindowRecord& record) {
   const engine::FactorFit& f = record.fit;
   // The matrices and the asset names dominate; strings count at a typical 40 bytes.
   const std::size_t size = sizeof(double) * static_cast<std::size_t>(f.loadings.size() + 8 * f.assets.size() +
@@ -105,7 +104,7 @@ void FittedWindows::keep(std::int32_t as_of, const WindowRecord& record) {
   records_[as_of] = record;
 }
 
-std::optional<WindowRecord> FittedWindows::take(std::int32_t as_of) {
+std::optional<WindowRecord> FittedWindows::take(engine::Date as_of) {
   const auto it = records_.find(as_of);
   if (it == records_.end()) return std::nullopt;
   std::optional<WindowRecord> out = std::move(it->second);
@@ -124,12 +123,11 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
 
   std::size_t pinned = kNone;
   if (!rows.empty()) {
-    if (c.pinned_window.empty()) {
+    if (!c.pinned_window) {
       pinned = 0;
     } else {
-      const std::int32_t key = storage::date_key(c.pinned_window, "pinned window");
       for (std::size_t i = 0; i < rows.size() && pinned == kNone; ++i)
-        if (rows[i].as_of >= key) pinned = i;
+        if (rows[i].as_of >= *c.pinned_window) pinned = i;
     }
   }
   std::size_t start = static_cast<std::size_t>(missing - rows.begin());
@@ -140,7 +138,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
   const std::string kind = to_string(c.align_to);
 
   std::optional<engine::FactorFit> previous;  // served, the last usable window before the current one
-  std::int32_t previous_as_of = 0;
+  engine::Date previous_as_of;
   std::optional<engine::FactorFit> pinned_fit;  // served
   bool pinned_known = false;
   std::unique_ptr<engine::SmoothedReference> smooth;
@@ -163,7 +161,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
   }
   // Aligned onto the pinned window, that window's frame is its own (rotated) fit.
   if (c.align_to == AlignTo::pinned && pinned != kNone && !pinned_known) {
-    if (auto w = read_window(db, model.id, iso_date(rows[pinned].as_of), false);
+    if (auto w = read_window(db, model.id, rows[pinned].as_of, false);
         w && w->fit.IsSolutionUsable()) {
       engine::change_factor_basis(w->fit, w->rotation);
       pinned_fit = std::move(w->fit);
@@ -189,8 +187,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       if (j == pinned) {
         prior_pinned = at_pinned;
       } else {
-        const std::string date = iso_date(rows[j].as_of);
-        const auto stored = read_drift(db, model.id, date, date, "pinned");
+        const auto stored = read_drift(db, model.id, rows[j].as_of, rows[j].as_of, "pinned");
         prior_pinned = stored.empty() ? at_pinned : stored.front().congruence;
       }
     }
@@ -208,7 +205,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       return run;
     }
     std::optional<WindowRecord> record = fitted ? fitted->take(rows[i].as_of) : std::nullopt;
-    if (!record) record = read_window(db, model.id, iso_date(rows[i].as_of), false);
+    if (!record) record = read_window(db, model.id, rows[i].as_of, false);
     if (!transaction) transaction.emplace(db);
     storage::forget_drift(db, rows[i].window_id);
     WindowAlignment row;
@@ -232,7 +229,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       case AlignTo::previous:
         if (previous) {
           reference = standardized(*previous);
-          row.reference_as_of = iso_date(previous_as_of);
+          row.reference_as_of = previous_as_of;
         } else {
           no_reference = "the first usable window: the frame later windows are chained to";
         }
@@ -242,9 +239,9 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
           no_reference = "the pinned window: the frame the other windows are aligned to";
         } else if (pinned_fit) {
           reference = standardized(*pinned_fit);
-          row.reference_as_of = iso_date(rows[pinned].as_of);
+          row.reference_as_of = rows[pinned].as_of;
         } else {
-          no_reference = pinned == kNone ? "the pinned window " + c.pinned_window + " is not fitted yet"
+          no_reference = pinned == kNone ? "the pinned window " + engine::iso_or_empty(c.pinned_window) + " is not fitted yet"
                                          : "the pinned window's fit is not usable";
         }
         break;
@@ -268,7 +265,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     }
 
     if (previous) {
-      const bool in_its_basis = aligned_directly_onto(&row, iso_date(previous_as_of));
+      const bool in_its_basis = aligned_directly_onto(&row, previous_as_of);
       run.alerts += write_drift(db, rows[i].window_id, "previous", previous_as_of,
                                 compare_served(fit, *previous, min_shared, in_its_basis), c.alert_below);
     }
@@ -277,7 +274,7 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
       if (i < pinned) {
         deferred.push_back(i);  // compared after the loop, walking back from the pinned window
       } else if (pinned_fit) {
-        const bool in_its_basis = aligned_directly_onto(&row, iso_date(rows[pinned].as_of));
+        const bool in_its_basis = aligned_directly_onto(&row, rows[pinned].as_of);
         const engine::DriftComparison d = compare_served(fit, *pinned_fit, min_shared, in_its_basis);
         run.alerts += write_drift(db, rows[i].window_id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned,
                                   prior_pinned ? &*prior_pinned : nullptr);
@@ -297,13 +294,13 @@ AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::a
     std::optional<Eigen::VectorXd> prior = at_pinned;
     for (auto it = deferred.rbegin(); it != deferred.rend(); ++it) {
       const std::size_t i = *it;
-      const std::optional<WindowRecord> w = read_served_window(db, model.id, iso_date(rows[i].as_of), false);
+      const std::optional<WindowRecord> w = read_served_window(db, model.id, rows[i].as_of, false);
       if (!w || !w->fit.IsSolutionUsable()) continue;
       if (!transaction) transaction.emplace(db);
       storage::forget_drift(db, rows[i].window_id, "pinned");
       const engine::DriftComparison d =
           compare_served(w->fit, *pinned_fit, min_shared,
-                         aligned_directly_onto(w->alignment ? &*w->alignment : nullptr, iso_date(rows[pinned].as_of)));
+                         aligned_directly_onto(w->alignment ? &*w->alignment : nullptr, rows[pinned].as_of));
       run.alerts += write_drift(db, rows[i].window_id, "pinned", rows[pinned].as_of, d, c.alert_below_pinned, &*prior);
       if (d.status == engine::DriftStatus::compared) prior = d.congruence;
       if (++in_transaction == kWindowsPerCommit) commit();

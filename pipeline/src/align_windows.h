@@ -38,13 +38,13 @@ struct AlignmentRun {
 // hold the doubles, JSON round-trips them). Bounded in memory; what does not fit is read.
 class FittedWindows {
  public:
-  void keep(std::int32_t as_of, const WindowRecord& record);
-  std::optional<WindowRecord> take(std::int32_t as_of);  // nullopt when not kept
+  void keep(engine::Date as_of, const WindowRecord& record);
+  std::optional<WindowRecord> take(engine::Date as_of);  // nullopt when not kept
 
  private:
   static constexpr std::size_t kMaxBytes = std::size_t{512} << 20;
   std::size_t bytes_ = 0;
-  std::map<std::int32_t, WindowRecord> records_;
+  std::map<engine::Date, WindowRecord> records_;
 };
 
 AlignmentRun align_windows(Database& db, const ModelVersion& model, const std::atomic<bool>* stop,

@@ -7,7 +7,6 @@
 
 #include "factorwatch/pipeline/window_query.h"
 #include "factorwatch/storage/assets.h"
-#include "factorwatch/storage/timestamps.h"
 #include "factorwatch/storage/windows.h"
 
 namespace factorwatch::pipeline {
@@ -15,10 +14,7 @@ namespace {
 
 // The model and the range, checked in the order a reader would fix them.
 QueryFailure check_range(storage::Database& db, const RangeQuery& q, storage::ModelVersion& model) {
-  if (auto f = check_date("from", q.from)) return f;
-  if (auto f = check_date("to", q.to)) return f;
-  if (!q.from.empty() && !q.to.empty() && q.to < q.from)  // ISO dates order as text
-    return engine::failure(engine::FailureKind::bad_input, "to", q.to, "before the start of the range, " + q.from);
+  if (auto f = reversed_range(q)) return f;
   const auto found = storage::find_model(db, q.model);
   if (!found) return unknown_model(q.model);
   model = *found;
@@ -27,9 +23,17 @@ QueryFailure check_range(storage::Database& db, const RangeQuery& q, storage::Mo
 
 }  // namespace
 
-QueryFailure check_date(const std::string& field, const std::string& value) {
-  if (value.empty() || storage::is_calendar_date(value)) return std::nullopt;
-  return engine::failure(engine::FailureKind::bad_input, field, value, "not a date in the form yyyy-mm-dd");
+QueryFailure reversed_range(const RangeQuery& q) {
+  if (!q.from || !q.to || !(*q.to < *q.from)) return std::nullopt;
+  return engine::failure(engine::FailureKind::bad_input, "to", q.to->iso(), "before the start of the range, " + q.from->iso());
+}
+
+QueryFailure read_date(const std::string& field, const std::string& text, std::optional<engine::Date>& date) {
+  date.reset();
+  if (text.empty()) return std::nullopt;
+  date = engine::Date::from_iso(text);
+  if (date) return std::nullopt;
+  return engine::failure(engine::FailureKind::bad_input, field, text, "not a date in the form yyyy-mm-dd");
 }
 
 
@@ -75,26 +79,25 @@ QueryFailure find_drift_series(storage::Database& db, const RangeQuery& q, const
   return std::nullopt;
 }
 
-QueryFailure find_window_drift(storage::Database& db, const std::string& model, const std::string& window,
+QueryFailure find_window_drift(storage::Database& db, const std::string& model, std::optional<engine::Date> window,
                                const std::string& against_text, WindowDrift& out) {
   const std::string against = against_text.empty() ? "previous" : against_text;
   if (against != "previous" && against != "pinned")
     return engine::failure(engine::FailureKind::bad_input, "against", against_text,
                    "must be previous or pinned when one window is compared");
-  if (window.empty()) return engine::failure(engine::FailureKind::bad_input, "window", window, "give the window's as-of date");
-  if (auto f = check_date("window", window)) return f;
+  if (!window) return engine::failure(engine::FailureKind::bad_input, "window", "", "give the window's as-of date");
   const auto found = storage::find_model(db, model);
   if (!found) return unknown_model(model);
   out.model = *found;
   const auto stamp = storage::find_window_stamp(db, out.model.id, window, true);
   if (!stamp) {
-    engine::Failure f = engine::failure(engine::FailureKind::not_stored, "window", window,
-                                        "model '" + model + "' has no window on or before " + window + " yet");
+    engine::Failure f = engine::failure(engine::FailureKind::not_stored, "window", window->iso(),
+                                        "model '" + model + "' has no window on or before " + window->iso() + " yet");
     f.refresh_helps = true;
     return f;
   }
-  if (stamp->as_of != window)
-    out.note = "no window ends on " + window + "; showing the latest before it, as of " + stamp->as_of;
+  if (stamp->as_of != *window)
+    out.note = "no window ends on " + window->iso() + "; showing the latest before it, as of " + stamp->as_of.iso();
   auto records = storage::read_drift(db, out.model.id, stamp->as_of, stamp->as_of, against);
   if (records.empty()) {
     // Why: not aligned yet (a refresh stores it), not usable, or nothing to compare with.
@@ -104,8 +107,8 @@ QueryFailure find_window_drift(storage::Database& db, const std::string& model, 
                           ? "its fit is not usable"
                           : "there is no usable " + against + " window to compare it with" +
                                 (against == "pinned" ? " (it may be the pinned window itself)" : "");
-    engine::Failure f = engine::failure(engine::FailureKind::not_stored, "window", window,
-                                        "the window as of " + stamp->as_of + " has no comparison with the " +
+    engine::Failure f = engine::failure(engine::FailureKind::not_stored, "window", window->iso(),
+                                        "the window as of " + stamp->as_of.iso() + " has no comparison with the " +
                                             against + " window: " + why);
     f.refresh_helps = !alignment;
     return f;
@@ -114,9 +117,9 @@ QueryFailure find_window_drift(storage::Database& db, const std::string& model, 
   auto comparison = compare_stored_windows(db, out.model.id, out.record.as_of, out.record.against_as_of,
                                                     out.model.config.effective_min_shared_assets());
   if (!comparison)
-    return engine::failure(engine::FailureKind::not_stored, "window", window,
-                   "the window as of " + out.record.as_of + " or the window it was compared with (" +
-                       out.record.against_as_of + ") is no longer stored as a usable fit");
+    return engine::failure(engine::FailureKind::not_stored, "window", window->iso(),
+                   "the window as of " + out.record.as_of.iso() + " or the window it was compared with (" +
+                       out.record.against_as_of.iso() + ") is no longer stored as a usable fit");
   out.comparison = std::move(*comparison);
   // Largest change of the whole standardized row first (the norm over the factors, the
   // measure the stored mean_exposure_change averages); ties keep the window's asset order.

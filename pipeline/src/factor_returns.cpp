@@ -13,7 +13,6 @@ namespace factorwatch::pipeline {
 namespace {
 
 using storage::Database;
-using storage::date_key;
 using storage::WindowRecord;
 using storage::WindowSummary;
 
@@ -22,12 +21,12 @@ using storage::WindowSummary;
 constexpr std::size_t kDatesPerSpan = 250;
 
 std::string unusable(const WindowRecord& w) {
-  return "window " + w.as_of + " is not usable (" + engine::to_string(w.fit.termination) + ": " + w.fit.message + ")";
+  return "window " + w.as_of.iso() + " is not usable (" + engine::to_string(w.fit.termination) + ": " + w.fit.message + ")";
 }
 
-std::string no_window(const std::string& as_of, bool at_or_before) {
-  if (as_of.empty()) return "the model version has no window yet";
-  return at_or_before ? "no window at or before " + as_of : "no window with as-of date " + as_of;
+std::string no_window(std::optional<engine::Date> as_of, bool at_or_before) {
+  if (!as_of) return "the model version has no window yet";
+  return (at_or_before ? "no window at or before " : "no window with as-of date ") + as_of->iso();
 }
 
 // The stored returns of the window's dates and fitted assets, read as the refresh reads them.
@@ -35,7 +34,7 @@ engine::ReturnsPanel window_panel(Database& db, const WindowRecord& w) {
   const std::vector<std::int32_t> ids = storage::stored_asset_ids(db, w.fit.assets);
   engine::ReturnsPanel panel;
   if (ids.empty()) return panel;  // an empty universe would mean every stored asset
-  const storage::ReturnsSpan span(db, date_key(w.first_date), date_key(w.as_of), ids);
+  const storage::ReturnsSpan span(db, w.first_date, w.as_of, ids);
   return span.window(0, span.dates().size());
 }
 
@@ -46,7 +45,7 @@ struct ScoredWindow {
   engine::FactorScores scores;
 };
 
-ScoredWindow score_window(Database& db, long model_version_id, const std::string& as_of, engine::ScoreMethod method,
+ScoredWindow score_window(Database& db, long model_version_id, std::optional<engine::Date> as_of, engine::ScoreMethod method,
                           bool at_or_before) {
   ScoredWindow s;
   s.window = read_served_window(db, model_version_id, as_of, at_or_before);
@@ -63,14 +62,14 @@ ScoredWindow score_window(Database& db, long model_version_id, const std::string
   return s;
 }
 
-bool in_range(const std::string& as_of, const std::string& from, const std::string& to) {
-  // ISO dates order as text.
-  return (from.empty() || as_of >= from) && (to.empty() || as_of <= to);
+bool in_range(engine::Date as_of, std::optional<engine::Date> from, std::optional<engine::Date> to) {
+  return (!from || as_of >= *from) && (!to || as_of <= *to);
 }
 
 }  // namespace
 
-WindowScores window_scores(Database& db, long model_version_id, const std::string& as_of, engine::ScoreMethod method,
+WindowScores window_scores(Database& db, long model_version_id, std::optional<engine::Date> as_of,
+                           engine::ScoreMethod method,
                            bool at_or_before) {
   ScoredWindow s = score_window(db, model_version_id, as_of, method, at_or_before);
   WindowScores out;
@@ -88,13 +87,11 @@ WindowScores window_scores(Database& db, long model_version_id, const std::strin
 // alignment rotates every window's factors onto its reference, so factor j keeps its
 // meaning from one window to the next and the nightly scores form one comparable series,
 // while each night is scored with the model that was current that night (no look-ahead).
-FactorReturnSeries factor_return_series(Database& db, long model_version_id, const std::string& from,
-                                        const std::string& to, engine::ScoreMethod method) {
-  if (!from.empty()) date_key(from, "from date");  // throws on a malformed date
-  if (!to.empty()) date_key(to, "to date");
+FactorReturnSeries factor_return_series(Database& db, long model_version_id, std::optional<engine::Date> from,
+                                        std::optional<engine::Date> to, engine::ScoreMethod method) {
   FactorReturnSeries series;
   series.method = method;
-  std::vector<std::string> usable;
+  std::vector<engine::Date> usable;
   for (const WindowSummary& w : storage::list_windows(db, model_version_id)) {
     if (!in_range(w.as_of, from, to)) continue;
     if (w.usable)
@@ -108,17 +105,16 @@ FactorReturnSeries factor_return_series(Database& db, long model_version_id, con
   // reading them); the engine ignores the columns a window did not fit.
   for (std::size_t chunk = 0; chunk < usable.size(); chunk += kDatesPerSpan) {
     const std::size_t end = std::min(usable.size(), chunk + kDatesPerSpan);
-    const storage::ReturnsSpan span(db, date_key(usable[chunk]), date_key(usable[end - 1]), {});
-    const std::vector<std::int32_t>& dates = span.dates();
+    const storage::ReturnsSpan span(db, usable[chunk], usable[end - 1], {});
+    const std::vector<engine::Date>& dates = span.dates();
     for (std::size_t u = chunk; u < end; ++u) {
       const std::optional<WindowRecord> w = read_served_window(db, model_version_id, usable[u], false);
       if (!w) {  // replaced under us by a refit of another version: nothing to score
         series.skipped.push_back({usable[u], "the window is no longer stored"});
         continue;
       }
-      const std::int32_t key = date_key(w->as_of);
-      const auto at = std::lower_bound(dates.begin(), dates.end(), key);
-      if (at == dates.end() || *at != key) {
+      const auto at = std::lower_bound(dates.begin(), dates.end(), w->as_of);
+      if (at == dates.end() || *at != w->as_of) {
         series.skipped.push_back({w->as_of, "no stored returns on the as-of date"});
         continue;
       }
@@ -139,7 +135,8 @@ FactorReturnSeries factor_return_series(Database& db, long model_version_id, con
   return series;
 }
 
-AssetResiduals asset_residuals(Database& db, long model_version_id, const std::string& as_of, const std::string& asset,
+AssetResiduals asset_residuals(Database& db, long model_version_id, std::optional<engine::Date> as_of,
+                               const std::string& asset,
                                engine::ScoreMethod method, bool at_or_before) {
   AssetResiduals out;
   out.asset = asset;
@@ -158,9 +155,9 @@ AssetResiduals asset_residuals(Database& db, long model_version_id, const std::s
   }
   const auto found = std::find(fit.assets.begin(), fit.assets.end(), asset);
   if (found == fit.assets.end()) {
-    out.failure = "asset '" + asset + "' is not in window " + window->as_of + ": no returns in the window";
+    out.failure = "asset '" + asset + "' is not in window " + window->as_of.iso() + ": no returns in the window";
     for (const engine::ExcludedAsset& e : fit.excluded)
-      if (e.asset == asset) out.failure = "asset '" + asset + "' is not in window " + window->as_of + ": " + e.reason;
+      if (e.asset == asset) out.failure = "asset '" + asset + "' is not in window " + window->as_of.iso() + ": " + e.reason;
     return out;
   }
   const auto i = static_cast<Eigen::Index>(found - fit.assets.begin());

@@ -4,7 +4,6 @@
 #include <stdexcept>
 
 #include "factorwatch/storage/assets.h"
-#include "factorwatch/storage/timestamps.h"
 
 namespace factorwatch::pipeline {
 namespace {
@@ -27,7 +26,7 @@ QueryFailure select_window(storage::Database& db, const WindowQuery& q, Selected
   if (pick.failure) {
     engine::Failure f = *pick.failure;
     if (f.field == "as_of") f.field = "window";  // what these requests call the window's date
-    if (f.kind == engine::FailureKind::bad_input || f.kind == engine::FailureKind::not_stored) f.value = q.as_of;
+    if (f.kind == engine::FailureKind::bad_input || f.kind == engine::FailureKind::not_stored) f.value = engine::iso_or_empty(q.as_of);
     // A refresh helps a model without windows; a date before the first window it does not.
     if (f.kind == engine::FailureKind::not_stored) f.refresh_helps = storage::count_windows(db, pick.model.id).windows == 0;
     return f;
@@ -35,7 +34,7 @@ QueryFailure select_window(storage::Database& db, const WindowQuery& q, Selected
   try {
     out = read_picked_window(db, pick, q);
   } catch (const std::runtime_error& e) {  // replaced by a refit between the two reads
-    return engine::failure(engine::FailureKind::not_stored, "window", q.as_of, e.what());
+    return engine::failure(engine::FailureKind::not_stored, "window", engine::iso_or_empty(q.as_of), e.what());
   }
   return std::nullopt;
 }
@@ -68,10 +67,7 @@ QueryFailure find_factor_return_series(storage::Database& db, const RangeQuery& 
                                        FactorReturnSeriesAnswer& out) {
   engine::ScoreMethod method{};
   if (auto f = parse_method(method_text, method)) return f;
-  if (auto f = check_date("from", q.from)) return f;
-  if (auto f = check_date("to", q.to)) return f;
-  if (!q.from.empty() && !q.to.empty() && q.to < q.from)  // ISO dates order as text
-    return engine::failure(engine::FailureKind::bad_input, "to", q.to, "before the start of the range, " + q.from);
+  if (auto f = reversed_range(q)) return f;
   const auto model = storage::find_model(db, q.model);
   if (!model) return unknown_model(q.model);
   out.model = *model;
@@ -81,33 +77,34 @@ QueryFailure find_factor_return_series(storage::Database& db, const RangeQuery& 
   return std::nullopt;
 }
 
-QueryFailure find_window_factor_returns(storage::Database& db, const std::string& model, const std::string& window,
-                                        const std::string& method_text, WindowFactorReturns& out) {
+QueryFailure find_window_factor_returns(storage::Database& db, const std::string& model,
+                                        std::optional<engine::Date> window, const std::string& method_text,
+                                        WindowFactorReturns& out) {
   engine::ScoreMethod method{};
   if (auto f = parse_method(method_text, method)) return f;
-  if (auto f = check_date("window", window)) return f;
   if (auto f = select_window(db, WindowQuery{model, window, {}}, out.window)) return f;
   WindowScores s = window_scores(db, out.window.model.id, out.window.window.as_of, method, false);
-  if (!s.ok()) return engine::failure(engine::FailureKind::not_stored, "window", window, s.failure);
+  if (!s.ok()) return engine::failure(engine::FailureKind::not_stored, "window", engine::iso_or_empty(window), s.failure);
   out.scores = std::move(s.scores);
   return std::nullopt;
 }
 
 QueryFailure find_asset_residuals(storage::Database& db, const std::string& model, const std::string& asset,
-                                  const std::string& window, const std::string& method_text, AssetResidualAnswer& out) {
+                                  std::optional<engine::Date> window, const std::string& method_text,
+                                  AssetResidualAnswer& out) {
   engine::ScoreMethod method{};
   if (auto f = parse_method(method_text, method)) return f;
   if (asset.empty()) return engine::failure(engine::FailureKind::bad_input, "asset", asset, "name the asset");
-  if (auto f = check_date("window", window)) return f;
   if (!storage::find_model(db, model)) return unknown_model(model);
   if (!storage::has_asset(db, asset))
     return engine::failure(engine::FailureKind::unknown_name, "asset", asset, "unknown asset (no returns stored)");
   if (auto f = select_window(db, WindowQuery{model, window, {asset}}, out.window)) return f;
   if (!out.window.missing.empty())
     return engine::failure(engine::FailureKind::unknown_name, "asset", asset,
-                   "not in the window as of " + out.window.window.as_of + ": " + out.window.missing.front().reason);
+                   "not in the window as of " + out.window.window.as_of.iso() + ": " + out.window.missing.front().reason);
   out.residuals = asset_residuals(db, out.window.model.id, out.window.window.as_of, asset, method, false);
-  if (!out.residuals.ok()) return engine::failure(engine::FailureKind::not_stored, "window", window, out.residuals.failure);
+  if (!out.residuals.ok())
+    return engine::failure(engine::FailureKind::not_stored, "window", engine::iso_or_empty(window), out.residuals.failure);
   return std::nullopt;
 }
 

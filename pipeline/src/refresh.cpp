@@ -19,8 +19,6 @@ namespace factorwatch::pipeline {
 namespace {
 
 using storage::Database;
-using storage::date_key;
-using storage::iso_date;
 using storage::ModelConfig;
 using storage::ModelVersion;
 using storage::WindowRecord;
@@ -35,32 +33,31 @@ constexpr std::size_t kWindowsPerSpan = 250;
 
 struct GridPoint {
   std::size_t index;  // of the as-of date in the stored dates
-  std::int32_t as_of;
+  engine::Date as_of;
 };
 
-std::vector<GridPoint> grid(const std::vector<std::int32_t>& dates, const ModelConfig& config) {
+std::vector<GridPoint> grid(const std::vector<engine::Date>& dates, const ModelConfig& config) {
   std::vector<GridPoint> points;
   const auto window = static_cast<std::size_t>(config.window);
-  const std::int32_t first = config.first_as_of.empty() ? 0 : date_key(config.first_as_of);
   for (std::size_t i = window - 1; i < dates.size(); i += static_cast<std::size_t>(config.step))
-    if (dates[i] >= first) points.push_back({i, dates[i]});
+    if (!config.first_as_of || dates[i] >= *config.first_as_of) points.push_back({i, dates[i]});
   return points;
 }
 
 // The stored dates, the model's grid on them, and which grid windows still need a fit
 // (none stored, or stale), from one read of the model version's windows.
 struct Plan {
-  std::vector<std::int32_t> dates;
+  std::vector<engine::Date> dates;
   std::vector<GridPoint> points;
   std::vector<std::size_t> pending;  // positions in `points`
-  std::set<std::int32_t> stale;      // as-of dates of stored windows marked stale
+  std::set<engine::Date> stale;      // as-of dates of stored windows marked stale
 };
 
 Plan make_plan(Database& db, const ModelVersion& model) {
   Plan plan;
   plan.dates = storage::stored_dates(db);
   plan.points = grid(plan.dates, model.config);
-  std::set<std::int32_t> current;
+  std::set<engine::Date> current;
   for (const storage::WindowState& w : storage::window_states(db, model.id))
     (w.stale ? plan.stale : current).insert(w.as_of);
   for (std::size_t p = 0; p < plan.points.size(); ++p)
@@ -74,10 +71,10 @@ engine::WarmStart warm_from(const engine::FactorFit& fit) {
 
 }  // namespace
 
-std::vector<std::string> pending_windows(Database& db, const ModelVersion& model) {
+std::vector<engine::Date> pending_windows(Database& db, const ModelVersion& model) {
   const Plan plan = make_plan(db, model);
-  std::vector<std::string> out;
-  for (std::size_t p : plan.pending) out.push_back(iso_date(plan.points[p].as_of));
+  std::vector<engine::Date> out;
+  for (std::size_t p : plan.pending) out.push_back(plan.points[p].as_of);
   return out;
 }
 
@@ -122,7 +119,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
   const ModelVersion* model = &m;
   const ModelConfig& config = model->config;
   const Plan plan = make_plan(db, *model);
-  const std::vector<std::int32_t>& dates = plan.dates;
+  const std::vector<engine::Date>& dates = plan.dates;
   if (dates.size() < static_cast<std::size_t>(config.window)) {
     summary.note = std::to_string(dates.size()) + " dates stored, fewer than the window of " +
                    std::to_string(config.window) + ": nothing to fit yet";
@@ -183,7 +180,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       if (p > 0) {
         if (previous_point != p - 1) {
           previous.reset();
-          if (auto stored = read_window(db, model->id, iso_date(points[p - 1].as_of), false))
+          if (auto stored = read_window(db, model->id, points[p - 1].as_of, false))
             previous = std::move(stored->fit);
         }
         if (previous && previous->IsSolutionUsable()) options.warm_start = warm_from(*previous);
@@ -195,7 +192,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       record.input_hash = storage::panel_fingerprint(panel);
       const std::uint64_t input_rows = span.rows_digest(begin, window);
       summary.read_seconds += since(t_read);  // cutting the window and fingerprinting it
-      record.as_of = iso_date(point.as_of);
+      record.as_of = point.as_of;
       record.first_date = panel.dates.front();
       record.configuration_hash = model->configuration_hash;
       record.provenance = engine::build_info();
@@ -213,12 +210,12 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       summary.write_seconds += since(t_write);
 
       ++summary.fitted;
-      if (summary.first_as_of.empty()) summary.first_as_of = record.as_of;
+      if (!summary.first_as_of) summary.first_as_of = record.as_of;
       summary.last_as_of = record.as_of;
-      fitted.keep(date_key(record.as_of), record);
+      fitted.keep(record.as_of, record);
       previous = std::move(record.fit);
       previous_point = p;
-      if (progress) progress({summary.fitted, pending.size(), summary.last_as_of, since(start)});
+      if (progress) progress({summary.fitted, pending.size(), record.as_of, since(start)});
     }
   }
   return Pass::done;

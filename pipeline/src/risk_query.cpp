@@ -58,10 +58,11 @@ bool figures_finite(const engine::PortfolioRisk& r) {
 // not. A book that cannot be measured, or whose figures overflow, is refused naming its
 // weights (`field`), rather than shown as nulls.
 std::optional<engine::Failure> measure(storage::Database& db, const WindowRiskModel& w, std::string role,
-                                       std::string name, std::string as_of, const engine::Holdings& holdings,
+                                       std::string name, std::optional<engine::Date> as_of,
+                                       const engine::Holdings& holdings,
                                        const std::string& field, RiskReport& report) {
   if (auto f = engine::weights_failure(holdings, field)) return f;
-  RiskBook book{std::move(role), std::move(name), std::move(as_of), engine::portfolio_risk(w.risk, holdings)};
+  RiskBook book{std::move(role), std::move(name), as_of, engine::portfolio_risk(w.risk, holdings)};
   if (!figures_finite(book.risk))
     return engine::failure(engine::FailureKind::rejected, field, "",
                            "the risk figures of the " + book.role + " book" +
@@ -73,15 +74,15 @@ std::optional<engine::Failure> measure(storage::Database& db, const WindowRiskMo
   return std::nullopt;
 }
 
-// A stored portfolio's holdings at or before `as_of` ("" = the latest); when none are that
+// A stored portfolio's holdings at or before `as_of` (none = the latest); when none are that
 // old, the earliest stored, with a note saying so. nullopt when the name has none at all.
 std::optional<storage::Portfolio> holdings_near(storage::Database& db, const std::string& name,
-                                                const std::string& as_of, std::string& notes) {
+                                                std::optional<engine::Date> as_of, std::string& notes) {
   if (auto p = storage::read_portfolio(db, name, as_of)) return p;
   const auto dates = storage::portfolio_dates(db, name);
   if (dates.empty()) return std::nullopt;
-  add_note(notes, "'" + name + "' has no holdings at or before " + as_of + "; using its earliest, as of " +
-                      dates.front());
+  add_note(notes, "'" + name + "' has no holdings at or before " + engine::iso_or_empty(as_of) +
+                      "; using its earliest, as of " + dates.front().iso());
   return storage::read_portfolio(db, name, dates.front());
 }
 
@@ -104,33 +105,33 @@ std::shared_ptr<const WindowRiskModel> load_window_risk_model(storage::Database&
 RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const WindowPick& pick,
                         std::shared_ptr<const WindowRiskModel> window_model) {
   if (pick.failure) return refused(*pick.failure);
-  if (!q.portfolio_as_of.empty() && !storage::is_calendar_date(q.portfolio_as_of))
-    return failed(engine::FailureKind::bad_input, "holdings_as_of",
-                  "'" + q.portfolio_as_of + "' is not a date (yyyy-mm-dd)");
 
   // The window first: the holdings date may follow from it.
   RiskOutcome out;
   RiskReport& report = out.report;
   report.window = window_model ? std::move(window_model) : load_window_risk_model(db, pick);
   const WindowRiskModel& w = *report.window;
-  if (!q.window.as_of.empty() && w.as_of != q.window.as_of)
-    add_note(report.note, "no window ends on " + q.window.as_of + "; using the latest before it, as of " + w.as_of);
+  if (q.window.as_of && w.as_of != *q.window.as_of)
+    add_note(report.note, "no window ends on " + q.window.as_of->iso() + "; using the latest before it, as of " +
+                              w.as_of.iso());
 
   // The portfolio's holdings, and which benchmark it is measured against.
   engine::Holdings holdings;
-  std::string portfolio_as_of, benchmark_name = q.benchmark;
-  const std::string holdings_date = !q.portfolio_as_of.empty() ? q.portfolio_as_of
-                                    : !q.window.as_of.empty()  ? w.as_of
-                                                               : "";
+  std::optional<engine::Date> portfolio_as_of;
+  std::string benchmark_name = q.benchmark;
+  const std::optional<engine::Date> holdings_date = q.portfolio_as_of ? q.portfolio_as_of
+                                                    : q.window.as_of  ? std::optional<engine::Date>(w.as_of)
+                                                                      : std::nullopt;
   if (q.holdings) {
     holdings = *q.holdings;
   } else {
-    const auto stored = q.portfolio_as_of.empty() ? holdings_near(db, q.portfolio, holdings_date, report.note)
-                                                  : storage::read_portfolio(db, q.portfolio, q.portfolio_as_of);
+    const auto stored = !q.portfolio_as_of ? holdings_near(db, q.portfolio, holdings_date, report.note)
+                                           : storage::read_portfolio(db, q.portfolio, q.portfolio_as_of);
     if (!stored) {
-      const bool has_dates = !q.portfolio_as_of.empty() && !storage::portfolio_dates(db, q.portfolio).empty();
+      const bool has_dates = q.portfolio_as_of && !storage::portfolio_dates(db, q.portfolio).empty();
       return failed(engine::FailureKind::unknown_name, has_dates ? "holdings_as_of" : "portfolio",
-                    has_dates ? "portfolio '" + q.portfolio + "' has no holdings at or before " + q.portfolio_as_of
+                    has_dates ? "portfolio '" + q.portfolio + "' has no holdings at or before " +
+                                    engine::iso_or_empty(q.portfolio_as_of)
                               : "no portfolio named '" + q.portfolio + "'");
     }
     holdings = stored->holdings;
@@ -138,10 +139,10 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
     if (benchmark_name.empty() && !q.benchmark_holdings && !q.no_benchmark) benchmark_name = stored->benchmark;
   }
   std::optional<engine::Holdings> benchmark = q.benchmark_holdings;
-  std::string benchmark_as_of;
+  std::optional<engine::Date> benchmark_as_of;
   if (!benchmark && !benchmark_name.empty() && !q.no_benchmark) {
     const auto stored =
-        holdings_near(db, benchmark_name, portfolio_as_of.empty() ? holdings_date : portfolio_as_of, report.note);
+        holdings_near(db, benchmark_name, portfolio_as_of ? portfolio_as_of : holdings_date, report.note);
     if (!stored)
       return failed(engine::FailureKind::unknown_name, "benchmark",
                     q.benchmark.empty() ? "portfolio '" + q.portfolio + "' names '" + benchmark_name +
@@ -162,14 +163,14 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
   if (benchmark) {
     if (auto f = measure(db, w, "benchmark", benchmark_name, benchmark_as_of, *benchmark, benchmark_field, report))
       return refused(*f);
-    if (auto f = measure(db, w, "active", "", "", engine::active_weights(holdings, *benchmark), benchmark_field, report))
+    if (auto f = measure(db, w, "active", "", std::nullopt, engine::active_weights(holdings, *benchmark), benchmark_field, report))
       return refused(*f);
   }
   if (q.trade) {
     const engine::Holdings after = engine::apply_trade(holdings, *q.trade);
     if (auto f = measure(db, w, "after_trade", name, portfolio_as_of, after, "trade", report)) return refused(*f);
     if (benchmark)
-      if (auto f = measure(db, w, "active_after_trade", "", "", engine::active_weights(after, *benchmark), "trade",
+      if (auto f = measure(db, w, "active_after_trade", "", std::nullopt, engine::active_weights(after, *benchmark), "trade",
                            report))
         return refused(*f);
   }

@@ -13,15 +13,15 @@ void serve_factors(engine::FactorFit& fit, const Eigen::MatrixXd& rotation, cons
 }
 
 std::optional<storage::WindowRecord> read_served_window(storage::Database& db, long model_version_id,
-                                                        const std::string& as_of, bool at_or_before) {
+                                                        std::optional<engine::Date> as_of, bool at_or_before) {
   std::optional<storage::WindowRecord> record = storage::read_window(db, model_version_id, as_of, at_or_before);
   if (record) serve_factors(record->fit, record->rotation, record->alignment ? &*record->alignment : nullptr);
   return record;
 }
 
 std::optional<engine::DriftComparison> compare_stored_windows(storage::Database& db, long model_version_id,
-                                                              const std::string& as_of,
-                                                              const std::string& against_as_of, int min_shared) {
+                                                              engine::Date as_of, engine::Date against_as_of,
+                                                              int min_shared) {
   const auto now = read_served_window(db, model_version_id, as_of, false);
   const auto then = read_served_window(db, model_version_id, against_as_of, false);
   if (!now || !then || !now->fit.IsSolutionUsable() || !then->fit.IsSolutionUsable()) return std::nullopt;
@@ -31,11 +31,11 @@ std::optional<engine::DriftComparison> compare_stored_windows(storage::Database&
 }
 
 std::vector<ExposurePoint> exposure_history(storage::Database& db, long model_version_id, const std::string& asset,
-                                            const std::string& from, const std::string& to) {
+                                            std::optional<engine::Date> from, std::optional<engine::Date> to) {
   std::vector<ExposurePoint> out;
   for (storage::StoredExposure& s : storage::read_stored_exposures(db, model_version_id, asset, from, to)) {
     ExposurePoint p;
-    p.as_of = std::move(s.as_of);
+    p.as_of = s.as_of;
     p.alignment = std::move(s.alignment);
     if (s.present) {
       // The served basis: rotation T, then alignment R (orthogonal, or a change of basis).

@@ -9,7 +9,7 @@ engine::WindowFactors factors_of(const engine::FactorFit& fit) {
   return {fit.assets, fit.loadings, fit.scale, fit.factor_covariance, fit.explained_share};
 }
 
-bool aligned_directly_onto(const storage::WindowAlignment* alignment, const std::string& as_of) {
+bool aligned_directly_onto(const storage::WindowAlignment* alignment, engine::Date as_of) {
   return alignment && alignment->status == engine::to_string(engine::AlignmentStatus::aligned) &&
          alignment->reference_as_of == as_of;
 }

@@ -16,7 +16,7 @@ engine::WindowFactors factors_of(const engine::FactorFit& fit);
 
 // True when the window was aligned directly onto the window of this as-of date: then it
 // already is in that window's basis. `alignment` null: not aligned yet.
-bool aligned_directly_onto(const storage::WindowAlignment* alignment, const std::string& as_of);
+bool aligned_directly_onto(const storage::WindowAlignment* alignment, engine::Date as_of);
 
 // Drift of `now` against `then`, after rotating `now` onto `then` (engine::rotated_onto:
 // what a chain of alignments accumulated is not drift), unless it already is in its basis.

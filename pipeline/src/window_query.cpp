@@ -5,7 +5,6 @@
 
 #include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/assets.h"
-#include "factorwatch/storage/date_key.h"
 
 namespace factorwatch::pipeline {
 
@@ -29,26 +28,20 @@ WindowPick pick_window(storage::Database& db, const WindowQuery& q) {
     return pick;
   }
   pick.model = *model;
-  std::optional<storage::WindowStamp> stamp;
-  try {
-    stamp = storage::find_window_stamp(db, model->id, q.as_of, true);
-  } catch (const std::invalid_argument& e) {  // the date's key: "as-of date 'x' is not a date ..."
-    pick.failure = engine::failure(engine::FailureKind::bad_input, "as_of", "", e.what());
-    return pick;
-  }
+  std::optional<storage::WindowStamp> stamp = storage::find_window_stamp(db, model->id, q.as_of, true);
   if (!stamp) {
     // Without a date there is nothing to name but the model. A refresh may store it (new
     // data, or a model never refreshed).
-    pick.failure = engine::failure(engine::FailureKind::not_stored, q.as_of.empty() ? "" : "as_of", "",
+    pick.failure = engine::failure(engine::FailureKind::not_stored, q.as_of ? "as_of" : "", "",
                                    "model '" + q.model + "' has no window" +
-                                       (q.as_of.empty() ? "" : " on or before " + q.as_of) + " yet");
+                                       (q.as_of ? " on or before " + q.as_of->iso() : "") + " yet");
     pick.failure->refresh_helps = true;
     return pick;
   }
   if (!stamp->usable) {
     // A failed fit's numbers are no model to serve or measure with.
     pick.failure = engine::failure(engine::FailureKind::not_usable, "as_of", "",
-                                   "the window as of " + stamp->as_of + " has no usable fit (" + stamp->termination +
+                                   "the window as of " + stamp->as_of.iso() + " has no usable fit (" + stamp->termination +
                                        "); ask for an earlier window");
   }
   pick.stamp = std::move(*stamp);
@@ -59,14 +52,14 @@ SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick,
   SelectedWindow s;
   s.model = pick.model;
   auto window = read_served_window(db, pick.model.id, pick.stamp.as_of, false);
-  if (!window) throw std::runtime_error("the window of " + pick.stamp.as_of + " was replaced while being read; ask again");
+  if (!window) throw std::runtime_error("the window of " + pick.stamp.as_of.iso() + " was replaced while being read; ask again");
   // The pick was usable; a refit in between may have stored a failed fit in its place.
   if (!window->fit.IsSolutionUsable())
-    throw std::runtime_error("the window of " + pick.stamp.as_of + " was refitted while being read, and the new fit "
+    throw std::runtime_error("the window of " + pick.stamp.as_of.iso() + " was refitted while being read, and the new fit "
                              "is not usable; ask again");
   s.window = std::move(*window);
-  if (!q.as_of.empty() && s.window.as_of != q.as_of)
-    s.note = "no window ends on " + q.as_of + "; showing the latest before it, as of " + s.window.as_of;
+  if (q.as_of && s.window.as_of != *q.as_of)
+    s.note = "no window ends on " + q.as_of->iso() + "; showing the latest before it, as of " + s.window.as_of.iso();
   const engine::FactorFit& fit = s.window.fit;
   if (q.assets.empty()) {
     s.rows.resize(fit.assets.size());
@@ -96,15 +89,14 @@ std::string factor_basis_text(const SelectedWindow& s) {
   const auto& a = s.window.alignment;
   if (!a) return text + "not aligned yet";
   if (a->status != "aligned") return text + "alignment: " + a->status;
-  return text + "aligned onto " + (a->reference_as_of.empty() ? "the smoothed reference" : a->reference_as_of) +
+  return text + "aligned onto " + (a->reference_as_of ? a->reference_as_of->iso() : "the smoothed reference") +
          " (" + a->reference + ")";
 }
 
 engine::Frequency window_frequency(const SelectedWindow& s) {
   const auto periods = s.window.fit.periods;
   if (periods < 2) return {};
-  const long days = storage::day_count(storage::date_key(s.window.as_of, "as-of date")) -
-                    storage::day_count(storage::date_key(s.window.first_date, "first date"));
+  const long days = engine::days_between(s.window.first_date, s.window.as_of);
   return engine::frequency_from_gap(static_cast<double>(days) / static_cast<double>(periods - 1));
 }
 

@@ -13,8 +13,8 @@ std::vector<AssetInfo> list_assets(Database& db) {
   while (q.executeStep()) {
     AssetInfo a;
     a.name = q.getColumn(0).getString();
-    if (!q.getColumn(1).isNull()) a.first_date = iso_date(q.getColumn(1).getInt());
-    if (!q.getColumn(2).isNull()) a.last_date = iso_date(q.getColumn(2).getInt());
+    if (!q.getColumn(1).isNull()) a.first_date = stored_date(q.getColumn(1).getInt());
+    if (!q.getColumn(2).isNull()) a.last_date = stored_date(q.getColumn(2).getInt());
     out.push_back(std::move(a));
   }
   return out;

@@ -42,25 +42,6 @@ std::string describe_bad_cell(Cell kind, std::string_view text) {
   return quoted(text) + " is not a number";
 }
 
-std::optional<std::int32_t> parse_iso_date(std::string_view text) {
-  if (text.size() != 10 || text[4] != '-' || text[7] != '-') return std::nullopt;
-  auto digits = [&](std::size_t from, std::size_t count) -> int {
-    int v = 0;
-    for (std::size_t i = from; i < from + count; ++i) {
-      if (text[i] < '0' || text[i] > '9') return -1;
-      v = v * 10 + (text[i] - '0');
-    }
-    return v;
-  };
-  const int year = digits(0, 4), month = digits(5, 2), day = digits(8, 2);
-  if (year < 1 || month < 1 || month > 12 || day < 1) return std::nullopt;
-  static constexpr int kDays[12] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
-  const bool leap = (year % 4 == 0 && year % 100 != 0) || year % 400 == 0;
-  const int month_days = kDays[month - 1] + (month == 2 && leap ? 1 : 0);
-  if (day > month_days) return std::nullopt;
-  return year * 10000 + month * 100 + day;
-}
-
 std::string shortest(double value) {
   char buffer[32];
   const auto result = std::to_chars(buffer, buffer + sizeof buffer, value);

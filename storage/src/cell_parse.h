@@ -19,10 +19,6 @@ Cell parse_cell(std::string_view text, double& value);
 // on gaps: what a gap is differs between a returns file and a matrix).
 std::string describe_bad_cell(Cell kind, std::string_view text);
 
-// yyyy-mm-dd naming a real calendar date (proleptic Gregorian, years 0001-9999);
-// returns yyyy * 10000 + mm * 100 + dd, which sorts like the dates.
-std::optional<std::int32_t> parse_iso_date(std::string_view text);
-
 // The cell in single quotes for a message, shortened when long; always valid UTF-8.
 std::string quoted(std::string_view text);
 

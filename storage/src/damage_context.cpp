@@ -18,7 +18,7 @@ std::string window_place(Database& db, long long model_version_id, std::int32_t 
   } catch (const std::exception&) {
     // The numeric id is still a place to start from.
   }
-  return model + ", window " + iso_date(as_of) + (table ? std::string(", table ") + table : std::string());
+  return model + ", window " + key_text(as_of) + (table ? std::string(", table ") + table : std::string());
 }
 
 void rethrow_for_window(Database& db, long long model_version_id, std::int32_t as_of, const char* table,

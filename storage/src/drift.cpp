@@ -31,15 +31,15 @@ struct DateRange {
   std::string sql;
   std::vector<std::int32_t> values;
 };
-DateRange date_range(const std::string& column, const std::string& from, const std::string& to) {
+DateRange date_range(const std::string& column, std::optional<engine::Date> from, std::optional<engine::Date> to) {
   DateRange r;
-  if (!from.empty()) {
+  if (from) {
     r.sql += " AND " + column + " >= ?";
-    r.values.push_back(date_key(from, "from date"));
+    r.values.push_back(from->key());
   }
-  if (!to.empty()) {
+  if (to) {
     r.sql += " AND " + column + " <= ?";
-    r.values.push_back(date_key(to, "to date"));
+    r.values.push_back(to->key());
   }
   return r;
 }
@@ -54,8 +54,8 @@ std::vector<engine::AssetMove> parse_moves(const nlohmann::json& j) {
 
 }  // namespace
 
-std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const std::string& from,
-                                    const std::string& to, const std::string& against) {
+std::vector<DriftRecord> read_drift(Database& db, long model_version_id, std::optional<engine::Date> from,
+                                    std::optional<engine::Date> to, const std::string& against) {
   const DateRange range = date_range("w.as_of", from, to);
   SQLite::Statement q(db.sql(),
                       "SELECT w.as_of, d.against, d.against_as_of, d.status, d.shared, d.congruence, d.principal_angles, "
@@ -70,9 +70,9 @@ std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const s
   std::vector<DriftRecord> out;
   while (q.executeStep()) {
     DriftRecord r;
-    r.as_of = iso_date(q.getColumn(0).getInt());
+    r.as_of = stored_date(q.getColumn(0).getInt());
     r.against = q.getColumn(1).getString();
-    r.against_as_of = iso_date(q.getColumn(2).getInt());
+    r.against_as_of = stored_date(q.getColumn(2).getInt());
     r.status = q.getColumn(3).getString();
     r.shared = q.getColumn(4).getInt64();
     try {
@@ -91,8 +91,8 @@ std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const s
   return out;
 }
 
-std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const std::string& from,
-                                    const std::string& to) {
+std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, std::optional<engine::Date> from,
+                                    std::optional<engine::Date> to) {
   const DateRange range = date_range("w.as_of", from, to);
   SQLite::Statement q(db.sql(),
                       "SELECT w.as_of, a.against, d.against_as_of, a.factor, a.congruence, a.threshold, d.movers "
@@ -106,9 +106,9 @@ std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const s
   std::vector<DriftAlert> out;
   while (q.executeStep()) {
     DriftAlert a;
-    a.as_of = iso_date(q.getColumn(0).getInt());
+    a.as_of = stored_date(q.getColumn(0).getInt());
     a.against = q.getColumn(1).getString();
-    a.against_as_of = iso_date(q.getColumn(2).getInt());
+    a.against_as_of = stored_date(q.getColumn(2).getInt());
     a.factor = q.getColumn(3).getInt();
     a.congruence = q.getColumn(4).getDouble();
     if (a.congruence < -1.5) a.congruence = std::numeric_limits<double>::quiet_NaN();  // a vanished factor
@@ -121,7 +121,7 @@ std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const s
 }
 
 std::vector<StoredExposure> read_stored_exposures(Database& db, long model_version_id, const std::string& asset,
-                                                  const std::string& from, const std::string& to) {
+                                                  std::optional<engine::Date> from, std::optional<engine::Date> to) {
   const std::int32_t id = db.assets().id(asset);
   const DateRange range = date_range("w.as_of", from, to);
   // Only the columns an asset's row needs: not the statistics, means or eigenvalues.
@@ -136,7 +136,7 @@ std::vector<StoredExposure> read_stored_exposures(Database& db, long model_versi
   std::vector<StoredExposure> out;
   while (q.executeStep()) {
     StoredExposure p;
-    p.as_of = iso_date(q.getColumn(0).getInt());
+    p.as_of = stored_date(q.getColumn(0).getInt());
     p.alignment = q.getColumn(9).isNull() ? "not aligned yet" : q.getColumn(9).getString();
     try {
       const SQLite::Column ids = q.getColumn(2);

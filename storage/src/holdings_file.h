@@ -7,13 +7,16 @@
 #include <string>
 #include <string_view>
 
+#include <optional>
+
+#include "factorwatch/engine/date.h"
 #include "factorwatch/engine/risk.h"
 
 namespace factorwatch::storage::detail {
 
 struct HoldingsFile {
   engine::Holdings holdings;  // file order, each asset once, finite weights (-0 read as 0)
-  std::string as_of;          // JSON only; "" when the file gives none
+  std::optional<engine::Date> as_of;  // JSON only; none when the file gives none
   std::size_t as_of_line = 0;
   std::string benchmark;      // JSON only; "" when the file gives none
   std::size_t benchmark_line = 0;

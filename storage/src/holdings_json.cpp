@@ -262,10 +262,12 @@ class HoldingsReader {
       auto [at, fresh] = seen.emplace(m.key, m.line);
       if (!fresh) fail(m.line, m.key, "member given twice (lines " + lines(at->second, m.line) + ")");
       if (m.key == "as_of") {
-        file.as_of = optional_text(m);
+        const std::string text = optional_text(m);
         file.as_of_line = m.line;
-        if (!file.as_of.empty() && !parse_iso_date(file.as_of))
-          fail(m.value.line, m.key, detail::quoted(file.as_of) + " is not a date in the form yyyy-mm-dd");
+        if (!text.empty()) {
+          file.as_of = engine::Date::from_iso(text);
+          if (!file.as_of) fail(m.value.line, m.key, detail::quoted(text) + " is not a date in the form yyyy-mm-dd");
+        }
       } else if (m.key == "benchmark") {
         file.benchmark = optional_text(m);
         file.benchmark_line = m.line;

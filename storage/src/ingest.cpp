@@ -107,7 +107,7 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
   detail::CrossSectionWriter writer(sql);
 
   for (Eigen::Index t = 0; t < panel.periods(); ++t) {
-    const std::int32_t date = date_key(panel.dates[static_cast<std::size_t>(t)]);
+    const std::int32_t date = panel.dates[static_cast<std::size_t>(t)].key();
     reader.read(date, stored);
     merged.clear();
     std::size_t s = 0, added = 0, corrected = 0;
@@ -174,8 +174,8 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
     run.bind(7);
     run.bind(8);
   } else {
-    run.bind(7, date_key(summary.first_date));
-    run.bind(8, date_key(summary.last_date));
+    run.bind(7, summary.first_date.key());
+    run.bind(8, summary.last_date.key());
   }
   run.bind(9, static_cast<std::int64_t>(summary.values_new));
   run.bind(10, static_cast<std::int64_t>(summary.values_unchanged));

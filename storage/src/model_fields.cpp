@@ -33,12 +33,18 @@ Why real(const json& value, double& target, const char* why = "must be a number"
   return std::nullopt;
 }
 
-Why date_or_default(const json& value, std::string& target, const char* why) {
-  if (value.is_null()) target.clear();
-  else if (value.is_string()) target = value.get<std::string>();
-  else return why;
+// A text that is not a date never gets here: set_model_field refuses it, naming the value.
+Why date_or_default(const json& value, std::optional<engine::Date>& target, const char* why) {
+  if (value.is_null()) target.reset();
+  else if (!value.is_string()) return why;
+  else if (const std::string text = value.get<std::string>(); text.empty()) target.reset();  // stored: "" = none
+  else if (auto date = engine::Date::from_iso(text)) target = date;
+  else return "not a date in the form yyyy-mm-dd";
   return std::nullopt;
 }
+
+// As stored: "" for none.
+ordered_json date_json(const std::optional<engine::Date>& date) { return date ? date->iso() : std::string(); }
 
 // "must be \"a\", \"b\" or \"c\"".
 std::string one_of(const std::vector<std::string>& words) {
@@ -59,11 +65,6 @@ Why choice(const json& value, Parse parse, T& target, const std::vector<std::str
 std::string integer_text(int n) { return std::to_string(n); }
 // As std::to_string writes doubles ("0.800000"): the messages a configuration gives.
 std::string real_text(double x) { return std::to_string(x); }
-
-Check bad_date(const char* field, const std::string& value) {
-  if (value.empty() || detail::parse_iso_date(value)) return std::nullopt;
-  return engine::failure(engine::FailureKind::bad_input, field, value, "not a date in the form yyyy-mm-dd");
-}
 
 Check share_of_one(const char* field, double x) {
   if (x >= 0 && x <= 1) return std::nullopt;
@@ -177,11 +178,11 @@ std::vector<ModelField> build_fields() {
                }});
   f.push_back({"first_as_of", FieldKind::date_or_default, "DATE",
                "Fit no window ending before this date ('none': no limit)", {}, "none", false,
-               [](const ModelConfig& c) { return ordered_json(c.first_as_of); },
+               [](const ModelConfig& c) { return date_json(c.first_as_of); },
                [](ModelConfig& c, const json& v) {
                  return date_or_default(v, c.first_as_of, "must be a date yyyy-mm-dd, or null");
                },
-               [](const ModelConfig& c) { return bad_date("first_as_of", c.first_as_of); }});
+               [](const ModelConfig&) -> Check { return std::nullopt; }});
   f.push_back({"tolerance", FieldKind::number, "X",
                "Where ml and principal-axis fits stop: ml, the largest scaled gradient of the log-likelihood; "
                "principal-axis, the largest change of a communality (default {default})",
@@ -218,12 +219,12 @@ std::vector<ModelField> build_fields() {
   f.push_back({"pinned_window", FieldKind::date_or_default, "DATE|first",
                "As-of date of the window drift is also measured against (and aligned onto with --align-to pinned); "
                "'first': the model's first window (default)",
-               {}, "first", true, [](const ModelConfig& c) { return ordered_json(c.pinned_window); },
+               {}, "first", true, [](const ModelConfig& c) { return date_json(c.pinned_window); },
                [](ModelConfig& c, const json& v) {
                  return date_or_default(v, c.pinned_window,
                                         "must be a date yyyy-mm-dd, or null (the model's first window)");
                },
-               [](const ModelConfig& c) { return bad_date("pinned_window", c.pinned_window); }});
+               [](const ModelConfig&) -> Check { return std::nullopt; }});
   f.push_back({"smoothing_half_life", FieldKind::number, "N",
                "Half-life of the smoothed reference, in windows (default {default})", {}, "", true,
                [](const ModelConfig& c) { return ordered_json(c.smoothing_half_life); },
@@ -299,6 +300,14 @@ std::string help_text(const ModelField& field) {
   const auto at = help.find("{default}");
   if (at != std::string::npos) help.replace(at, 9, default_text(field));
   return help;
+}
+
+std::optional<engine::Failure> set_model_field(const ModelField& field, ModelConfig& config, const json& value) {
+  const auto why = field.set(config, value);
+  if (!why) return std::nullopt;
+  // A date names the text it could not read, as every other date input does.
+  const bool bad_date = field.kind == FieldKind::date_or_default && value.is_string();
+  return engine::failure(engine::FailureKind::bad_input, field.member, bad_date ? value.get<std::string>() : "", *why);
 }
 
 engine::Failure unknown_member(const std::string& member) {

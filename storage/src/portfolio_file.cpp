@@ -52,8 +52,6 @@ Portfolio parse_portfolio_text(const std::string& text, const std::string& label
   // The options first: a bad option is the caller's mistake, whatever the file holds.
   Portfolio p;
   p.name = checked_name(options.name, "portfolio name");
-  if (!options.as_of.empty() && !is_calendar_date(options.as_of))
-    throw std::invalid_argument("as-of date '" + options.as_of + "': not a date in the form yyyy-mm-dd");
   if (!options.benchmark.empty()) checked_name(options.benchmark, "benchmark name");
   if (options.benchmark == p.name)
     throw std::invalid_argument("benchmark name '" + options.benchmark + "': a portfolio cannot be its own benchmark");
@@ -68,9 +66,7 @@ Portfolio parse_portfolio_text(const std::string& text, const std::string& label
     throw InputError(label, file.benchmark_line, "benchmark",
                      detail::quoted(file.benchmark) + " cannot name a portfolio: use 1 to 64 letters, digits, "
                                                       "'.', '_' or '-'");
-  p.as_of = !options.as_of.empty() ? options.as_of
-            : !file.as_of.empty()  ? file.as_of
-                                   : utc_timestamp().substr(0, 10);  // yyyy-mm-dd of yyyy-mm-ddThh:mm:ssZ
+  p.as_of = options.as_of ? *options.as_of : file.as_of ? *file.as_of : utc_today();
   p.benchmark = !options.benchmark.empty() ? options.benchmark : file.benchmark;
   if (p.benchmark == p.name)  // only the file's can be, the option's was checked above
     throw InputError(label, file.benchmark_line, "benchmark",

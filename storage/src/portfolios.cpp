@@ -19,10 +19,8 @@
 namespace factorwatch::storage {
 namespace {
 
-// A date argument as stored (yyyymmdd); "" means no limit.
-std::int32_t date_limit(const std::string& as_of) {
-  return as_of.empty() ? 99991231 : date_key(as_of, "as-of date");
-}
+// A date argument as stored (yyyymmdd); none means no limit.
+std::int32_t date_limit(std::optional<engine::Date> as_of) { return as_of ? as_of->key() : 99991231; }
 
 // What parse_portfolio_text guarantees, checked again because a Portfolio may also be
 // built in code (the HTTP layer): a stored set must read back as a valid file would.
@@ -30,7 +28,6 @@ void check_storable(const Portfolio& p) {
   auto fail = [](const std::string& problem) { throw std::invalid_argument(problem); };
   if (!is_portfolio_name(p.name))
     fail("portfolio name '" + p.name + "': use 1 to 64 letters, digits, '.', '_' or '-'");
-  date_key(p.as_of, "as-of date");
   if (!p.benchmark.empty() && !is_portfolio_name(p.benchmark))
     fail("benchmark name '" + p.benchmark + "': use 1 to 64 letters, digits, '.', '_' or '-'");
   if (p.benchmark == p.name) fail("portfolio '" + p.name + "' cannot be its own benchmark");
@@ -75,7 +72,7 @@ SavePortfolioOutcome save_portfolio(Database& db, const Portfolio& portfolio) {
   for (engine::Holding& h : holdings) h.weight = detail::stored_weight(h.weight);
   // Recomputed rather than trusted: the stored hash always describes the stored rows.
   const std::string hash = detail::holdings_sha256(holdings, portfolio.benchmark);
-  const std::int32_t as_of = date_key(portfolio.as_of, "as-of date");
+  const std::int32_t as_of = portfolio.as_of.key();
 
   SQLite::Database& sql = db.sql();
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
@@ -155,7 +152,7 @@ SavePortfolioOutcome save_portfolio(Database& db, const Portfolio& portfolio) {
   return outcome;
 }
 
-std::optional<Portfolio> read_portfolio(Database& db, const std::string& name, const std::string& as_of) {
+std::optional<Portfolio> read_portfolio(Database& db, const std::string& name, std::optional<engine::Date> as_of) {
   const std::int32_t limit = date_limit(as_of);
   SQLite::Database& sql = db.sql();
   std::optional<SQLite::Transaction> snapshot;
@@ -169,7 +166,7 @@ std::optional<Portfolio> read_portfolio(Database& db, const std::string& name, c
   if (!q.executeStep()) return std::nullopt;
   Portfolio p;
   p.name = name;
-  p.as_of = iso_date(q.getColumn(1).getInt64());
+  p.as_of = stored_date(q.getColumn(1).getInt64());
   p.benchmark = q.getColumn(2).isNull() ? "" : q.getColumn(2).getString();
   p.source = q.getColumn(3).getString();
   p.content_sha256 = q.getColumn(4).getString();
@@ -192,7 +189,7 @@ std::vector<PortfolioSummary> list_portfolios(Database& db) {
   while (q.executeStep()) {
     PortfolioSummary s;
     s.name = q.getColumn(0).getString();
-    s.latest_as_of = iso_date(q.getColumn(2).getInt64());
+    s.latest_as_of = stored_date(q.getColumn(2).getInt64());
     s.benchmark = q.getColumn(3).isNull() ? "" : q.getColumn(3).getString();
     s.stored_at = q.getColumn(4).getString();
     s.dates = static_cast<std::size_t>(q.getColumn(5).getInt64());
@@ -205,24 +202,24 @@ std::vector<PortfolioSummary> list_portfolios(Database& db) {
   return out;
 }
 
-std::vector<std::string> portfolio_dates(Database& db, const std::string& name) {
+std::vector<engine::Date> portfolio_dates(Database& db, const std::string& name) {
   SQLite::Statement q(db.sql(),
                       "SELECT s.as_of FROM holding_sets s JOIN portfolios p ON p.id = s.portfolio_id "
                       "WHERE p.name = ? ORDER BY s.as_of");
   q.bind(1, name);
-  std::vector<std::string> out;
-  while (q.executeStep()) out.push_back(iso_date(q.getColumn(0).getInt64()));
+  std::vector<engine::Date> out;
+  while (q.executeStep()) out.push_back(stored_date(q.getColumn(0).getInt64()));
   return out;
 }
 
-std::size_t delete_portfolio(Database& db, const std::string& name, const std::string& as_of) {
-  const std::int32_t date = as_of.empty() ? 0 : date_key(as_of, "as-of date");
+std::size_t delete_portfolio(Database& db, const std::string& name, std::optional<engine::Date> as_of) {
+  const std::int32_t date = as_of ? as_of->key() : 0;
   SQLite::Database& sql = db.sql();
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
   const std::int64_t id = portfolio_id(sql, name);
   if (id == 0) return 0;
   std::size_t removed = 0;
-  if (as_of.empty()) {
+  if (!as_of) {
     SQLite::Statement count(sql, "SELECT count(*) FROM holding_sets WHERE portfolio_id = ?");
     count.bind(1, id);
     count.executeStep();
@@ -238,7 +235,7 @@ std::size_t delete_portfolio(Database& db, const std::string& name, const std::s
   SQLite::Statement left(sql, "SELECT count(*) FROM holding_sets WHERE portfolio_id = ?");
   left.bind(1, id);
   left.executeStep();
-  if (as_of.empty() || left.getColumn(0).getInt64() == 0) {
+  if (!as_of || left.getColumn(0).getInt64() == 0) {
     SQLite::Statement drop(sql, "DELETE FROM portfolios WHERE id = ?");
     drop.bind(1, id);
     drop.exec();

@@ -32,7 +32,7 @@ ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, 
 
 // One date of the file: its sort key (yyyymmdd), its text and the line it was read on.
 struct DateRow {
-  std::int32_t key;
+  engine::Date date;
   std::string_view text;
   std::size_t line;
 };
@@ -42,7 +42,7 @@ struct DateRow {
 std::vector<std::size_t> ascending_order(const std::vector<DateRow>& dates);
 
 // Reads the date cell of a record; throws InputError naming the column when invalid.
-std::int32_t read_date(std::string_view cell, const std::string& path, std::size_t line,
+engine::Date read_date(std::string_view cell, const std::string& path, std::size_t line,
                        const std::string& column);
 
 }  // namespace factorwatch::storage::detail

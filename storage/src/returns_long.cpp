@@ -77,7 +77,7 @@ ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, 
                               std::size_t date_col, std::size_t asset_col, std::size_t return_col) {
   // Views into the file's text: no string per row, only one per distinct asset at the end.
   std::unordered_map<std::string_view, std::int32_t> asset_index;
-  std::unordered_map<std::int32_t, std::int32_t> date_index;
+  std::unordered_map<std::int32_t, std::int32_t> date_index;  // by day count
   std::vector<std::string> assets;
   std::vector<DateRow> dates;
   std::vector<Entry> entries;
@@ -97,11 +97,11 @@ ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, 
     // nearly every row; unordered_map::emplace would also allocate a node per call.
     const std::string_view date_text = fields[date_col];
     if (dates.empty() || date_text != dates[static_cast<std::size_t>(date)].text) {
-      const std::int32_t key = read_date(date_text, header.path, line, header.names[date_col]);
-      auto found = date_index.find(key);
+      const engine::Date day = read_date(date_text, header.path, line, header.names[date_col]);
+      auto found = date_index.find(day.days());
       if (found == date_index.end()) {
-        found = date_index.emplace(key, static_cast<std::int32_t>(dates.size())).first;
-        dates.push_back({key, date_text, line});
+        found = date_index.emplace(day.days(), static_cast<std::int32_t>(dates.size())).first;
+        dates.push_back({day, date_text, line});
       }
       date = found->second;
     }
@@ -146,7 +146,7 @@ ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, 
   std::vector<std::uint8_t>().swap(filled);  // a price file makes a second panel next
   panel.assets = std::move(assets);
   panel.dates.reserve(dates.size());
-  for (std::size_t i : order) panel.dates.emplace_back(dates[i].text);
+  for (std::size_t i : order) panel.dates.push_back(dates[i].date);
   rules.finish(panel, LongLines(header, return_col, entries, dates, order), header.names[date_col]);
   return file;
 }

@@ -16,7 +16,7 @@ namespace {
   const auto row = static_cast<std::size_t>(t), column = static_cast<std::size_t>(j);
   const double now = prices.values(t, j), before = prices.values(t - 1, j);
   const std::string step = "price " + shortest(now) + " of " + quoted(prices.assets[column]) + " on " +
-                           prices.dates[row] + " after " + shortest(before) + " on " + prices.dates[row - 1] +
+                           prices.dates[row].iso() + " after " + shortest(before) + " on " + prices.dates[row - 1].iso() +
                            " (line " + std::to_string(lines.cell_line(row - 1, column)) + ")";
   const std::size_t line = lines.cell_line(row, column);
   const std::string& field = lines.file_column(column);

@@ -12,7 +12,7 @@ namespace factorwatch::storage::detail {
 namespace {
 
 [[noreturn]] void damaged(std::int32_t date, const std::string& what) {
-  throw DamagedData("damaged returns row of " + iso_date(date) + ": " + what +
+  throw DamagedData("damaged returns row of " + key_text(date) + ": " + what +
                     "; restore the database from a backup, or run factorwatch verify for the full list");
 }
 

@@ -18,10 +18,10 @@ namespace factorwatch::storage {
 using detail::CrossSection;
 using detail::Fingerprint;
 
-std::vector<std::int32_t> stored_dates(Database& db) {
-  std::vector<std::int32_t> dates;
+std::vector<engine::Date> stored_dates(Database& db) {
+  std::vector<engine::Date> dates;
   SQLite::Statement q(db.sql(), "SELECT date FROM returns ORDER BY date");
-  while (q.executeStep()) dates.push_back(q.getColumn(0).getInt());
+  while (q.executeStep()) dates.push_back(stored_date(q.getColumn(0).getInt()));
   return dates;
 }
 
@@ -35,7 +35,9 @@ std::vector<std::int32_t> stored_asset_ids(Database& db, const std::vector<std::
   return ids;
 }
 
-ReturnsSpan::ReturnsSpan(Database& db, std::int32_t first, std::int32_t last, const std::vector<std::int32_t>& universe) {
+ReturnsSpan::ReturnsSpan(Database& db, engine::Date first_date, engine::Date last_date,
+                         const std::vector<std::int32_t>& universe) {
+  const std::int32_t first = first_date.key(), last = last_date.key();
   SQLite::Database& sql = db.sql();
   detail::AssetDirectory& directory = db.assets();
   std::vector<std::int32_t> ids = universe;
@@ -68,7 +70,7 @@ ReturnsSpan::ReturnsSpan(Database& db, std::int32_t first, std::int32_t last, co
   while (t < rows && q.executeStep()) {
     const std::int32_t date = q.getColumn(0).getInt();
     detail::decode_cross_section(date, q.getColumn(1), q.getColumn(2), q.getColumn(3), row);  // ids > 0, ascending
-    dates_.push_back(date);
+    dates_.push_back(stored_date(date));
     checksums_.push_back(q.getColumn(3).getInt64());
     double* out = values_.data() + t * values_.cols();
     for (std::size_t k = 0; k < row.ids.size(); ++k) {
@@ -88,16 +90,16 @@ ReturnsSpan::ReturnsSpan(Database& db, std::int32_t first, std::int32_t last, co
 std::uint64_t ReturnsSpan::rows_digest(std::size_t begin, std::size_t count) const {
   Fingerprint f;
   for (std::size_t t = begin; t < begin + count && t < dates_.size(); ++t) {
-    f.add(std::int64_t{dates_[t]});
+    f.add(std::int64_t{dates_[t].key()});
     f.add(checksums_[t]);
   }
   return f.value();
 }
 
-std::uint64_t stored_rows_digest(Database& db, std::int32_t first, std::int32_t last) {
+std::uint64_t stored_rows_digest(Database& db, engine::Date first, engine::Date last) {
   SQLite::Statement q(db.sql(), "SELECT date, checksum FROM returns WHERE date BETWEEN ? AND ? ORDER BY date");
-  q.bind(1, first);
-  q.bind(2, last);
+  q.bind(1, first.key());
+  q.bind(2, last.key());
   Fingerprint f;
   while (q.executeStep()) {
     f.add(std::int64_t{q.getColumn(0).getInt()});
@@ -125,7 +127,7 @@ engine::ReturnsPanel ReturnsSpan::window(std::size_t begin, std::size_t count) c
     if (present[static_cast<std::size_t>(c)]) columns.push_back(c);
 
   engine::ReturnsPanel panel;
-  for (Eigen::Index t = b; t < b + n; ++t) panel.dates.push_back(iso_date(dates_[static_cast<std::size_t>(t)]));
+  for (Eigen::Index t = b; t < b + n; ++t) panel.dates.push_back(dates_[static_cast<std::size_t>(t)]);
   for (Eigen::Index c : columns) panel.assets.push_back(names_[static_cast<std::size_t>(c)]);
   if (static_cast<Eigen::Index>(columns.size()) == width) {
     panel.values = values_.middleRows(b, n);
@@ -142,7 +144,7 @@ engine::ReturnsPanel ReturnsSpan::window(std::size_t begin, std::size_t count) c
 
 std::string panel_fingerprint(const engine::ReturnsPanel& panel) {
   Fingerprint f;
-  for (const std::string& d : panel.dates) f.add(d);
+  for (engine::Date d : panel.dates) f.add(d.iso());  // as before dates were values: stored hashes stay
   for (const std::string& a : panel.assets) f.add(a);
   f.add(panel.values.data(), static_cast<std::size_t>(panel.values.size()) * sizeof(double));
   return f.hex();

@@ -40,9 +40,9 @@ void check_asset_names(const ReturnsHeader& header) {
 // paste error than a meaning. The rows so far ascend, so a repeat is found by bisection.
 [[noreturn]] void out_of_order(const ReturnsHeader& header, const std::vector<DateRow>& dates,
                                const DateRow& row) {
-  const auto same = std::lower_bound(dates.begin(), dates.end(), row.key,
-                                     [](const DateRow& d, std::int32_t key) { return d.key < key; });
-  if (same != dates.end() && same->key == row.key)
+  const auto same = std::lower_bound(dates.begin(), dates.end(), row.date,
+                                     [](const DateRow& d, engine::Date date) { return d.date < date; });
+  if (same != dates.end() && same->date == row.date)
     throw InputError(header.path, row.line, header.names[0],
                      "date " + std::string(row.text) + " appears twice (lines " +
                          std::to_string(same->line) + " and " + std::to_string(row.line) + ")");
@@ -86,7 +86,7 @@ ReturnsFile read_wide_returns(CsvScanner& scanner, const ReturnsHeader& header, 
     const std::size_t line = scanner.line();
     if (fields.size() != width) wrong_width(header, line, fields.size());
     const DateRow row{read_date(fields[0], header.path, line, header.names[0]), fields[0], line};
-    if (!dates.empty() && row.key <= dates.back().key) out_of_order(header, dates, row);
+    if (!dates.empty() && row.date <= dates.back().date) out_of_order(header, dates, row);
     dates.push_back(row);
     for (std::size_t j = 1; j < width; ++j) values.push_back(rules.read(fields[j], line, header.names[j]));
   }
@@ -97,7 +97,7 @@ ReturnsFile read_wide_returns(CsvScanner& scanner, const ReturnsHeader& header, 
   engine::ReturnsPanel& panel = file.panel;
   panel.assets.assign(header.names.begin() + 1, header.names.end());
   panel.dates.reserve(dates.size());
-  for (const DateRow& d : dates) panel.dates.emplace_back(d.text);
+  for (const DateRow& d : dates) panel.dates.push_back(d.date);
   panel.values.resize(static_cast<Eigen::Index>(dates.size()), static_cast<Eigen::Index>(assets));
   std::copy(values.begin(), values.end(), panel.values.data());
   std::vector<double>().swap(values);  // a price file makes a second panel next

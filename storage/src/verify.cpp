@@ -87,7 +87,7 @@ VerifyReport verify_database(Database& db) {
         // The reader's advice ("... or run factorwatch verify") is for other commands.
         std::string what = e.what();
         what = what.substr(0, what.find("; restore the database"));
-        report.problems.push_back({"returns", "date " + iso_date(date), what});
+        report.problems.push_back({"returns", "date " + key_text(date), what});
       }
     }
   }

@@ -25,7 +25,7 @@ std::vector<AlignmentState> alignment_states(Database& db, long model_version_id
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   std::vector<AlignmentState> rows;
   while (q.executeStep())
-    rows.push_back({q.getColumn(0).getInt64(), q.getColumn(1).getInt(), q.getColumn(2).getInt() != 0,
+    rows.push_back({q.getColumn(0).getInt64(), stored_date(q.getColumn(1).getInt()), q.getColumn(2).getInt() != 0,
                     q.getColumn(3).getInt() != 0});
   return rows;
 }
@@ -39,7 +39,7 @@ void save_alignment(Database& db, long long window_id, const WindowAlignment& a)
   q.bind(2, a.status);
   q.bind(3, a.message);
   q.bind(4, a.reference);
-  if (!a.reference_as_of.empty()) q.bind(5, date_key(a.reference_as_of, "reference as-of date"));
+  if (a.reference_as_of) q.bind(5, a.reference_as_of->key());
   else q.bind(5);
   q.bind(6, static_cast<std::int64_t>(a.shared));
   bind_blob(q, 7, detail::encode_doubles(a.matrix));
@@ -81,7 +81,7 @@ void save_drift(Database& db, long long window_id, const DriftRecord& d) {
                       "mean_exposure_change, communality_change, movers) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
   q.bind(1, static_cast<std::int64_t>(window_id));
   q.bind(2, d.against);
-  q.bind(3, date_key(d.against_as_of, "compared window's as-of date"));
+  q.bind(3, d.against_as_of.key());
   q.bind(4, d.status);
   q.bind(5, static_cast<std::int64_t>(d.shared));
   bind_blob(q, 6, detail::encode_doubles(d.congruence));

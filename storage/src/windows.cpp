@@ -125,8 +125,8 @@ Eigen::VectorXd vector_column(SQLite::Statement& q, const char* name) {
 
 WindowRecord read_fields(Database& db, SQLite::Statement& q) {
   WindowRecord w;
-  w.as_of = iso_date(q.getColumn("as_of").getInt());
-  w.first_date = iso_date(q.getColumn("first_date").getInt());
+  w.as_of = stored_date(q.getColumn("as_of").getInt());
+  w.first_date = stored_date(q.getColumn("first_date").getInt());
   w.configuration_hash = q.getColumn("configuration_hash").getString();
   w.input_hash = q.getColumn("input_hash").getString();
   w.total_seconds = q.getColumn("total_seconds").getDouble();
@@ -197,14 +197,13 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& w, std
   SQLite::Database& sql = db.sql();
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
   // Under the write lock, so no load can commit between this comparison and the insert.
-  const bool current = !input_rows || *input_rows == stored_rows_digest(db, date_key(w.first_date, "first date"),
-                                                                                  date_key(w.as_of, "as-of date"));
+  const bool current = !input_rows || *input_rows == stored_rows_digest(db, w.first_date, w.as_of);
   // The replaced row's alignment and drift described other numbers.
   for (const char* table : {"window_alignments", "window_drift", "drift_alerts"}) {
     SQLite::Statement forget(sql, std::string("DELETE FROM ") + table +
                                       " WHERE window_id IN (SELECT id FROM windows WHERE model_version_id = ? AND as_of = ?)");
     forget.bind(1, static_cast<std::int64_t>(model_version_id));
-    forget.bind(2, date_key(w.as_of, "as-of date"));
+    forget.bind(2, w.as_of.key());
     forget.exec();
   }
   SQLite::Statement q(sql,
@@ -214,8 +213,8 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& w, std
                       "explained_share, statistics, fit_seconds, total_seconds, fitted_at, rotation, stale, provenance) "
                       "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
-  q.bind(2, date_key(w.as_of, "as-of date"));
-  q.bind(3, date_key(w.first_date, "first date"));
+  q.bind(2, w.as_of.key());
+  q.bind(3, w.first_date.key());
   q.bind(4, w.configuration_hash);
   q.bind(5, w.input_hash);
   q.bind(6, static_cast<int>(fit.assets.size()));
@@ -259,8 +258,8 @@ std::vector<WindowSummary> list_windows(Database& db, long model_version_id) {
   std::vector<WindowSummary> out;
   while (q.executeStep()) {
     WindowSummary s;
-    s.as_of = iso_date(q.getColumn(0).getInt());
-    s.first_date = iso_date(q.getColumn(1).getInt());
+    s.as_of = stored_date(q.getColumn(0).getInt());
+    s.first_date = stored_date(q.getColumn(1).getInt());
     s.asset_count = q.getColumn(2).getInt();
     s.factors = q.getColumn(3).getInt();
     s.termination = q.getColumn(4).getString();
@@ -289,7 +288,7 @@ std::vector<WindowState> window_states(Database& db, long model_version_id) {
   SQLite::Statement q(db.sql(), "SELECT as_of, stale FROM windows WHERE model_version_id = ?");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   std::vector<WindowState> out;
-  while (q.executeStep()) out.push_back({q.getColumn(0).getInt(), q.getColumn(1).getInt() != 0});
+  while (q.executeStep()) out.push_back({stored_date(q.getColumn(0).getInt()), q.getColumn(1).getInt() != 0});
   return out;
 }
 
@@ -300,18 +299,18 @@ WindowCounts count_windows(Database& db, long model_version_id) {
   if (q.executeStep()) {
     counts.windows = static_cast<std::size_t>(q.getColumn(0).getInt64());
     counts.stale = static_cast<std::size_t>(q.getColumn(1).getDouble());
-    if (!q.getColumn(2).isNull()) counts.latest_as_of = iso_date(q.getColumn(2).getInt());
+    if (!q.getColumn(2).isNull()) counts.latest_as_of = stored_date(q.getColumn(2).getInt());
   }
   return counts;
 }
 
-std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
+std::optional<WindowRecord> read_window(Database& db, long model_version_id, std::optional<engine::Date> as_of,
                                         bool at_or_before) {
   std::string where = "WHERE model_version_id = ?1";
-  if (!as_of.empty()) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
+  if (as_of) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
   SQLite::Statement q(db.sql(), "SELECT * FROM windows " + where + " ORDER BY as_of DESC LIMIT 1");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
-  if (!as_of.empty()) q.bind(2, date_key(as_of, "as-of date"));
+  if (as_of) q.bind(2, as_of->key());
   if (!q.executeStep()) return std::nullopt;
   WindowRecord record = read_record(db, q);
   record.alignment = read_alignment(db, q.getColumn("id").getInt64());
@@ -328,7 +327,7 @@ std::optional<WindowAlignment> read_alignment(Database& db, long long window_id)
   a.status = q.getColumn(0).getString();
   a.message = q.getColumn(1).getString();
   a.reference = q.getColumn(2).getString();
-  if (!q.getColumn(3).isNull()) a.reference_as_of = iso_date(q.getColumn(3).getInt());
+  if (!q.getColumn(3).isNull()) a.reference_as_of = stored_date(q.getColumn(3).getInt());
   a.shared = q.getColumn(4).getInt64();
   try {
     a.matrix = matrix_column(q, "alignment");
@@ -347,24 +346,24 @@ std::optional<WindowAlignment> read_alignment(Database& db, long long window_id)
 std::string WindowStamp::key() const {
   char seconds[32];
   std::snprintf(seconds, sizeof seconds, "%a", total_seconds);  // every bit of the timing
-  return as_of + "|" + std::to_string(row_id) + "|" + fitted_at + "|" + input_hash + "|" + seconds + "|" +
+  return as_of.iso() + "|" + std::to_string(row_id) + "|" + fitted_at + "|" + input_hash + "|" + seconds + "|" +
          (stale ? "stale" : "current") + "|" + alignment;
 }
 
-std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, const std::string& as_of,
+std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, std::optional<engine::Date> as_of,
                                              bool at_or_before) {
   std::string where = "WHERE model_version_id = ?1";
-  if (!as_of.empty()) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
+  if (as_of) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
   SQLite::Statement q(db.sql(),
                       "SELECT w.as_of, w.id, w.fitted_at, w.input_hash, w.total_seconds, w.stale, "
                       "(SELECT a.alignment FROM window_alignments a WHERE a.window_id = w.id), w.usable, "
                       "w.termination FROM windows w " +
                           where + " ORDER BY as_of DESC LIMIT 1");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
-  if (!as_of.empty()) q.bind(2, date_key(as_of, "as-of date"));
+  if (as_of) q.bind(2, as_of->key());
   if (!q.executeStep()) return std::nullopt;
   WindowStamp stamp;
-  stamp.as_of = iso_date(q.getColumn(0).getInt());
+  stamp.as_of = stored_date(q.getColumn(0).getInt());
   stamp.row_id = q.getColumn(1).getInt64();
   stamp.fitted_at = q.getColumn(2).getString();
   stamp.input_hash = q.getColumn(3).getString();

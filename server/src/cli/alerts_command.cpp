@@ -25,8 +25,8 @@ void print_alerts_table(const pipeline::AlertList& a) {
     std::printf("%-10s  %-8s  %-13s %-6s %10s %9s  %s\n", "as of", "against", "compared with", "factor", "congruence",
                 "threshold", "assets that moved most (standardized change)");
     for (const storage::DriftAlert& x : a.alerts)
-      std::printf("%-10s  %-8s  %-13s %-6s %10.4f %9.3f  %s\n", x.as_of.c_str(), x.against.c_str(),
-                  x.against_as_of.c_str(), pipeline::factor_name(x.factor - 1).c_str(), x.congruence, x.threshold,
+      std::printf("%-10s  %-8s  %-13s %-6s %10.4f %9.3f  %s\n", x.as_of.iso().c_str(), x.against.c_str(),
+                  x.against_as_of.iso().c_str(), pipeline::factor_name(x.factor - 1).c_str(), x.congruence, x.threshold,
                   table_text(movers_text(x.movers, kMoversShown)).c_str());
   }
   const bool vanished = std::any_of(a.alerts.begin(), a.alerts.end(),
@@ -50,8 +50,10 @@ int run_alerts_command(const AlertsArguments& a, const GlobalArguments& global) 
   auto db = open_database(global, "alerts");
   if (!db) return kExitFailed;
   try {
+    pipeline::RangeQuery range;
+    if (auto f = read_range(a.model, a.from, a.to, range)) return report_failure("alerts", *f, a.model);
     pipeline::AlertList list;
-    if (auto f = pipeline::find_alerts(*db, {a.model, a.from, a.to}, list)) return report_failure("alerts", *f, a.model);
+    if (auto f = pipeline::find_alerts(*db, range, list)) return report_failure("alerts", *f, a.model);
     if (a.format == "csv") std::cout << alerts_csv(list);
     else if (a.format == "json") std::cout << alerts_json(list).dump(2) << "\n";
     else print_alerts_table(list);

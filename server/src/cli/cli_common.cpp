@@ -50,4 +50,11 @@ double seconds_since(std::chrono::steady_clock::time_point start) {
 
 bool stderr_is_terminal() { return isatty(STDERR_FILENO) == 1; }
 
+std::optional<engine::Failure> read_range(const std::string& model, const std::string& from, const std::string& to,
+                                          pipeline::RangeQuery& range) {
+  range.model = model;
+  if (auto f = pipeline::read_date("from", from, range.from)) return f;
+  return pipeline::read_date("to", to, range.to);
+}
+
 }  // namespace factorwatch::server

@@ -5,10 +5,12 @@
 #include <CLI/CLI.hpp>
 #include <chrono>
 #include <memory>
+#include <optional>
 #include <ostream>
 #include <string>
 #include <vector>
 
+#include "factorwatch/pipeline/drift_query.h"
 #include "factorwatch/storage/database.h"
 #include "text_format.h"
 
@@ -33,6 +35,11 @@ std::unique_ptr<storage::Database> open_database(const GlobalArguments& global, 
 void add_format_option(CLI::App* command, std::string& format);
 // --from DATE and --to DATE: a range of as-of dates, open where not given.
 void add_date_range_options(CLI::App* command, std::string& from, std::string& to);
+
+// The range a command's --from and --to ask for, their dates read once here
+// (pipeline::read_date); the failure naming the option that is not a date.
+std::optional<engine::Failure> read_range(const std::string& model, const std::string& from, const std::string& to,
+                                          pipeline::RangeQuery& range);
 
 // The caution as the last lines of a table.
 void print_caution(std::ostream& out);

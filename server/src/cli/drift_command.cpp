@@ -25,7 +25,7 @@ void print_series_table(const pipeline::DriftSeries& s) {
   for (Eigen::Index j = 0; j < k; ++j) std::printf(" %7s ", pipeline::factor_name(j).c_str());
   std::printf(" %9s %9s\n", "max angle", "mean move");
   for (const storage::DriftRecord& r : s.rows) {
-    std::printf("%-10s  %-8s  %-13s %6lld ", r.as_of.c_str(), r.against.c_str(), r.against_as_of.c_str(), r.shared);
+    std::printf("%-10s  %-8s  %-13s %6lld ", r.as_of.iso().c_str(), r.against.c_str(), r.against_as_of.iso().c_str(), r.shared);
     if (r.congruence.size() == 0) {
       std::printf(" %s\n", r.status.c_str());
       continue;
@@ -118,15 +118,19 @@ int run_drift_command(const DriftArguments& a, const GlobalArguments& global) {
         std::fprintf(stderr, "factorwatch drift: option '--window' compares one window; leave out --from and --to\n");
         return kExitBadInput;
       }
+      std::optional<engine::Date> window;
+      if (auto f = pipeline::read_date("window", a.window, window)) return report_failure("drift", *f, a.model);
       pipeline::WindowDrift d;
-      if (auto f = pipeline::find_window_drift(*db, a.model, a.window, a.against, d)) return report_failure("drift", *f, a.model);
+      if (auto f = pipeline::find_window_drift(*db, a.model, window, a.against, d)) return report_failure("drift", *f, a.model);
       if (a.format == "csv") std::cout << window_drift_csv(d);
       else if (a.format == "json") std::cout << window_drift_json(d).dump(2) << "\n";
       else print_window_table(d, a.limit);
       return kExitOk;
     }
+    pipeline::RangeQuery range;
+    if (auto f = read_range(a.model, a.from, a.to, range)) return report_failure("drift", *f, a.model);
     pipeline::DriftSeries s;
-    if (auto f = pipeline::find_drift_series(*db, {a.model, a.from, a.to}, a.against, s))
+    if (auto f = pipeline::find_drift_series(*db, range, a.against, s))
       return report_failure("drift", *f, a.model);
     if (a.format == "csv") std::cout << drift_csv(s);
     else if (a.format == "json") std::cout << drift_json(s).dump(2) << "\n";

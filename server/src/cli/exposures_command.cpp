@@ -14,7 +14,7 @@ void print_header(const pipeline::SelectedWindow& s) {
   std::printf("model %s, version %d: %s, %d factors, %s basis\n", s.model.name.c_str(), s.model.version,
               engine::to_string(f.method), f.factors, engine::to_string(f.basis));
   std::printf("window %s .. %s (%lld dates): %zu assets fitted, %zu excluded; %s after %d iterations%s\n",
-              s.window.first_date.c_str(), s.window.as_of.c_str(), static_cast<long long>(f.periods), f.assets.size(),
+              s.window.first_date.iso().c_str(), s.window.as_of.iso().c_str(), static_cast<long long>(f.periods), f.assets.size(),
               f.excluded.size(), engine::to_string(f.termination), f.iterations,
               s.window.stale ? "; STALE: returns in this window changed since, run factorwatch refresh" : "");
   if (!s.note.empty()) std::printf("note: %s\n", s.note.c_str());

@@ -31,8 +31,10 @@ int run_factor_returns_command(const FactorReturnsArguments& a, const GlobalArgu
   if (!db) return kExitFailed;
   try {
     if (!a.window.empty()) {
+      std::optional<engine::Date> window;
+      if (auto f = pipeline::read_date("window", a.window, window)) return report_failure("factor-returns", *f, a.model);
       pipeline::WindowFactorReturns w;
-      if (auto f = pipeline::find_window_factor_returns(*db, a.model, a.window, a.method, w))
+      if (auto f = pipeline::find_window_factor_returns(*db, a.model, window, a.method, w))
         return report_failure("factor-returns", *f, a.model);
       if (a.format == "csv") std::cout << window_factor_returns_csv(w);
       else if (a.format == "json") std::cout << window_factor_returns_json(w).dump(2) << "\n";
@@ -42,8 +44,10 @@ int run_factor_returns_command(const FactorReturnsArguments& a, const GlobalArgu
       }
       return kExitOk;
     }
+    pipeline::RangeQuery range;
+    if (auto f = read_range(a.model, a.from, a.to, range)) return report_failure("factor-returns", *f, a.model);
     pipeline::FactorReturnSeriesAnswer s;
-    if (auto f = pipeline::find_factor_return_series(*db, {a.model, a.from, a.to}, a.method, s))
+    if (auto f = pipeline::find_factor_return_series(*db, range, a.method, s))
       return report_failure("factor-returns", *f, a.model);
     if (a.format == "csv") std::cout << factor_return_series_csv(s);
     else if (a.format == "json") std::cout << factor_return_series_json(s).dump(2) << "\n";

@@ -62,8 +62,8 @@ engine::FactorFit fit_returns(const FitArguments& a, const engine::FitOptions& o
     std::fprintf(stderr, "window: the last %ld of %lld dates\n", *a.window,
                  static_cast<long long>(source.dates_in_file));
   }
-  source.first_date = panel.dates.front();
-  source.last_date = panel.dates.back();
+  source.first_date = panel.dates.front().iso();  // as the report writes them
+  source.last_date = panel.dates.back().iso();
   std::fprintf(stderr, "fitting %s with %d factors on the %s basis, %s .. %s ...\n",
                engine::to_string(options.method), options.factors, engine::to_string(options.basis),
                source.first_date.c_str(), source.last_date.c_str());

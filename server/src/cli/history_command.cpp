@@ -22,7 +22,7 @@ void print_history_table(const pipeline::AssetHistory& h) {
   for (Eigen::Index j = 0; j < k; ++j) std::printf(" %11s", pipeline::factor_name(j).c_str());
   std::printf(" %12s %12s  %s\n", "communality", "specific vol", "alignment");
   for (const pipeline::ExposurePoint& p : h.points) {
-    std::printf("%-10s", p.as_of.c_str());
+    std::printf("%-10s", p.as_of.iso().c_str());
     if (!p.present) {
       std::printf(" not in this window (not fitted, or the fit is not usable)\n");
       continue;
@@ -50,8 +50,10 @@ int run_history_command(const HistoryArguments& a, const GlobalArguments& global
   auto db = open_database(global, "history");
   if (!db) return kExitFailed;
   try {
+    pipeline::RangeQuery range;
+    if (auto f = read_range(a.model, a.from, a.to, range)) return report_failure("history", *f, a.model);
     pipeline::AssetHistory h;
-    if (auto f = pipeline::find_asset_history(*db, {a.model, a.from, a.to}, a.asset, h))
+    if (auto f = pipeline::find_asset_history(*db, range, a.asset, h))
       return report_failure("history", *f, a.model);
     if (a.format == "csv") std::cout << history_csv(h);
     else if (a.format == "json") std::cout << history_json(h).dump(2) << "\n";

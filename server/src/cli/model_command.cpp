@@ -28,7 +28,7 @@ std::string describe(const storage::ModelConfig& c) {
                 engine::to_string(c.fit.basis),
                 c.fit.weighting == engine::Weighting::ewma ? ("exponential, half-life " + std::to_string(c.fit.half_life) + " dates").c_str()
                                                        : "equal",
-                c.fit.min_coverage, c.first_as_of.empty() ? "as early as the data allow" : c.first_as_of.c_str());
+                c.fit.min_coverage, c.first_as_of ? c.first_as_of->iso().c_str() : "as early as the data allow");
   std::string out = text;
   out += "  rotation:      " + std::string(engine::to_string(c.rotation.method));
   if (c.rotation.method != engine::RotationMethod::none)
@@ -43,7 +43,7 @@ std::string describe(const storage::ModelConfig& c) {
       break;
   }
   out += ", with at least " + std::to_string(c.effective_min_shared_assets()) + " shared assets\n";
-  out += "  pinned window: " + (c.pinned_window.empty() ? std::string("the first window") : c.pinned_window) + "\n";
+  out += "  pinned window: " + (c.pinned_window ? c.pinned_window->iso() : std::string("the first window")) + "\n";
   char tolerance[96];
   std::snprintf(tolerance, sizeof tolerance, "  tolerance:     %g (%s)\n", c.fit.tolerance,
                 c.fit.method == engine::Method::max_likelihood ? "largest scaled gradient of the log-likelihood"
@@ -78,16 +78,18 @@ int run_model_set(const ModelArguments& a, storage::Database& db) {
   for (const storage::ModelField& field : storage::model_fields()) {
     const auto given = a.options.find(field.member);
     if (given == a.options.end() || given->second.option->count() == 0) continue;
-    std::optional<std::string> why;
+    std::optional<engine::Failure> refused;
     try {
-      why = field.set(config, option_json(field, given->second));
+      refused = storage::set_model_field(field, config, option_json(field, given->second));
     } catch (const storage::InputError& e) {  // the universe file
       std::fprintf(stderr, "factorwatch model set: %s\n", e.what());
       return kExitBadInput;
     }
-    if (why)  // CLI11 has checked the type and the choices; a guard
-      return report_failure("model set", engine::failure(engine::FailureKind::bad_input, field.member, "", *why),
-                            a.name);
+    // CLI11 has checked the types and the choices; a date is read here.
+    if (refused) {
+      std::fprintf(stderr, "factorwatch model set: %s\nNothing was changed.\n", cli_text(*refused).c_str());
+      return exit_code(refused->kind);
+    }
   }
   if (a.equal_weights) storage::find_model_field("half_life")->set(config, nullptr);
 
@@ -130,7 +132,7 @@ int run_model_show(const ModelArguments& a, storage::Database& db) {
   std::printf("model %s, version %d (since %s, configuration %s)\n%s", m->name.c_str(), m->version,
               m->created_at.c_str(), m->configuration_hash.c_str(), describe(m->config).c_str());
   std::printf("  windows:       %zu stored (%zu stale)%s%s\n", counts.windows, counts.stale,
-              counts.windows == 0 ? "" : ", latest as of ", counts.latest_as_of.c_str());
+              counts.windows == 0 ? "" : ", latest as of ", engine::iso_or_empty(counts.latest_as_of).c_str());
   return kExitOk;
 }
 
@@ -146,7 +148,7 @@ int run_model_list(storage::Database& db) {
     const storage::WindowCounts counts = storage::count_windows(db, m.id);
     std::printf("%-20s %7d %-14s %7d %6d %5d %8zu  %s\n", m.name.c_str(), m.version, engine::to_string(m.config.fit.method),
                 m.config.fit.factors, m.config.window, m.config.step, counts.windows,
-                counts.windows == 0 ? "-" : counts.latest_as_of.c_str());
+                counts.windows == 0 ? "-" : engine::iso_or_empty(counts.latest_as_of).c_str());
   }
   return kExitOk;
 }

@@ -6,16 +6,29 @@
 
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/portfolios.h"
-#include "factorwatch/storage/timestamps.h"
+#include "cli_failure.h"
+#include "factorwatch/pipeline/drift_query.h"
 #include "portfolio_views.h"
 
 namespace factorwatch::server {
 namespace {
 
+// --as-of read once here; false after saying why it is not a date (and, for `set`, that
+// nothing was stored).
+bool read_as_of(const PortfolioArguments& a, const char* command, std::optional<engine::Date>& as_of) {
+  const auto f = pipeline::read_date("as_of", a.as_of, as_of);
+  if (f)
+    std::fprintf(stderr, "factorwatch %s: %s\n%s", command, cli_text(*f).c_str(),
+                 std::string(command) == "portfolio set" ? "Nothing was stored.\n" : "");
+  return !f;
+}
+
 int run_portfolio_set(const PortfolioArguments& a, storage::Database& db) {
+  std::optional<engine::Date> as_of;
+  if (!read_as_of(a, "portfolio set", as_of)) return kExitBadInput;
   storage::Portfolio portfolio;
   try {
-    portfolio = storage::read_portfolio_file(a.path, {a.name, a.as_of, a.benchmark});
+    portfolio = storage::read_portfolio_file(a.path, {a.name, as_of, a.benchmark});
   } catch (const storage::InputError& e) {
     std::fprintf(stderr, "factorwatch portfolio set: %s\nThe file was rejected; the database is unchanged.\n", e.what());
     return kExitBadInput;
@@ -51,22 +64,19 @@ int run_portfolio_list(const PortfolioArguments& a, storage::Database& db) {
     std::printf("%-24s %-10s %6s %-20s %9s %10s %10s\n", "name", "as of", "dates", "benchmark", "holdings", "net",
                 "gross");
     for (const auto& p : portfolios)
-      std::printf("%-24s %-10s %6zu %-20s %9zu %10.4g %10.4g\n", p.name.c_str(), p.latest_as_of.c_str(), p.dates,
+      std::printf("%-24s %-10s %6zu %-20s %9zu %10.4g %10.4g\n", p.name.c_str(), p.latest_as_of.iso().c_str(), p.dates,
                   p.benchmark.empty() ? "-" : p.benchmark.c_str(), p.holdings, p.net, p.gross);
   }
   return kExitOk;
 }
 
 int run_portfolio_show(const PortfolioArguments& a, storage::Database& db) {
-  if (!a.as_of.empty() && !storage::is_calendar_date(a.as_of)) {
-    std::fprintf(stderr, "factorwatch portfolio show: option '--as-of': '%s' is not a date (yyyy-mm-dd)\n",
-                 a.as_of.c_str());
-    return kExitBadInput;
-  }
-  const auto p = storage::read_portfolio(db, a.name, a.as_of);
+  std::optional<engine::Date> as_of;
+  if (!read_as_of(a, "portfolio show", as_of)) return kExitBadInput;
+  const auto p = storage::read_portfolio(db, a.name, as_of);
   if (!p) {
     std::fprintf(stderr, "factorwatch portfolio show: no portfolio named '%s'%s (factorwatch portfolio list shows them)\n",
-                 a.name.c_str(), a.as_of.empty() ? "" : (" at or before " + a.as_of).c_str());
+                 a.name.c_str(), as_of ? (" at or before " + as_of->iso()).c_str() : "");
     return kExitBadInput;
   }
   if (a.format == "json") {
@@ -74,7 +84,7 @@ int run_portfolio_show(const PortfolioArguments& a, storage::Database& db) {
   } else if (a.format == "csv") {
     std::cout << portfolio_csv(*p);
   } else {
-    std::printf("portfolio %s, as of %s (stored %s from %s)%s%s\n", p->name.c_str(), p->as_of.c_str(),
+    std::printf("portfolio %s, as of %s (stored %s from %s)%s%s\n", p->name.c_str(), p->as_of.iso().c_str(),
                 p->stored_at.c_str(), p->source.c_str(), p->benchmark.empty() ? "" : "; benchmark ",
                 p->benchmark.c_str());
     std::printf("%-24s %14s\n", "asset", "weight");
@@ -89,15 +99,12 @@ int run_portfolio_show(const PortfolioArguments& a, storage::Database& db) {
 }
 
 int run_portfolio_delete(const PortfolioArguments& a, storage::Database& db) {
-  if (!a.as_of.empty() && !storage::is_calendar_date(a.as_of)) {
-    std::fprintf(stderr, "factorwatch portfolio delete: option '--as-of': '%s' is not a date (yyyy-mm-dd)\n",
-                 a.as_of.c_str());
-    return kExitBadInput;
-  }
-  const std::size_t removed = storage::delete_portfolio(db, a.name, a.as_of);
+  std::optional<engine::Date> as_of;
+  if (!read_as_of(a, "portfolio delete", as_of)) return kExitBadInput;
+  const std::size_t removed = storage::delete_portfolio(db, a.name, as_of);
   if (removed == 0) {
     std::fprintf(stderr, "factorwatch portfolio delete: no portfolio named '%s'%s; nothing removed\n", a.name.c_str(),
-                 a.as_of.empty() ? "" : (" with holdings as of " + a.as_of).c_str());
+                 as_of ? (" with holdings as of " + as_of->iso()).c_str() : "");
     return kExitBadInput;
   }
   std::printf("portfolio %s: removed %zu as-of date%s\n", a.name.c_str(), removed, removed == 1 ? "" : "s");

@@ -17,7 +17,7 @@ void show_progress(const std::string& model, const pipeline::RefreshProgress& p)
   const double rate = p.elapsed_seconds > 0 ? p.done / p.elapsed_seconds : 0;
   const double left = rate > 0 ? (p.total - p.done) / rate : 0;
   std::fprintf(stderr, "\rrefreshing %s: %zu/%zu windows, %.1f windows/s, %.0f s left, as of %s   ", model.c_str(),
-               p.done, p.total, rate, left, p.as_of.c_str());
+               p.done, p.total, rate, left, engine::iso_or_empty(p.as_of).c_str());
   if (p.done == p.total) std::fprintf(stderr, "\n");
   std::fflush(stderr);
 }
@@ -31,7 +31,7 @@ int refresh_one(storage::Database& db, const std::string& name, bool progress) {
     std::printf("nothing to fit: %s (%zu windows current)\n", s.note.c_str(), s.already_current);
   } else {
     std::printf("%zu window%s fitted, as of %s .. %s (%zu were stale, %zu already current), %zu unusable\n", s.fitted,
-                s.fitted == 1 ? "" : "s", s.first_as_of.c_str(), s.last_as_of.c_str(), s.refitted_stale,
+                s.fitted == 1 ? "" : "s", engine::iso_or_empty(s.first_as_of).c_str(), engine::iso_or_empty(s.last_as_of).c_str(), s.refitted_stale,
                 s.already_current, s.unusable);
     std::printf("  %.2f s: reading %.2f s, fitting %.2f s, writing %.2f s (%.1f windows/s)\n", s.seconds,
                 s.read_seconds, s.fit_seconds, s.write_seconds, s.fitted / s.seconds);
@@ -41,10 +41,10 @@ int refresh_one(storage::Database& db, const std::string& name, bool progress) {
               s.alerts, s.alerts == 1 ? "" : "s", s.align_seconds,
               s.alerts > 0 ? "; factorwatch alerts shows them" : "");
   const auto model = storage::find_model(db, name);
-  if (const auto latest = pipeline::read_served_window(db, model->id, "")) {
+  if (const auto latest = pipeline::read_served_window(db, model->id, std::nullopt)) {
     const engine::FactorFit& f = latest->fit;
     std::printf("  latest window %s .. %s: %zu assets (%zu excluded), %d factors explain %.1f%% of the variance, %s after %d iterations%s\n",
-                latest->first_date.c_str(), latest->as_of.c_str(), f.assets.size(), f.excluded.size(), f.factors,
+                latest->first_date.iso().c_str(), latest->as_of.iso().c_str(), f.assets.size(), f.excluded.size(), f.factors,
                 100 * f.explained_total, engine::to_string(f.termination), f.iterations, latest->stale ? " (stale)" : "");
   }
   return s.unusable > 0 ? kExitFailed : kExitOk;

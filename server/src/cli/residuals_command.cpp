@@ -25,8 +25,10 @@ int run_residuals_command(const ResidualsArguments& a, const GlobalArguments& gl
   auto db = open_database(global, "residuals");
   if (!db) return kExitFailed;
   try {
+    std::optional<engine::Date> window;
+    if (auto f = pipeline::read_date("window", a.window, window)) return report_failure("residuals", *f, a.model);
     pipeline::AssetResidualAnswer r;
-    if (auto f = pipeline::find_asset_residuals(*db, a.model, a.asset, a.window, a.method, r))
+    if (auto f = pipeline::find_asset_residuals(*db, a.model, a.asset, window, a.method, r))
       return report_failure("residuals", *f, a.model);
     if (a.format == "csv") std::cout << residuals_csv(r);
     else if (a.format == "json") std::cout << residuals_json(r).dump(2) << "\n";

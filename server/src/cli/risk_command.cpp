@@ -15,7 +15,7 @@ namespace {
 
 // A holdings file read for one query only (the weights, or a trade's weight changes).
 engine::Holdings read_holdings(const std::string& path) {
-  return storage::read_portfolio_file(path, {"unstored", "", ""}).holdings;
+  return storage::read_portfolio_file(path, {"unstored", std::nullopt, ""}).holdings;
 }
 
 }  // namespace
@@ -53,9 +53,11 @@ int run_risk_command(const RiskArguments& a, const GlobalArguments& global) {
     return kExitBadInput;
   }
   pipeline::RiskRequest q;
-  q.window = pipeline::WindowQuery{a.model, a.as_of, {}};
+  q.window.model = a.model;
+  if (auto f = pipeline::read_date("as_of", a.as_of, q.window.as_of)) return report_failure("risk", *f, a.model);
   q.portfolio = a.portfolio;
-  q.portfolio_as_of = a.holdings_as_of;
+  if (auto f = pipeline::read_date("holdings_as_of", a.holdings_as_of, q.portfolio_as_of))
+    return report_failure("risk", *f, a.model);
   q.benchmark = a.benchmark;
   q.no_benchmark = a.no_benchmark;
   try {

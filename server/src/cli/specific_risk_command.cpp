@@ -24,7 +24,7 @@ int run_specific_risk_command(const WindowArguments& a, const GlobalArguments& g
       const engine::Frequency frequency = pipeline::window_frequency(s);
       const std::vector<SpecificRiskRow> rows = specific_risk_rows(s, frequency);
       std::printf("model %s, version %d: window %s .. %s, %s data, annualised by sqrt(%d)%s\n", s.model.name.c_str(),
-                  s.model.version, s.window.first_date.c_str(), s.window.as_of.c_str(), frequency.name,
+                  s.model.version, s.window.first_date.iso().c_str(), s.window.as_of.iso().c_str(), frequency.name,
                   frequency.periods_per_year, s.window.stale ? "; STALE, run factorwatch refresh" : "");
       if (!s.note.empty()) std::printf("note: %s\n", s.note.c_str());
       std::printf("\n%-14s %14s %14s %16s %14s\n", "asset", "specific vol", "specific vol", "total vol", "specific");

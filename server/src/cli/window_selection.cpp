@@ -19,7 +19,8 @@ int run_on_window(const WindowArguments& a, const GlobalArguments& global, const
   auto db = open_database(global, command);
   if (!db) return kExitFailed;
   try {
-    const pipeline::WindowQuery query{a.model, a.as_of, split_list(a.assets)};
+    pipeline::WindowQuery query{a.model, std::nullopt, split_list(a.assets)};
+    if (auto f = pipeline::read_date("as_of", a.as_of, query.as_of)) return report_failure(command, *f, a.model);
     const pipeline::WindowPick pick = pipeline::pick_window(*db, query);
     if (pick.failure) return report_failure(command, *pick.failure, a.model);
     print(pipeline::read_picked_window(*db, pick, query));

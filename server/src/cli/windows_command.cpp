@@ -44,8 +44,8 @@ int run_windows_command(const WindowsArguments& a, const GlobalArguments& global
     for (const auto& w : windows) {
       char residual[32] = "-";
       if (std::isfinite(w.alignment_residual)) std::snprintf(residual, sizeof residual, "%.4f", w.alignment_residual);
-      std::printf("%-10s  %-10s %6lld %6d %5d %8d %-16s %5d %14.4f %8.1f%% %7d %8.1f  %-22s %9s%s\n", w.as_of.c_str(),
-                  w.first_date.c_str(), static_cast<long long>(w.periods), w.asset_count, w.excluded_count, w.factors,
+      std::printf("%-10s  %-10s %6lld %6d %5d %8d %-16s %5d %14.4f %8.1f%% %7d %8.1f  %-22s %9s%s\n", w.as_of.iso().c_str(),
+                  w.first_date.iso().c_str(), static_cast<long long>(w.periods), w.asset_count, w.excluded_count, w.factors,
                   w.termination.c_str(), w.iterations, w.log_likelihood, 100 * w.explained_total, w.heywood_count,
                   1000 * w.fit_seconds, w.alignment.c_str(), residual, w.stale ? "  stale" : "");
     }

@@ -77,7 +77,7 @@ ApiResponse list_assets_endpoint(const ApiContext& context, const ApiRequest& r)
   const auto assets = storage::list_assets(context.database());
   if (std::get<Format>(format) == Format::csv) {
     std::string out = "asset,first_date,last_date\n";
-    for (const auto& a : assets) out += csv_field(a.name) + "," + a.first_date + "," + a.last_date + "\n";
+    for (const auto& a : assets) out += csv_field(a.name) + "," + engine::iso_or_empty(a.first_date) + "," + engine::iso_or_empty(a.last_date) + "\n";
     return csv_response(std::move(out), "assets.csv", false);
   }
   nlohmann::ordered_json list = nlohmann::ordered_json::array();

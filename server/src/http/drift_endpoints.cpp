@@ -8,27 +8,23 @@
 #include "window_drift_view.h"
 
 namespace factorwatch::server {
-namespace {
-
-pipeline::RangeQuery range_of(const ApiRequest& r) {
-  return {r.path_values.at("name"), r.parameter("from").value_or(""), r.parameter("to").value_or("")};
-}
-
-}  // namespace
-
 ApiResponse drift_endpoint(const ApiContext& context, const ApiRequest& r) {
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
-  const pipeline::RangeQuery query = range_of(r);
+  const auto range = range_query(r);
+  if (const auto* p = std::get_if<ApiResponse>(&range)) return *p;
+  const pipeline::RangeQuery& query = std::get<pipeline::RangeQuery>(range);
   const std::string against = r.parameter("against").value_or("");
   storage::Database& db = context.database();
-  if (const auto window = r.parameter("window")) {
-    if (!query.from.empty() || !query.to.empty())
+  if (r.parameter("window")) {
+    if (query.from || query.to)
       return problem(400, "query parameter 'window' compares one window; leave out 'from' and 'to'", r.path, "window");
+    std::optional<engine::Date> window;
+    if (auto bad = date_parameter(r, "window", window)) return *bad;
     pipeline::WindowDrift d;
-    if (auto failed = pipeline::find_window_drift(db, query.model, *window, against, d)) return failure_problem(r, *failed);
-    const std::string filename = query.model + "-drift-" + d.record.as_of + "-" + d.record.against + ".csv";
+    if (auto failed = pipeline::find_window_drift(db, query.model, window, against, d)) return failure_problem(r, *failed);
+    const std::string filename = query.model + "-drift-" + d.record.as_of.iso() + "-" + d.record.against + ".csv";
     return f == Format::csv ? csv_response(window_drift_csv(d), filename, true) : json_response(window_drift_json(d));
   }
   pipeline::DriftSeries s;
@@ -40,7 +36,9 @@ ApiResponse history_endpoint(const ApiContext& context, const ApiRequest& r) {
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
-  const pipeline::RangeQuery query = range_of(r);
+  const auto range = range_query(r);
+  if (const auto* p = std::get_if<ApiResponse>(&range)) return *p;
+  const pipeline::RangeQuery& query = std::get<pipeline::RangeQuery>(range);
   pipeline::AssetHistory h;
   if (auto failed = pipeline::find_asset_history(context.database(), query, r.parameter("asset").value_or(""), h))
     return failure_problem(r, *failed);
@@ -52,7 +50,9 @@ ApiResponse alerts_endpoint(const ApiContext& context, const ApiRequest& r) {
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
-  const pipeline::RangeQuery query = range_of(r);
+  const auto range = range_query(r);
+  if (const auto* p = std::get_if<ApiResponse>(&range)) return *p;
+  const pipeline::RangeQuery& query = std::get<pipeline::RangeQuery>(range);
   pipeline::AlertList a;
   if (auto failed = pipeline::find_alerts(context.database(), query, a)) return failure_problem(r, *failed);
   return f == Format::csv ? csv_response(alerts_csv(a), query.model + "-alerts.csv", true) : json_response(alerts_json(a));

@@ -82,6 +82,20 @@ std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& r, const std::s
   return problem(400, "query parameter '" + name + "' = '" + *value + "': must be true or false", r.path, name);
 }
 
+std::optional<ApiResponse> date_parameter(const ApiRequest& r, const std::string& name,
+                                          std::optional<engine::Date>& date) {
+  if (auto f = pipeline::read_date(name, r.parameter(name).value_or(""), date)) return failure_problem(r, *f);
+  return std::nullopt;
+}
+
+std::variant<pipeline::RangeQuery, ApiResponse> range_query(const ApiRequest& r) {
+  pipeline::RangeQuery q;
+  q.model = r.path_values.at("name");
+  if (auto bad = date_parameter(r, "from", q.from)) return *bad;
+  if (auto bad = date_parameter(r, "to", q.to)) return *bad;
+  return q;
+}
+
 std::string file_part(const std::string& text) {
   std::string out = text;
   for (char& c : out)

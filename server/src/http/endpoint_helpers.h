@@ -8,7 +8,9 @@
 #include <variant>
 
 #include "api_message.h"
+#include "factorwatch/engine/date.h"
 #include "factorwatch/engine/failure.h"
+#include "factorwatch/pipeline/drift_query.h"
 #include "factorwatch/storage/input_error.h"
 
 namespace factorwatch::server {
@@ -44,6 +46,14 @@ std::string failure_text(const engine::Failure& failure, bool in_body);
 
 // A true/false query parameter (true, false, 1, 0, yes, no); a 400 naming it otherwise.
 std::variant<bool, ApiResponse> flag_parameter(const ApiRequest& request, const std::string& name);
+
+// A date query parameter, read once here (pipeline::read_date): absent or "" is no date; a
+// text that is not a date yyyy-mm-dd is the 400 returned.
+std::optional<ApiResponse> date_parameter(const ApiRequest& request, const std::string& name,
+                                          std::optional<engine::Date>& date);
+
+// The path's model with the query parameters `from` and `to` read as dates; or the 400.
+std::variant<pipeline::RangeQuery, ApiResponse> range_query(const ApiRequest& request);
 
 // 422 for a rejected upload (a returns or holdings file): the reader's message, the file,
 // line and field it names, and that the database is unchanged.

@@ -21,8 +21,8 @@ std::optional<BodyProblem> apply_definition(const json& body, storage::ModelConf
     // Over HTTP a half-life of 0 also means equal weights (docs/api.md); on the command
     // line it is refused, --equal-weights says so.
     const bool equal_weights = field->kind == storage::FieldKind::half_life && value.is_number() && value == 0;
-    if (auto why = field->set(config, equal_weights ? json() : value))
-      return BodyProblem{"member '" + member + "': " + *why, member};
+    if (auto refused = storage::set_model_field(*field, config, equal_weights ? json() : value))
+      return BodyProblem{failure_text(*refused, true), member};
   }
   return std::nullopt;
 }

@@ -4,24 +4,16 @@
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/portfolios.h"
-#include "factorwatch/storage/timestamps.h"
 #include "portfolio_views.h"
 
 namespace factorwatch::server {
 namespace {
 
-// A 400 for a query parameter `as_of` that is not a date; nullopt when absent or good.
-std::optional<ApiResponse> bad_as_of(const ApiRequest& r) {
-  const auto as_of = r.parameter("as_of");
-  if (!as_of || storage::is_calendar_date(*as_of)) return std::nullopt;
-  return problem(400, "query parameter 'as_of': '" + *as_of + "' is not a date (yyyy-mm-dd)", r.path, "as_of");
-}
-
-ApiResponse unknown_portfolio(const ApiRequest& r, const std::string& name, const std::string& as_of) {
+ApiResponse unknown_portfolio(const ApiRequest& r, const std::string& name, std::optional<engine::Date> as_of) {
   return problem(404,
-                 "no portfolio named '" + name + "'" + (as_of.empty() ? "" : " with holdings at or before " + as_of) +
+                 "no portfolio named '" + name + "'" + (as_of ? " with holdings at or before " + as_of->iso() : "") +
                      " (GET /v1/portfolios lists them)",
-                 r.path, as_of.empty() ? "name" : "as_of");
+                 r.path, as_of ? "as_of" : "name");
 }
 
 }  // namespace
@@ -38,15 +30,15 @@ ApiResponse list_portfolios_endpoint(const ApiContext& context, const ApiRequest
 ApiResponse show_portfolio_endpoint(const ApiContext& context, const ApiRequest& r) {
   const auto format = negotiate_format(r);
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
-  if (auto bad = bad_as_of(r)) return *bad;
+  std::optional<engine::Date> as_of;
+  if (auto bad = date_parameter(r, "as_of", as_of)) return *bad;
   const std::string& name = r.path_values.at("name");
-  const std::string as_of = r.parameter("as_of").value_or("");
   storage::Database& db = context.database();
   const auto portfolio = storage::read_portfolio(db, name, as_of);
   if (!portfolio) return unknown_portfolio(r, name, as_of);
   if (std::get<Format>(format) == Format::csv)
     return csv_response(portfolio_csv(*portfolio),
-                        name + "-" + portfolio->as_of + ".csv", false);
+                        name + "-" + portfolio->as_of.iso() + ".csv", false);
   return json_response(portfolio_json(*portfolio, storage::portfolio_dates(db, name)));
 }
 
@@ -54,7 +46,8 @@ ApiResponse store_portfolio_endpoint(const ApiContext& context, const ApiRequest
   const std::string& name = r.path_values.at("name");
   const char* kNameRule = "': use 1 to 64 letters, digits, '.', '_' or '-'";
   if (!storage::is_portfolio_name(name)) return problem(400, "portfolio name '" + name + kNameRule, r.path, "name");
-  if (auto bad = bad_as_of(r)) return *bad;
+  std::optional<engine::Date> as_of;
+  if (auto bad = date_parameter(r, "as_of", as_of)) return *bad;
   const std::string benchmark = r.parameter("benchmark").value_or("");
   if (!benchmark.empty() && !storage::is_portfolio_name(benchmark))
     return problem(400, "query parameter 'benchmark': '" + benchmark + kNameRule, r.path, "benchmark");
@@ -65,7 +58,7 @@ ApiResponse store_portfolio_endpoint(const ApiContext& context, const ApiRequest
   storage::Portfolio portfolio;
   try {
     portfolio = storage::parse_portfolio_text(std::string(r.body), label,
-                                              {name, r.parameter("as_of").value_or(""), benchmark});
+                                              {name, as_of, benchmark});
   } catch (const storage::InputError& e) {
     return rejected_upload(r, e);
   } catch (const std::invalid_argument& e) {
@@ -82,15 +75,15 @@ ApiResponse store_portfolio_endpoint(const ApiContext& context, const ApiRequest
 }
 
 ApiResponse delete_portfolio_endpoint(const ApiContext& context, const ApiRequest& r) {
-  if (auto bad = bad_as_of(r)) return *bad;
+  std::optional<engine::Date> as_of;
+  if (auto bad = date_parameter(r, "as_of", as_of)) return *bad;
   const std::string& name = r.path_values.at("name");
-  const std::string as_of = r.parameter("as_of").value_or("");
   const std::size_t removed = storage::delete_portfolio(context.database(), name, as_of);
   if (removed == 0)
     return problem(404,
-                   "no portfolio named '" + name + "'" + (as_of.empty() ? "" : " with holdings as of " + as_of) +
+                   "no portfolio named '" + name + "'" + (as_of ? " with holdings as of " + as_of->iso() : "") +
                        "; nothing removed (GET /v1/portfolios lists them)",
-                   r.path, as_of.empty() ? "name" : "as_of");
+                   r.path, as_of ? "as_of" : "name");
   return json_response({{"name", name}, {"removed_dates", removed}});
 }
 

@@ -67,7 +67,7 @@ nlohmann::ordered_json RefreshJobs::to_json(const Job& job) {
   j["finished_at"] = text_or_null(job.finished_at);
   j["progress"] = {{"done", job.progress.done},
                    {"total", job.progress.total},
-                   {"as_of", text_or_null(job.progress.as_of)},
+                   {"as_of", job.progress.as_of},
                    {"elapsed_seconds", job.progress.elapsed_seconds}};
   if (job.summary) {
     const pipeline::RefreshSummary& s = *job.summary;
@@ -77,8 +77,8 @@ nlohmann::ordered_json RefreshJobs::to_json(const Job& job) {
                     {"fitted", s.fitted},
                     {"refitted_stale", s.refitted_stale},
                     {"unusable", s.unusable},
-                    {"first_as_of", text_or_null(s.first_as_of)},
-                    {"last_as_of", text_or_null(s.last_as_of)},
+                    {"first_as_of", s.first_as_of},
+                    {"last_as_of", s.last_as_of},
                     {"seconds", s.seconds},
                     {"read_seconds", s.read_seconds},
                     {"fit_seconds", s.fit_seconds},

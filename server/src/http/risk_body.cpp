@@ -3,6 +3,8 @@
 #include <cmath>
 #include <unordered_set>
 
+#include "endpoint_helpers.h"
+#include "factorwatch/pipeline/drift_query.h"
 #include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/portfolios.h"
 
@@ -67,8 +69,12 @@ std::optional<BodyProblem> read_risk_body(std::string_view text, pipeline::RiskR
       target = std::get<engine::Holdings>(std::move(holdings));
     } else if (member == "portfolio" || member == "benchmark" || member == "holdings_as_of") {
       if (!value.is_string()) return bad("must be a string");
-      (member == "portfolio" ? q.portfolio : member == "benchmark" ? q.benchmark : q.portfolio_as_of) =
-          value.get<std::string>();
+      if (member == "holdings_as_of") {
+        if (auto f = pipeline::read_date(member, value.get<std::string>(), q.portfolio_as_of))
+          return BodyProblem{failure_text(*f, true), member};
+      } else {
+        (member == "portfolio" ? q.portfolio : q.benchmark) = value.get<std::string>();
+      }
     } else if (member == "no_benchmark") {
       if (!value.is_boolean()) return bad("must be true or false");
       q.no_benchmark = value.get<bool>();
@@ -79,7 +85,7 @@ std::optional<BodyProblem> read_risk_body(std::string_view text, pipeline::RiskR
   }
   if (q.holdings && !q.portfolio.empty())
     return BodyProblem{"member 'portfolio': give weights or a stored portfolio's name, not both", "portfolio"};
-  if (q.holdings && !q.portfolio_as_of.empty())
+  if (q.holdings && q.portfolio_as_of)
     return BodyProblem{"member 'holdings_as_of': only for a stored portfolio (\"portfolio\"), not with weights",
                        "holdings_as_of"};
   if (!q.holdings && q.portfolio.empty())

@@ -43,7 +43,7 @@ ApiResponse answer(const ApiContext& context, const ApiRequest& r, const pipelin
   if (std::get<Format>(format) == Format::csv) {
     const std::string name = q.portfolio.empty() ? "weights" : q.portfolio;
     return csv_response(risk_csv(outcome.report, view),
-                        q.window.model + "-risk-" + name + "-" + outcome.report.window->as_of + ".csv", true);
+                        q.window.model + "-risk-" + name + "-" + outcome.report.window->as_of.iso() + ".csv", true);
   }
   return json_response(risk_json(outcome.report, view));
 }
@@ -74,12 +74,13 @@ std::variant<engine::Holdings, std::string> trade_parameter(const std::string& t
 
 ApiResponse stored_portfolio_risk_endpoint(const ApiContext& context, const ApiRequest& r) {
   pipeline::RiskRequest q;
-  q.window = pipeline::WindowQuery{r.path_values.at("name"), r.parameter("as_of").value_or(""), {}};
+  q.window.model = r.path_values.at("name");
+  if (auto bad = date_parameter(r, "as_of", q.window.as_of)) return *bad;
   q.portfolio = r.parameter("portfolio").value_or("");
   if (q.portfolio.empty())
     return problem(400, "query parameter 'portfolio': name a stored portfolio (GET /v1/portfolios lists them; "
                         "POST sends weights instead)", r.path, "portfolio");
-  q.portfolio_as_of = r.parameter("holdings_as_of").value_or("");
+  if (auto bad = date_parameter(r, "holdings_as_of", q.portfolio_as_of)) return *bad;
   q.benchmark = r.parameter("benchmark").value_or("");
   const auto no_benchmark =
       r.parameter("no_benchmark") ? flag_parameter(r, "no_benchmark") : std::variant<bool, ApiResponse>(false);
@@ -98,7 +99,8 @@ ApiResponse stored_portfolio_risk_endpoint(const ApiContext& context, const ApiR
 
 ApiResponse posted_weights_risk_endpoint(const ApiContext& context, const ApiRequest& r) {
   pipeline::RiskRequest q;
-  q.window = pipeline::WindowQuery{r.path_values.at("name"), r.parameter("as_of").value_or(""), {}};
+  q.window.model = r.path_values.at("name");
+  if (auto bad = date_parameter(r, "as_of", q.window.as_of)) return *bad;
   if (auto bad = read_risk_body(r.body, q)) return problem(400, bad->message, r.path, bad->field);
   return answer(context, r, q);
 }

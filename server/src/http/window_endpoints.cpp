@@ -21,7 +21,8 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
   if (const auto* p = std::get_if<ApiResponse>(&format)) return *p;
   const Format f = std::get<Format>(format);
   const std::string assets = r.parameter("assets").value_or("");
-  const pipeline::WindowQuery query{r.path_values.at("name"), r.parameter("as_of").value_or(""), split_list(assets)};
+  pipeline::WindowQuery query{r.path_values.at("name"), std::nullopt, split_list(assets)};
+  if (auto bad = date_parameter(r, "as_of", query.as_of)) return *bad;
   if (!assets.empty() && query.assets.empty())
     return problem(400, "query parameter 'assets': no asset names (give them comma-separated)", r.path, "assets");
 
@@ -32,7 +33,7 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
   // stored, which the window stamp does not cover.
   const bool cacheable = query.assets.empty();
   const std::string key = std::string(what) + (f == Format::csv ? "|csv|" : "|json|") +
-                          std::to_string(pick.model.id) + "|" + pick.stamp.key() + "|" + query.as_of;
+                          std::to_string(pick.model.id) + "|" + pick.stamp.key() + "|" + engine::iso_or_empty(query.as_of);
   std::shared_ptr<const std::string> body = cacheable ? context.cache->find(key) : nullptr;
   if (!body) {
     body = std::make_shared<const std::string>(render(pipeline::read_picked_window(db, pick, query), f));
@@ -53,7 +54,7 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
   }
   ApiResponse response;
   if (f == Format::csv) {
-    response = csv_response(std::move(body), query.model + "-" + what + "-" + pick.stamp.as_of + ".csv", true);
+    response = csv_response(std::move(body), query.model + "-" + what + "-" + pick.stamp.as_of.iso() + ".csv", true);
   } else {
     response.body = std::move(body);
   }

@@ -23,7 +23,7 @@ std::string alerts_csv(const pipeline::AlertList& a) {
   std::string out = csv_caution_line();
   out += "as_of,against,against_as_of,factor,congruence,threshold,moved_most\n";
   for (const storage::DriftAlert& x : a.alerts)
-    out += x.as_of + "," + x.against + "," + x.against_as_of + "," + pipeline::factor_name(x.factor - 1) + "," +
+    out += x.as_of.iso() + "," + x.against + "," + x.against_as_of.iso() + "," + pipeline::factor_name(x.factor - 1) + "," +
            csv_number(x.congruence) + "," + exact_number(x.threshold) + "," +
            csv_field(movers_text(x.movers, kMoversShown)) + "\n";
   return out;

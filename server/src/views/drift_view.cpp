@@ -44,7 +44,7 @@ std::string drift_csv(const pipeline::DriftSeries& s) {
   for (Eigen::Index j = 0; j < k; ++j) out += ",explained_share_change_" + pipeline::factor_name(j);
   out += ",mean_exposure_change,mean_communality_change,flagged\n";
   for (const storage::DriftRecord& r : s.rows) {
-    out += r.as_of + "," + r.against + "," + r.against_as_of + "," + csv_field(r.status) + "," +
+    out += r.as_of.iso() + "," + r.against + "," + r.against_as_of.iso() + "," + csv_field(r.status) + "," +
            std::to_string(r.shared);
     append_cells(out, r.congruence, k);
     append_cells(out, r.principal_angles_degrees, k);

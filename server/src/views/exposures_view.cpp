@@ -71,7 +71,7 @@ nlohmann::ordered_json exposures_json(const pipeline::SelectedWindow& s) {
     nlohmann::ordered_json alignment;
     alignment["status"] = a->status;
     alignment["reference"] = a->reference;
-    alignment["reference_as_of"] = a->reference_as_of.empty() ? nlohmann::ordered_json() : nlohmann::ordered_json(a->reference_as_of);
+    alignment["reference_as_of"] = a->reference_as_of;
     alignment["shared_assets"] = a->shared;
     alignment["residual"] = std::isfinite(a->residual) ? nlohmann::ordered_json(a->residual) : nlohmann::ordered_json();
     j["alignment"] = std::move(alignment);

@@ -41,15 +41,15 @@ void append_factor_headings(std::string& out, Eigen::Index k) {
 }
 
 std::string range_text(const pipeline::FactorReturnSeriesAnswer& a) {
-  return "windows " + (a.from.empty() ? std::string("from the first") : "from " + a.from) + " " +
-         (a.to.empty() ? std::string("to the latest") : "to " + a.to);
+  return "windows " + (a.from ? "from " + a.from->iso() : std::string("from the first")) + " " +
+         (a.to ? "to " + a.to->iso() : std::string("to the latest"));
 }
 
 // The series' rows and skipped windows, merged by as-of date for the CSV and the table.
 struct SeriesLine {
   const pipeline::FactorReturnRow* row = nullptr;      // a usable window
   const pipeline::SkippedWindow* skipped = nullptr;    // or one that gave no row
-  const std::string& as_of() const { return row ? row->as_of : skipped->as_of; }
+  engine::Date as_of() const { return row ? row->as_of : skipped->as_of; }
 };
 
 std::vector<SeriesLine> series_lines(const pipeline::FactorReturnSeries& s) {
@@ -96,13 +96,13 @@ std::string factor_return_series_csv(const pipeline::FactorReturnSeriesAnswer& a
   out += ",assets_used,reason\n";
   for (const SeriesLine& line : series_lines(a.series)) {
     if (line.skipped) {
-      out += line.skipped->as_of + ",,";
+      out += line.skipped->as_of.iso() + ",,";
       for (Eigen::Index j = 0; j < k; ++j) out += ',';
       out += ",," + csv_field(line.skipped->reason) + "\n";
       continue;
     }
     const pipeline::FactorReturnRow& r = *line.row;
-    out += r.as_of + "," + r.window_first_date + "," + csv_field(r.alignment);
+    out += r.as_of.iso() + "," + r.window_first_date.iso() + "," + csv_field(r.alignment);
     append_factor_cells(out, r.scores, k);
     out += "," + std::to_string(r.assets_used) + "," + csv_field(r.unscored_reason) + "\n";
   }
@@ -120,8 +120,8 @@ ordered_json factor_return_series_json(const pipeline::FactorReturnSeriesAnswer&
                      " of each window's as-of date under that window's served factors";
   j["factor_basis"] = pipeline::series_basis_text(a.model.config);
   j["factors"] = pipeline::series_factor_columns(a);
-  j["from"] = a.from.empty() ? ordered_json() : ordered_json(a.from);
-  j["to"] = a.to.empty() ? ordered_json() : ordered_json(a.to);
+  j["from"] = a.from;
+  j["to"] = a.to;
   ordered_json rows = ordered_json::array();
   for (const pipeline::FactorReturnRow& r : a.series.rows) {
     ordered_json row;
@@ -156,12 +156,12 @@ std::string factor_return_series_table(const pipeline::FactorReturnSeriesAnswer&
   out += "  assets\n";
   for (const SeriesLine& l : series_lines(a.series)) {
     if (l.skipped) {
-      std::snprintf(line, sizeof line, "%-10s  skipped: %s\n", l.skipped->as_of.c_str(), l.skipped->reason.c_str());
+      std::snprintf(line, sizeof line, "%-10s  skipped: %s\n", l.skipped->as_of.iso().c_str(), l.skipped->reason.c_str());
       out += line;
       continue;
     }
     const pipeline::FactorReturnRow& r = *l.row;
-    std::snprintf(line, sizeof line, "%-10s  %-10s  %-16s", r.as_of.c_str(), r.window_first_date.c_str(),
+    std::snprintf(line, sizeof line, "%-10s  %-10s  %-16s", r.as_of.iso().c_str(), r.window_first_date.iso().c_str(),
                   r.alignment.c_str());
     out += line;
     append_factor_columns(out, r.scores, k);
@@ -189,7 +189,7 @@ std::string window_factor_returns_csv(const pipeline::WindowFactorReturns& a) {
   out += ",assets_used,reason\n";
   for (std::size_t t = 0; t < s.dates.size(); ++t) {
     const auto row = static_cast<Eigen::Index>(t);
-    out += s.dates[t];
+    out += s.dates[t].iso();
     append_factor_cells(out, s.scores.row(row).transpose(), k);
     out += "," + std::to_string(s.assets_used[t]) + "," + csv_field(unscored_reason(s, t)) + "\n";
   }
@@ -226,7 +226,7 @@ std::string window_factor_returns_table(const pipeline::WindowFactorReturns& a) 
   const Eigen::Index k = s.scores.cols();
   char line[256];
   std::snprintf(line, sizeof line, "model %s, version %d: window %s .. %s, method %s, %lld modelled assets%s\n",
-                w.model.name.c_str(), w.model.version, w.window.first_date.c_str(), w.window.as_of.c_str(),
+                w.model.name.c_str(), w.model.version, w.window.first_date.iso().c_str(), w.window.as_of.iso().c_str(),
                 engine::to_string(s.method), static_cast<long long>(s.modelled_assets),
                 w.window.stale ? "; STALE, run factorwatch refresh" : "");
   std::string out = line;
@@ -238,7 +238,7 @@ std::string window_factor_returns_table(const pipeline::WindowFactorReturns& a) 
   append_factor_headings(out, k);
   out += "  assets\n";
   for (std::size_t t = 0; t < s.dates.size(); ++t) {
-    std::snprintf(line, sizeof line, "%-10s", s.dates[t].c_str());
+    std::snprintf(line, sizeof line, "%-10s", s.dates[t].iso().c_str());
     out += line;
     append_factor_columns(out, s.scores.row(static_cast<Eigen::Index>(t)).transpose(), k);
     std::snprintf(line, sizeof line, "  %6lld", static_cast<long long>(s.assets_used[t]));

@@ -26,7 +26,7 @@ std::string history_csv(const pipeline::AssetHistory& h) {
   for (Eigen::Index j = 0; j < k; ++j) out += ",exposure_" + pipeline::factor_name(j);
   out += ",communality,specific_variance,specific_volatility,alignment\n";
   for (const pipeline::ExposurePoint& p : h.points) {
-    out += p.as_of + (p.present ? ",true" : ",false");
+    out += p.as_of.iso() + (p.present ? ",true" : ",false");
     for (Eigen::Index j = 0; j < k; ++j) {
       out += ',';
       if (p.present && j < p.exposures.size()) append_exact_number(out, p.exposures(j));

@@ -11,7 +11,7 @@ const char* yes_no(bool b) { return b ? "true" : "false"; }
 struct ModelLine {
   storage::ModelVersion model;
   std::size_t windows;
-  std::string latest_as_of;
+  std::optional<engine::Date> latest_as_of;
 };
 
 std::vector<ModelLine> model_lines(storage::Database& db) {
@@ -60,7 +60,7 @@ std::string windows_csv(const std::vector<storage::WindowSummary>& windows) {
   out += "as_of,first_date,periods,assets,excluded,factors,termination,usable,warm_started,iterations,"
          "largest_scaled_gradient,log_likelihood,explained_share,heywood_cases,fit_seconds,total_seconds,stale,alignment,alignment_residual\n";
   for (const auto& w : windows) {
-    out += w.as_of + "," + w.first_date + "," + std::to_string(w.periods) + "," + std::to_string(w.asset_count) + "," +
+    out += w.as_of.iso() + "," + w.first_date.iso() + "," + std::to_string(w.periods) + "," + std::to_string(w.asset_count) + "," +
            std::to_string(w.excluded_count) + "," + std::to_string(w.factors) + "," + csv_field(w.termination) + "," +
            yes_no(w.usable) + "," + yes_no(w.warm_started) + "," + std::to_string(w.iterations) + "," +
            csv_number(w.largest_scaled_gradient) + "," + exact_number(w.log_likelihood) + "," + exact_number(w.explained_total) + "," +
@@ -79,7 +79,7 @@ nlohmann::ordered_json model_json(const storage::ModelVersion& m, const storage:
   j["configuration"] = m.config.to_json();
   j["windows"] = counts.windows;
   j["stale_windows"] = counts.stale;
-  j["latest_as_of"] = counts.latest_as_of.empty() ? nlohmann::ordered_json() : nlohmann::ordered_json(counts.latest_as_of);
+  j["latest_as_of"] = counts.latest_as_of;
   return j;
 }
 
@@ -94,8 +94,7 @@ nlohmann::ordered_json models_json(storage::Database& db) {
                     {"window", c.window},
                     {"step", c.step},
                     {"windows", line.windows},
-                    {"latest_as_of", line.latest_as_of.empty() ? nlohmann::ordered_json()
-                                                               : nlohmann::ordered_json(line.latest_as_of)}});
+                    {"latest_as_of", line.latest_as_of}});
   }
   return {{"models", std::move(rows)}};
 }
@@ -106,7 +105,7 @@ std::string models_csv(storage::Database& db) {
     const storage::ModelConfig& c = line.model.config;
     out += csv_field(line.model.name) + "," + std::to_string(line.model.version) + "," + engine::to_string(c.fit.method) +
            "," + std::to_string(c.fit.factors) + "," + std::to_string(c.window) + "," + std::to_string(c.step) + "," +
-           std::to_string(line.windows) + "," + line.latest_as_of + "\n";
+           std::to_string(line.windows) + "," + engine::iso_or_empty(line.latest_as_of) + "\n";
   }
   return out;
 }

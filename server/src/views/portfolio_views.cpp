@@ -49,13 +49,13 @@ ordered_json portfolio_list_json(const std::vector<storage::PortfolioSummary>& p
 std::string portfolio_list_csv(const std::vector<storage::PortfolioSummary>& portfolios) {
   std::string out = "name,latest_as_of,dates,benchmark,holdings,net,gross,stored_at\n";
   for (const auto& p : portfolios)
-    out += csv_field(p.name) + "," + p.latest_as_of + "," + std::to_string(p.dates) + "," + csv_field(p.benchmark) +
+    out += csv_field(p.name) + "," + p.latest_as_of.iso() + "," + std::to_string(p.dates) + "," + csv_field(p.benchmark) +
            "," + std::to_string(p.holdings) + "," + exact_number(p.net) + "," + exact_number(p.gross) + "," +
            p.stored_at + "\n";
   return out;
 }
 
-ordered_json portfolio_json(const storage::Portfolio& p, const std::vector<std::string>& dates) {
+ordered_json portfolio_json(const storage::Portfolio& p, const std::vector<engine::Date>& dates) {
   ordered_json j;
   j["name"] = p.name;
   j["as_of"] = p.as_of;
@@ -86,7 +86,7 @@ std::string stored_portfolio_text(const storage::Portfolio& p, const storage::Sa
   char text[512];
   std::snprintf(text, sizeof text,
                 "portfolio %s, as of %s: %zu holdings, %s\n  weights: net %.6g, gross %.6g, long %.6g, short %.6g%s\n",
-                p.name.c_str(), p.as_of.c_str(), p.holdings.size(), what, s.net, s.gross, s.long_weight,
+                p.name.c_str(), p.as_of.iso().c_str(), p.holdings.size(), what, s.net, s.gross, s.long_weight,
                 s.short_weight, std::abs(s.net - 1) > 1e-9 ? " (net is not 1; risk is measured on the weights as given)" : "");
   std::string out = text;
   if (!p.benchmark.empty()) out += "  benchmark: " + p.benchmark + "\n";

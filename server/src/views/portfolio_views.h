@@ -14,7 +14,7 @@ nlohmann::ordered_json portfolio_list_json(const std::vector<storage::PortfolioS
 std::string portfolio_list_csv(const std::vector<storage::PortfolioSummary>& portfolios);
 
 // One portfolio's holdings for one as-of date, with the weights' sums and every stored date.
-nlohmann::ordered_json portfolio_json(const storage::Portfolio& p, const std::vector<std::string>& dates);
+nlohmann::ordered_json portfolio_json(const storage::Portfolio& p, const std::vector<engine::Date>& dates);
 std::string portfolio_csv(const storage::Portfolio& p);  // asset,weight: a file `portfolio set` reads back
 
 // What was stored, in words and as JSON: the sums the weights add up to, and how many

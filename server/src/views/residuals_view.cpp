@@ -40,7 +40,7 @@ std::string residuals_csv(const pipeline::AssetResidualAnswer& a) {
   if (!a.window.note.empty()) out += "; note: " + a.window.note;
   out += "\ndate,residual\n";
   for (std::size_t t = 0; t < r.dates.size(); ++t) {
-    out += r.dates[t] + ",";
+    out += r.dates[t].iso() + ",";
     out += csv_number(r.residuals(static_cast<Eigen::Index>(t)));
     out += '\n';
   }
@@ -72,7 +72,7 @@ std::string residuals_table(const pipeline::AssetResidualAnswer& a) {
   const pipeline::SelectedWindow& w = a.window;
   char line[256];
   std::snprintf(line, sizeof line, "model %s, version %d: window %s .. %s, asset %s, method %s%s\n",
-                w.model.name.c_str(), w.model.version, w.window.first_date.c_str(), w.window.as_of.c_str(),
+                w.model.name.c_str(), w.model.version, w.window.first_date.iso().c_str(), w.window.as_of.iso().c_str(),
                 table_text(r.asset).c_str(), engine::to_string(r.method),
                 w.window.stale ? "; STALE, run factorwatch refresh" : "");
   std::string out = line;
@@ -91,11 +91,11 @@ std::string residuals_table(const pipeline::AssetResidualAnswer& a) {
   for (std::size_t t = 0; t < r.dates.size(); ++t) {
     const double e = r.residuals(static_cast<Eigen::Index>(t));
     if (std::isfinite(e)) {
-      std::snprintf(line, sizeof line, "%-10s  %+9.4f%%\n", r.dates[t].c_str(), 100 * e);
+      std::snprintf(line, sizeof line, "%-10s  %+9.4f%%\n", r.dates[t].iso().c_str(), 100 * e);
       sum += e;
       ++observed;
     } else {
-      std::snprintf(line, sizeof line, "%-10s  %9s   (no return, or the date was not scored)\n", r.dates[t].c_str(), "-");
+      std::snprintf(line, sizeof line, "%-10s  %9s   (no return, or the date was not scored)\n", r.dates[t].iso().c_str(), "-");
     }
     out += line;
   }

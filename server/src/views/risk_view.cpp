@@ -46,7 +46,7 @@ ordered_json book_json(const pipeline::WindowRiskModel& w, const pipeline::RiskB
   ordered_json j;
   j["book"] = b.role;
   j["name"] = b.name.empty() ? ordered_json() : ordered_json(b.name);
-  j["holdings_as_of"] = b.as_of.empty() ? ordered_json() : ordered_json(b.as_of);
+  j["holdings_as_of"] = b.as_of;
   j["weights"] = weights_json(r.weights);
   j["total"] = figure_json(r.total);
   j["systematic"] = figure_json(r.systematic);
@@ -120,7 +120,7 @@ void append_row(std::string& out, const pipeline::WindowRiskModel& w, const std:
 std::string heading_words(const pipeline::RiskReport& report) {
   const pipeline::WindowRiskModel& w = *report.window;
   std::string text = "model " + w.model.name + " version " + std::to_string(w.model.version) + ", window " +
-                     w.first_date + " .. " + w.as_of + ", " + w.frequency.name + " data, annualised by sqrt(" +
+                     w.first_date.iso() + " .. " + w.as_of.iso() + ", " + w.frequency.name + " data, annualised by sqrt(" +
                      std::to_string(w.frequency.periods_per_year) + "), " + w.basis;
   if (w.stale) text += "; STALE (returns changed after the fit)";
   return text;
@@ -129,7 +129,7 @@ std::string heading_words(const pipeline::RiskReport& report) {
 std::string book_words(const pipeline::RiskBook& b) {
   std::string text = b.role;
   if (!b.name.empty()) text += " " + b.name;
-  if (!b.as_of.empty()) text += " (holdings as of " + b.as_of + ")";
+  if (b.as_of) text += " (holdings as of " + b.as_of->iso() + ")";
   if (b.name.empty() && (b.role == "portfolio" || b.role == "after_trade")) text += " (weights sent)";
   return text;
 }

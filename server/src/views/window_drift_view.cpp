@@ -11,7 +11,7 @@ namespace factorwatch::server {
 
 std::string window_drift_title(const pipeline::WindowDrift& d) {
   const storage::DriftRecord& r = d.record;
-  return "window as of " + r.as_of + " against the " + r.against + " window as of " + r.against_as_of + ": " +
+  return "window as of " + r.as_of.iso() + " against the " + r.against + " window as of " + r.against_as_of.iso() + ": " +
          r.status + ", " + std::to_string(r.shared) + " shared assets";
 }
 

@@ -16,7 +16,7 @@ nlohmann::ordered_json window_json_heading(const pipeline::SelectedWindow& s) {
 
 std::string window_csv_heading(const pipeline::SelectedWindow& s) {
   return "# model " + s.model.name + " version " + std::to_string(s.model.version) + ", window " +
-         s.window.first_date + " .. " + s.window.as_of;
+         s.window.first_date.iso() + " .. " + s.window.as_of.iso();
 }
 
 }  // namespace factorwatch::server

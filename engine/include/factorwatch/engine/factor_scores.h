@@ -37,7 +37,7 @@ struct UnscoredDate {
 
 struct FactorScores {
   ScoreMethod method = ScoreMethod::bartlett;
-  std::vector<std::string> dates;  // the panel's dates, in its order
+  std::vector<Date> dates;         // the panel's dates, in its order
   Eigen::MatrixXd scores;          // T x k, in the fit's factor basis; NaN rows for unscored dates
   // Per date: the modelled assets (fit assets among the panel's columns) with a return.
   std::vector<Eigen::Index> assets_used;
@@ -56,7 +56,7 @@ struct FactorScores {
 FactorScores factor_scores(const ReturnsPanel& panel, const FactorFit& fit, ScoreMethod method);
 
 struct ResidualReturns {
-  std::vector<std::string> dates;   // the panel's
+  std::vector<Date> dates;          // the panel's
   std::vector<std::string> assets;  // as asked
   Eigen::MatrixXd residuals;        // T x assets.size(); NaN where the asset has no return or the date is unscored
 };

@@ -12,7 +12,7 @@ struct Frequency {
 // From the typical calendar gap between dates, e.g. a window's span in calendar days
 // divided by its number of gaps: up to 4 days daily (a weekend is 3), up to 10 weekly, up
 // to 45 monthly, up to 120 quarterly, else annual. The engine takes day counts, never
-// date text: dates are parsed once, where they enter (storage/date_key.h).
+// date text: dates are parsed once, where they enter (date.h).
 Frequency frequency_from_gap(double days);
 
 }  // namespace factorwatch::engine

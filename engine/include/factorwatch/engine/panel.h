@@ -5,6 +5,8 @@
 #include <string>
 #include <vector>
 
+#include "factorwatch/engine/date.h"
+
 namespace factorwatch::engine {
 
 // Row-major so that one date's cross-section is contiguous: the fused kernels
@@ -13,7 +15,7 @@ using RowMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::R
 
 // T x N returns; a quiet NaN marks a gap (asset not listed, or no print that day).
 struct ReturnsPanel {
-  std::vector<std::string> dates;   // ascending, ISO 8601 (yyyy-mm-dd)
+  std::vector<Date> dates;          // ascending
   std::vector<std::string> assets;  // column names, unique
   RowMatrix values;                 // dates.size() x assets.size()
 

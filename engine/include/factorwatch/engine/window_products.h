@@ -45,7 +45,7 @@ class WindowProducts {
   const Eigen::MatrixXd& raw() const { return R_; }
 
  private:
-  std::vector<std::string> dates_;
+  std::vector<Date> dates_;
   std::vector<std::string> assets_;
   std::vector<std::uint64_t> row_digests_;
   Eigen::MatrixXd R_;

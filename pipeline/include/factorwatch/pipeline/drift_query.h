@@ -22,15 +22,19 @@ namespace factorwatch::pipeline {
 // The outcome of a lookup: nullopt when answered, else why not (engine/failure.h).
 using QueryFailure = std::optional<engine::Failure>;
 
-// The model and an optional date range ("" = open end).
+// The model and an optional date range (none = open end).
 struct RangeQuery {
   std::string model;
-  std::string from, to;
+  std::optional<engine::Date> from, to;
 };
 
-// A bad_input failure naming `field` when `value` is given and is not a calendar date
-// (yyyy-mm-dd); no failure otherwise. Every range and window query checks its dates so.
-QueryFailure check_date(const std::string& field, const std::string& value);
+// A date as a request gives it (a command-line option, a query parameter): "" is no date;
+// other text that is not a date yyyy-mm-dd is a bad_input failure naming the field and the
+// text. Each surface reads its dates with this, once, before it asks a query.
+QueryFailure read_date(const std::string& field, const std::string& text, std::optional<engine::Date>& date);
+
+// A range whose end is before its start: a bad_input failure naming "to".
+QueryFailure reversed_range(const RangeQuery& query);
 
 // Drift rows of every window in the range: against "previous", "pinned" or both ("").
 struct DriftSeries {
@@ -49,9 +53,9 @@ struct WindowDrift {
   std::vector<std::size_t> order;       // rows of comparison, largest standardized change first
   std::string note;                     // when the date asked for has no window of its own
 };
-// `window`: the window ending on that date, or the latest before it. `against`: previous
-// (also for "") or pinned.
-QueryFailure find_window_drift(storage::Database& db, const std::string& model, const std::string& window,
+// `window`: the window ending on that date, or the latest before it (required). `against`:
+// previous (also for "") or pinned.
+QueryFailure find_window_drift(storage::Database& db, const std::string& model, std::optional<engine::Date> window,
                                const std::string& against, WindowDrift& out);
 
 // One asset's served exposures in every window of the range.

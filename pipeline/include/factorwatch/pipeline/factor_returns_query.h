@@ -22,7 +22,7 @@ std::string factor_returns_description(engine::ScoreMethod method);
 // The factor return each window assigns to its own as-of date, for the windows in range.
 struct FactorReturnSeriesAnswer {
   storage::ModelVersion model;
-  std::string from, to;  // as asked ("" = open end)
+  std::optional<engine::Date> from, to;  // as asked (none = open end)
   FactorReturnSeries series;
 };
 // `method`: bartlett, regression, or "" (bartlett).
@@ -34,8 +34,9 @@ struct WindowFactorReturns {
   SelectedWindow window;          // the window as served (its alignment, a note when the date had no window)
   engine::FactorScores scores;    // first_date..as_of
 };
-// `window`: the window ending on that date, or the latest before it; "" the latest.
-QueryFailure find_window_factor_returns(storage::Database& db, const std::string& model, const std::string& window,
+// `window`: the window ending on that date, or the latest before it; none the latest.
+QueryFailure find_window_factor_returns(storage::Database& db, const std::string& model,
+                                        std::optional<engine::Date> window,
                                         const std::string& method, WindowFactorReturns& out);
 
 // One asset's residual returns over one window.
@@ -44,7 +45,8 @@ struct AssetResidualAnswer {
   AssetResiduals residuals;
 };
 QueryFailure find_asset_residuals(storage::Database& db, const std::string& model, const std::string& asset,
-                                  const std::string& window, const std::string& method, AssetResidualAnswer& out);
+                                  std::optional<engine::Date> window, const std::string& method,
+                                  AssetResidualAnswer& out);
 
 // The basis of a series: "rotation promax, each window aligned onto the previous window".
 std::string series_basis_text(const storage::ModelConfig& config);

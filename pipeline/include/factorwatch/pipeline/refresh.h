@@ -31,6 +31,7 @@
 #include <atomic>
 #include <cstddef>
 #include <functional>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -42,7 +43,7 @@ namespace factorwatch::pipeline {
 struct RefreshProgress {
   std::size_t done = 0;   // windows written so far in this run
   std::size_t total = 0;  // windows this run will write
-  std::string as_of;      // of the window just written
+  std::optional<engine::Date> as_of;  // of the window just written; none before the first
   double elapsed_seconds = 0;
 };
 
@@ -56,7 +57,7 @@ struct RefreshSummary {
   std::size_t unusable = 0;         // of which ended in a numerical failure (stored, flagged)
   std::size_t changed_during = 0;   // of which a load changed the returns of before they were
                                     // written: stored stale, so the next refresh refits them
-  std::string first_as_of, last_as_of;  // of the windows written in this run
+  std::optional<engine::Date> first_as_of, last_as_of;  // of the windows written in this run
   double seconds = 0;
   // Reading: the stored returns, each window cut from them and its input fingerprint.
   double read_seconds = 0, fit_seconds = 0, write_seconds = 0;
@@ -78,6 +79,6 @@ RefreshSummary refresh_model(storage::Database& db, const std::string& model, co
                              const std::atomic<bool>* stop = nullptr);
 
 // The as-of dates refresh_model would fit now, ascending.
-std::vector<std::string> pending_windows(storage::Database& db, const storage::ModelVersion& model);
+std::vector<engine::Date> pending_windows(storage::Database& db, const storage::ModelVersion& model);
 
 }  // namespace factorwatch::pipeline

@@ -24,7 +24,7 @@ namespace factorwatch::pipeline {
 // keeps between requests, keyed by the window's stamp.
 struct WindowRiskModel {
   storage::ModelVersion model;
-  std::string as_of, first_date;
+  engine::Date as_of, first_date;
   bool stale = false;
   std::string basis;      // the served factors in words: "rotation none, aligned onto 2026-11-30 (previous)"
   engine::Frequency frequency;
@@ -42,7 +42,7 @@ struct RiskRequest {
   // benchmark is read at or before the portfolio's holdings date. Where no holdings are
   // that old, the earliest stored are used, with a note.
   std::string portfolio;
-  std::string portfolio_as_of;
+  std::optional<engine::Date> portfolio_as_of;
   std::optional<engine::Holdings> holdings;
   // The benchmark: a stored name, or weights; neither = the portfolio's usual benchmark.
   std::string benchmark;
@@ -55,7 +55,7 @@ struct RiskRequest {
 struct RiskBook {
   std::string role;   // portfolio | benchmark | active | after_trade | active_after_trade
   std::string name;   // the stored portfolio's name, or "" for weights sent with the request
-  std::string as_of;  // the holdings' as-of date ("" for weights sent with the request)
+  std::optional<engine::Date> as_of;  // the holdings' as-of date (none for weights sent with the request)
   engine::PortfolioRisk risk;
 };
 

@@ -22,25 +22,26 @@ void serve_factors(engine::FactorFit& fit, const Eigen::MatrixXd& rotation, cons
 
 // storage::read_window, with the fit in its served form.
 std::optional<storage::WindowRecord> read_served_window(storage::Database& db, long model_version_id,
-                                                        const std::string& as_of, bool at_or_before = true);
+                                                        std::optional<engine::Date> as_of,
+                                                        bool at_or_before = true);
 
 // The whole comparison of one window with another, computed from the stored (served)
 // factors: every shared asset's change, not only the movers kept. nullopt when either
 // window is missing or not usable.
 std::optional<engine::DriftComparison> compare_stored_windows(storage::Database& db, long model_version_id,
-                                                              const std::string& as_of,
-                                                              const std::string& against_as_of, int min_shared);
+                                                              engine::Date as_of, engine::Date against_as_of,
+                                                              int min_shared);
 
 // One window in an asset's history: its served exposures (rotated and aligned), specific
 // variance and communality, or absent (not in that window's fitted assets).
 struct ExposurePoint {
-  std::string as_of;
+  engine::Date as_of;
   bool present = false;
   Eigen::VectorXd exposures;  // k, return units
   double specific_variance = 0, communality = 0;
   std::string alignment;  // the window's alignment status
 };
 std::vector<ExposurePoint> exposure_history(storage::Database& db, long model_version_id, const std::string& asset,
-                                            const std::string& from, const std::string& to);
+                                            std::optional<engine::Date> from, std::optional<engine::Date> to);
 
 }  // namespace factorwatch::pipeline

@@ -20,7 +20,7 @@ namespace factorwatch::pipeline {
 
 struct WindowQuery {
   std::string model;
-  std::string as_of;                // "" = the latest window
+  std::optional<engine::Date> as_of;  // none = the latest window
   std::vector<std::string> assets;  // empty = every fitted asset
 };
 

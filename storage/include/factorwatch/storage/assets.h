@@ -1,16 +1,18 @@
 // The assets the database holds returns for.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
 #include "factorwatch/storage/database.h"
+#include "factorwatch/storage/date_key.h"
 
 namespace factorwatch::storage {
 
 struct AssetInfo {
   std::string name;
-  std::string first_date, last_date;  // of its stored returns
+  std::optional<engine::Date> first_date, last_date;  // of its stored returns
 };
 
 std::vector<AssetInfo> list_assets(Database& db);  // by name

@@ -1,18 +1,43 @@
-// Dates in the database are INTEGER yyyymmdd; everywhere else they are ISO text.
+// Dates in the database are INTEGER yyyymmdd keys (engine::Date::key, ordered as the
+// dates are); a key read back becomes an engine::Date here. JSON writes a date as its
+// yyyy-mm-dd text and no date (an empty optional) as null (the serializers below), so a
+// record's date goes into a document as is.
 #pragma once
 
 #include <cstdint>
+#include <nlohmann/json.hpp>
+#include <optional>
 #include <string>
-#include <string_view>
+
+#include "factorwatch/engine/date.h"
 
 namespace factorwatch::storage {
 
-// Throws std::invalid_argument naming `what` when `iso` is not a real yyyy-mm-dd date.
-std::int32_t date_key(std::string_view iso, const char* what = "date");
-std::string iso_date(std::int64_t key);
+// The date of a stored key. Throws DamagedData when the key names no day (a row edited
+// by hand, a flipped bit): such a row is never served as some other date.
+engine::Date stored_date(std::int64_t key);
 
-// Days since 1970-01-01 of a valid date key (proleptic Gregorian calendar; negative
-// before 1970): the count the engine takes where a span of dates matters.
-long day_count(std::int32_t key);
+// For messages about a stored row whose key may be the damaged part: its date as text, or
+// "date key N" when it names no day.
+std::string key_text(std::int64_t key);
 
 }  // namespace factorwatch::storage
+
+namespace nlohmann {
+template <>
+struct adl_serializer<factorwatch::engine::Date> {
+  template <typename BasicJson>
+  static void to_json(BasicJson& j, factorwatch::engine::Date d) {
+    j = d.iso();
+  }
+};
+// No date is null.
+template <>
+struct adl_serializer<std::optional<factorwatch::engine::Date>> {
+  template <typename BasicJson>
+  static void to_json(BasicJson& j, const std::optional<factorwatch::engine::Date>& d) {
+    if (d) j = d->iso();
+    else j = nullptr;
+  }
+};
+}  // namespace nlohmann

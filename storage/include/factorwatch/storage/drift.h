@@ -13,6 +13,7 @@
 
 #include "factorwatch/engine/drift.h"
 #include "factorwatch/storage/database.h"
+#include "factorwatch/storage/date_key.h"
 
 namespace factorwatch::storage {
 
@@ -20,9 +21,9 @@ namespace factorwatch::storage {
 inline constexpr std::size_t kMoversKept = 10;
 
 struct DriftRecord {
-  std::string as_of;          // the window
-  std::string against;        // "previous" or "pinned"
-  std::string against_as_of;  // the window compared with
+  engine::Date as_of;          // the window
+  std::string against;         // "previous" or "pinned"
+  engine::Date against_as_of;  // the window compared with
   std::string status;         // engine::to_string(DriftStatus)
   long long shared = 0;
   Eigen::VectorXd congruence;                // per factor; empty unless compared
@@ -36,24 +37,26 @@ struct DriftRecord {
 };
 
 struct DriftAlert {
-  std::string as_of, against, against_as_of;
+  engine::Date as_of;
+  std::string against;
+  engine::Date against_as_of;
   int factor = 0;  // 1-based
   double congruence = 0, threshold = 0;
   std::vector<engine::AssetMove> movers;  // of that factor
 };
 
-// Dates "" mean open ends; against "" means both comparisons. Ascending by as-of date.
-std::vector<DriftRecord> read_drift(Database& db, long model_version_id, const std::string& from,
-                                    const std::string& to, const std::string& against = "");
-std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, const std::string& from,
-                                    const std::string& to);
+// No date means an open end; against "" means both comparisons. Ascending by as-of date.
+std::vector<DriftRecord> read_drift(Database& db, long model_version_id, std::optional<engine::Date> from,
+                                    std::optional<engine::Date> to, const std::string& against = "");
+std::vector<DriftAlert> read_alerts(Database& db, long model_version_id, std::optional<engine::Date> from,
+                                    std::optional<engine::Date> to);
 
 // One window in an asset's history as stored: its exposures as fitted with the window's
 // rotation T and alignment R beside them (the served exposures are the row times T times
 // R, which the pipeline composes), its specific variance and communality; or absent (not
 // in that window's fitted assets, or the fit is not usable).
 struct StoredExposure {
-  std::string as_of;
+  engine::Date as_of;
   bool present = false;
   Eigen::VectorXd fitted_exposures;  // k, return units, as the engine fitted them
   Eigen::MatrixXd rotation;          // T; empty when none
@@ -62,6 +65,7 @@ struct StoredExposure {
   std::string alignment;  // the window's alignment status
 };
 std::vector<StoredExposure> read_stored_exposures(Database& db, long model_version_id, const std::string& asset,
-                                                  const std::string& from, const std::string& to);
+                                                  std::optional<engine::Date> from,
+                                                  std::optional<engine::Date> to);
 
 }  // namespace factorwatch::storage

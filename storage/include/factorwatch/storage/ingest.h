@@ -17,6 +17,7 @@
 
 #include "factorwatch/engine/panel.h"
 #include "factorwatch/storage/database.h"
+#include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/returns_csv.h"
 
 namespace factorwatch::storage {
@@ -34,7 +35,7 @@ struct LoadSummary {
   long run_id = 0;
   std::string outcome;  // "new data", "correction" or "no change"
   std::size_t dates_in_file = 0;
-  std::string first_date, last_date;
+  engine::Date first_date, last_date;
   std::size_t assets_in_file = 0;
   std::size_t new_assets = 0;
   std::size_t values_new = 0;

@@ -64,6 +64,10 @@ std::string default_text(const ModelField& field);
 // The help with its default filled in.
 std::string help_text(const ModelField& field);
 
+// field.set as a failure naming the member (and, for a text that is not a date, the text).
+std::optional<engine::Failure> set_model_field(const ModelField& field, ModelConfig& config,
+                                               const nlohmann::json& value);
+
 // The failure for a member there is no row for (or one a definition does not send),
 // listing those it may send.
 engine::Failure unknown_member(const std::string& member);

@@ -34,7 +34,7 @@ struct ModelConfig {
   // options keep their defaults (the field table, model_fields.h, lists what a model sets).
   // The defaults are the engine's: one default for k.
   engine::FitOptions fit;
-  std::string first_as_of;            // earliest as-of date to fit; "" = as early as the data allow
+  std::optional<engine::Date> first_as_of;    // earliest as-of date to fit; none = as early as the data allow
 
   // Rotation of every window's loadings (method none, varimax or promax, with or without
   // Kaiser normalisation of the rows); its stopping rule is fixed (kRotationTolerance).
@@ -43,7 +43,7 @@ struct ModelConfig {
   // previous window (chained), one pinned window, or an exponentially weighted average of
   // the past aligned windows with this half-life in windows.
   AlignTo align_to = AlignTo::previous;
-  std::string pinned_window;          // as-of date of the pinned window; "" = the model's first window
+  std::optional<engine::Date> pinned_window;  // as-of date of the pinned window; none = the model's first window
   double smoothing_half_life = 20;    // windows; only with align_to smoothed
   // Fewer shared assets than this (or than the number of factors, whichever is larger) and
   // a window is left as fitted, with a status saying why.

@@ -17,12 +17,13 @@
 
 #include "factorwatch/engine/risk.h"
 #include "factorwatch/storage/database.h"
+#include "factorwatch/storage/date_key.h"
 
 namespace factorwatch::storage {
 
 struct Portfolio {
   std::string name;
-  std::string as_of;      // yyyy-mm-dd, the date the holdings are for
+  engine::Date as_of;     // the date the holdings are for
   std::string benchmark;  // name of its usual benchmark; "" = none
   engine::Holdings holdings;  // in file order, each asset once
   std::string source;     // the file (or "HTTP upload") the holdings came from
@@ -35,7 +36,7 @@ struct Portfolio {
 // neither, the as-of date is today's (UTC) and there is no benchmark.
 struct PortfolioFileOptions {
   std::string name;        // required: letters, digits, '-', '_', '.', at most 64
-  std::string as_of;       // "" = the file's as_of (JSON), else today
+  std::optional<engine::Date> as_of;  // none = the file's as_of (JSON), else today
   std::string benchmark;   // "" = the file's benchmark (JSON), else none
 };
 
@@ -73,11 +74,12 @@ struct SavePortfolioOutcome {
 SavePortfolioOutcome save_portfolio(Database& db, const Portfolio& portfolio);
 
 // The holdings of `name` for the latest as-of date, or the latest at or before `as_of`.
-std::optional<Portfolio> read_portfolio(Database& db, const std::string& name, const std::string& as_of = "");
+std::optional<Portfolio> read_portfolio(Database& db, const std::string& name,
+                                        std::optional<engine::Date> as_of = std::nullopt);
 
 struct PortfolioSummary {
   std::string name;
-  std::string latest_as_of;
+  engine::Date latest_as_of;
   std::size_t dates = 0;  // how many as-of dates are stored
   std::string benchmark;  // of the latest as-of date
   std::size_t holdings = 0;  // of the latest as-of date
@@ -87,9 +89,10 @@ struct PortfolioSummary {
 std::vector<PortfolioSummary> list_portfolios(Database& db);
 
 // The as-of dates stored for a name, ascending.
-std::vector<std::string> portfolio_dates(Database& db, const std::string& name);
+std::vector<engine::Date> portfolio_dates(Database& db, const std::string& name);
 
 // Removes every as-of date of the name (or only `as_of`); returns how many dates went.
-std::size_t delete_portfolio(Database& db, const std::string& name, const std::string& as_of = "");
+std::size_t delete_portfolio(Database& db, const std::string& name,
+                             std::optional<engine::Date> as_of = std::nullopt);
 
 }  // namespace factorwatch::storage

@@ -11,8 +11,8 @@
 
 namespace factorwatch::storage {
 
-// Every stored date (date keys, see date_key.h), ascending.
-std::vector<std::int32_t> stored_dates(Database& db);
+// Every stored date, ascending.
+std::vector<engine::Date> stored_dates(Database& db);
 
 // The asset ids of these names that have stored returns, ascending (the column order of a
 // span); names never stored are left out.
@@ -22,9 +22,9 @@ class ReturnsSpan {
  public:
   // Dates first..last (inclusive, as stored); assets: `universe` ids (ascending), or,
   // when empty, every asset whose stored returns overlap the range.
-  ReturnsSpan(Database& db, std::int32_t first, std::int32_t last, const std::vector<std::int32_t>& universe);
+  ReturnsSpan(Database& db, engine::Date first, engine::Date last, const std::vector<std::int32_t>& universe);
 
-  const std::vector<std::int32_t>& dates() const { return dates_; }
+  const std::vector<engine::Date>& dates() const { return dates_; }
 
   // The digest of rows [begin, begin + count): their dates and stored checksums, equal to
   // stored_rows_digest over the same dates while no load has changed them since.
@@ -34,7 +34,7 @@ class ReturnsSpan {
   engine::ReturnsPanel window(std::size_t begin, std::size_t count) const;
 
  private:
-  std::vector<std::int32_t> dates_;
+  std::vector<engine::Date> dates_;
   std::vector<std::int64_t> checksums_;  // per date, as stored (and checked on reading)
   std::vector<std::string> names_;  // per column
   engine::RowMatrix values_;
@@ -42,7 +42,7 @@ class ReturnsSpan {
 
 // The digest of the stored returns rows with dates in [first, last], from their dates
 // and checksums only (the index returns_checksums holds both: no blob is read).
-std::uint64_t stored_rows_digest(Database& db, std::int32_t first, std::int32_t last);
+std::uint64_t stored_rows_digest(Database& db, engine::Date first, engine::Date last);
 
 // Fingerprint of a window's input: its dates, asset names and returns.
 std::string panel_fingerprint(const engine::ReturnsPanel& panel);

@@ -3,15 +3,15 @@
 #pragma once
 
 #include <string>
-#include <string_view>
+
+#include "factorwatch/engine/date.h"
 
 namespace factorwatch::storage {
 
 // Now, UTC, as yyyy-mm-ddThh:mm:ssZ.
 std::string utc_timestamp();
 
-// A real calendar date written yyyy-mm-dd: the rule every stored date follows, for
-// callers that check user input before asking the database.
-bool is_calendar_date(std::string_view text);
+// Today, UTC (the date of utc_timestamp).
+engine::Date utc_today();
 
 }  // namespace factorwatch::storage

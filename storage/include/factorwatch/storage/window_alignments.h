@@ -18,7 +18,7 @@ namespace factorwatch::storage {
 // A stored window of a model version and whether it has an alignment row yet.
 struct AlignmentState {
   long long window_id = 0;
-  std::int32_t as_of = 0;  // date key (date_key.h)
+  engine::Date as_of;
   bool usable = false;
   bool aligned = false;
 };
@@ -26,7 +26,7 @@ struct AlignmentState {
 // Every window of the model version, ascending by as-of date.
 std::vector<AlignmentState> alignment_states(Database& db, long model_version_id);
 
-// Inserts or replaces the window's alignment row. `reference_as_of` "" is stored as none;
+// Inserts or replaces the window's alignment row. no `reference_as_of` is stored as NULL;
 // aligned_at is the time of this write (the field in `alignment` is not read).
 void save_alignment(Database& db, long long window_id, const WindowAlignment& alignment);
 

@@ -11,6 +11,7 @@
 #include "factorwatch/engine/build_info.h"
 #include "factorwatch/engine/fit.h"
 #include "factorwatch/storage/database.h"
+#include "factorwatch/storage/date_key.h"
 
 namespace factorwatch::storage {
 
@@ -19,7 +20,7 @@ struct WindowAlignment {
   std::string status;        // engine::to_string(AlignmentStatus), or "not usable"
   std::string message;       // in words
   std::string reference;     // previous | pinned | smoothed
-  std::string reference_as_of;  // the reference window; "" for smoothed or none
+  std::optional<engine::Date> reference_as_of;  // the reference window; none for smoothed or none
   long long shared = 0;      // assets both windows have
   Eigen::MatrixXd matrix;    // R (k x k, orthogonal); identity unless aligned
   double residual = 0;       // relative Procrustes residual; NaN unless aligned
@@ -28,8 +29,8 @@ struct WindowAlignment {
 };
 
 struct WindowRecord {
-  std::string as_of;       // the window's last date
-  std::string first_date;  // its first date
+  engine::Date as_of;       // the window's last date
+  engine::Date first_date;  // its first date
   std::string configuration_hash;
   std::string input_hash;  // fingerprint of the dates, assets and returns the fit saw
   engine::FactorFit fit;   // restored exactly as fitted (fit.assets: the fitted assets)
@@ -48,7 +49,7 @@ struct WindowRecord {
 
 // One line of `factorwatch windows`.
 struct WindowSummary {
-  std::string as_of, first_date;
+  engine::Date as_of, first_date;
   Eigen::Index periods = 0;
   int asset_count = 0;
   int excluded_count = 0;
@@ -76,7 +77,7 @@ struct WindowSummary {
 // daemon's response cache. A refit replaces the row, and its fitted_at and measured
 // total_seconds (and, after a correction, input_hash) differ from the old row's.
 struct WindowStamp {
-  std::string as_of;
+  engine::Date as_of;
   long long row_id = 0;
   std::string fitted_at;
   std::string input_hash;
@@ -103,36 +104,35 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& window
 std::vector<WindowSummary> list_windows(Database& db, long model_version_id);
 
 // Which windows a model version has, and whether each is stale: what the refresh plans
-// from, without reading a window's statistics. as_of is a date key (date_key.h).
+// from, without reading a window's statistics.
 struct WindowState {
-  std::int32_t as_of = 0;
+  engine::Date as_of;
   bool stale = false;
 };
 std::vector<WindowState> window_states(Database& db, long model_version_id);
 
 // How many windows a model version has, how many are stale, and the latest as-of date
-// ("" when none): one aggregate query, no statistics parsed.
+// (none when there is no window): one aggregate query, no statistics parsed.
 struct WindowCounts {
   std::size_t windows = 0;
   std::size_t stale = 0;
-  std::string latest_as_of;
+  std::optional<engine::Date> latest_as_of;
 };
 WindowCounts count_windows(Database& db, long model_version_id);
 
 // The window with this as-of date, or with `at_or_before` the latest one at or before it;
-// as_of "" means the latest window. nullopt when there is none. Its fit is as the engine
+// no as_of means the latest window. nullopt when there is none. Its fit is as the engine
 // returned it (the canonical form the next window warm-starts from), with the rotation T
 // and the alignment R stored beside it; the factors every surface shows are that fit
 // turned by T and R, which the pipeline composes (pipeline/served_windows.h).
-std::optional<WindowRecord> read_window(Database& db, long model_version_id, const std::string& as_of,
+std::optional<WindowRecord> read_window(Database& db, long model_version_id, std::optional<engine::Date> as_of,
                                         bool at_or_before = true);
 
 // The alignment row of a window (by its row id); nullopt until the refresh aligned it.
 std::optional<WindowAlignment> read_alignment(Database& db, long long window_id);
 
 // The stamp of the window read_window would return, from one indexed row, no BLOBs.
-// Throws std::invalid_argument for a malformed as-of date.
-std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, const std::string& as_of,
+std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, std::optional<engine::Date> as_of,
                                              bool at_or_before = true);
 
 }  // namespace factorwatch::storage
