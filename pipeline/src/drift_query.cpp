@@ -23,20 +23,6 @@ QueryFailure check_range(storage::Database& db, const RangeQuery& q, storage::Mo
 
 }  // namespace
 
-QueryFailure reversed_range(const RangeQuery& q) {
-  if (!q.from || !q.to || !(*q.to < *q.from)) return std::nullopt;
-  return engine::failure(engine::FailureKind::bad_input, "to", q.to->iso(), "before the start of the range, " + q.from->iso());
-}
-
-QueryFailure read_date(const std::string& field, const std::string& text, std::optional<engine::Date>& date) {
-  date.reset();
-  if (text.empty()) return std::nullopt;
-  date = engine::Date::from_iso(text);
-  if (date) return std::nullopt;
-  return engine::failure(engine::FailureKind::bad_input, field, text, "not a date in the form yyyy-mm-dd");
-}
-
-
 double alert_threshold(const storage::ModelConfig& c, const std::string& against) {
   return against == "pinned" ? c.alert_below_pinned : c.alert_below;
 }

@@ -30,7 +30,7 @@ ReturnsFile read_wide_returns(CsvScanner& scanner, const ReturnsHeader& header, 
 ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, ValueRules& values,
                               std::size_t date_col, std::size_t asset_col, std::size_t return_col);
 
-// One date of the file: its sort key (yyyymmdd), its text and the line it was read on.
+// One date of the file: the date, its text and the line it was read on.
 struct DateRow {
   engine::Date date;
   std::string_view text;

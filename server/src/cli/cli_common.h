@@ -10,7 +10,7 @@
 #include <string>
 #include <vector>
 
-#include "factorwatch/pipeline/drift_query.h"
+#include "factorwatch/pipeline/request_dates.h"
 #include "factorwatch/storage/database.h"
 #include "text_format.h"
 

@@ -7,7 +7,7 @@
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/portfolios.h"
 #include "cli_failure.h"
-#include "factorwatch/pipeline/drift_query.h"
+#include "factorwatch/pipeline/request_dates.h"
 #include "portfolio_views.h"
 
 namespace factorwatch::server {

@@ -10,7 +10,7 @@
 #include "api_message.h"
 #include "factorwatch/engine/date.h"
 #include "factorwatch/engine/failure.h"
-#include "factorwatch/pipeline/drift_query.h"
+#include "factorwatch/pipeline/request_dates.h"
 #include "factorwatch/storage/input_error.h"
 
 namespace factorwatch::server {

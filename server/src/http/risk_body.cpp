@@ -4,7 +4,7 @@
 #include <unordered_set>
 
 #include "endpoint_helpers.h"
-#include "factorwatch/pipeline/drift_query.h"
+#include "factorwatch/pipeline/request_dates.h"
 #include "factorwatch/storage/identifier_rule.h"
 #include "factorwatch/storage/portfolios.h"
 

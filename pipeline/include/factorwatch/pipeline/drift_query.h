@@ -12,29 +12,13 @@
 
 #include "factorwatch/engine/drift.h"
 #include "factorwatch/engine/failure.h"
+#include "factorwatch/pipeline/request_dates.h"
 #include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/drift.h"
 #include "factorwatch/storage/models.h"
 
 namespace factorwatch::pipeline {
-
-// The outcome of a lookup: nullopt when answered, else why not (engine/failure.h).
-using QueryFailure = std::optional<engine::Failure>;
-
-// The model and an optional date range (none = open end).
-struct RangeQuery {
-  std::string model;
-  std::optional<engine::Date> from, to;
-};
-
-// A date as a request gives it (a command-line option, a query parameter): "" is no date;
-// other text that is not a date yyyy-mm-dd is a bad_input failure naming the field and the
-// text. Each surface reads its dates with this, once, before it asks a query.
-QueryFailure read_date(const std::string& field, const std::string& text, std::optional<engine::Date>& date);
-
-// A range whose end is before its start: a bad_input failure naming "to".
-QueryFailure reversed_range(const RangeQuery& query);
 
 // Drift rows of every window in the range: against "previous", "pinned" or both ("").
 struct DriftSeries {
