@@ -76,6 +76,29 @@ TEST(Daemon, BecomesReadyAndPrintsAddressTokenCommandAndAnExample) {
   EXPECT_TRUE(std::regex_search(daemon.log(), std::regex(R"(GET /v1/version 200 [0-9.]+ ms)"))) << daemon.log();
 }
 
+// With the HTTP library's default SO_REUSEPORT, a second daemon (on another database)
+// bound the same port and the kernel spread requests between the two: answers alternated
+// between databases. The second is refused, naming the process that holds the port, and
+// the first goes on answering. (On the old code the second listens until `timeout` ends
+// it: status 124.)
+TEST(Daemon, ASecondDaemonOnATakenPortIsRefusedAndNamesTheHolder) {
+  fw::TempDir first_dir, second_dir;
+  fw::DaemonProcess first(first_dir.path());
+  ASSERT_TRUE(first.ready()) << first.log();
+  const fw::CommandResult second =
+      fw::run_shell("timeout 20 " + fw::factorwatch_command() + " --data '" + second_dir.path() + "' serve --port " +
+                        std::to_string(first.port()),
+                    second_dir.file("stderr"));
+  EXPECT_EQ(second.status, 1) << second.out << second.err;
+  EXPECT_NE(second.err.find("the port is taken: process " + std::to_string(first.pid())), std::string::npos)
+      << second.err;
+  EXPECT_NE(second.err.find("listens on 127.0.0.1:" + std::to_string(first.port())), std::string::npos) << second.err;
+  EXPECT_EQ(second.out.find("listening on"), std::string::npos) << second.out;
+  const fw::HttpResult health = fw::curl(first_dir.path(), "", first.url("/v1/health"));
+  EXPECT_EQ(health.status, 200);
+  EXPECT_EQ(first.stop(), 0);
+}
+
 // Every route the server has (GET /v1 lists its route table) appears in
 // docs/openapi.yaml with its method, and the document lists no route the server lacks.
 TEST(Daemon, EveryRouteIsInTheOpenApiDocument) {

@@ -22,6 +22,7 @@
 #include "api_context.h"
 #include "connection_gate.h"
 #include "host_rules.h"
+#include "port_holder.h"
 #include "factorwatch/engine/caution.h"
 #include "factorwatch/storage/data_directory.h"
 #include "factorwatch/storage/timestamps.h"
@@ -485,6 +486,14 @@ void Daemon::configure() {
   // The gate checks the size from the head and the stream enforces it while reading;
   // this is the library's own last line.
   http_.set_payload_max_length(options_.max_upload_mb << 20);
+  // The library's own listening socket asks for SO_REUSEPORT, with which a second daemon
+  // (on another database) binds the same port and the kernel spreads the requests between
+  // the two. SO_REUSEADDR alone lets a restart bind at once (connections of the stopped
+  // daemon still in TIME_WAIT do not block it) while a live listener makes bind fail.
+  http_.set_socket_options([](socket_t sock) {
+    int yes = 1;
+    ::setsockopt(sock, SOL_SOCKET, SO_REUSEADDR, &yes, sizeof yes);
+  });
 
   for (const Route& route : api_routes()) {
     auto [pattern, names] = path_pattern(route.path);
@@ -635,8 +644,13 @@ int Daemon::run() {
     port = 0;
   }
   if (port == 0) {
-    std::fprintf(stderr, "factorwatch serve: cannot listen on %s:%d (in use, or not an address of this machine); "
-                         "choose another with --address / --port\n", options_.address.c_str(), options_.port);
+    const std::string holder = options_.port > 0 ? describe_port_holder(find_port_holder(options_.port), options_.port) : "";
+    if (holder.empty())
+      std::fprintf(stderr, "factorwatch serve: cannot listen on %s:%d (in use, or not an address of this machine); "
+                           "choose another with --address / --port\n", options_.address.c_str(), options_.port);
+    else
+      std::fprintf(stderr, "factorwatch serve: cannot listen on %s:%d: the port is taken: %s; stop that daemon, or "
+                           "choose another port with --port\n", options_.address.c_str(), options_.port, holder.c_str());
     return 1;
   }
   if (!http_.widen_backlog())
