@@ -99,6 +99,24 @@ TEST(Daemon, ASecondDaemonOnATakenPortIsRefusedAndNamesTheHolder) {
   EXPECT_EQ(first.stop(), 0);
 }
 
+// The HTTP library also files the fields of a form-encoded body (what `curl -d` sends)
+// among the query parameters; the daemon took them from there, so a body field acted as a
+// query parameter. Here a DELETE with the body "as_of=1999-01-01" removed nothing (404:
+// no holdings as of 1999-01-01) instead of deleting every date as its URL asks.
+TEST(Daemon, AFormBodyIsNeverReadAsQueryParameters) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string auth = bearer(token_of(dir.path())) + " ";
+  const auto put = fw::curl(dir.path(), auth + "-X PUT -H 'Content-Type: text/csv' --data-binary 'asset,weight\nZQ-1,1\n'",
+                            daemon.url("/v1/portfolios/book?as_of=2021-03-31"));
+  ASSERT_EQ(put.status, 201) << put.body;
+  const auto removed = fw::curl(dir.path(), auth + "-X DELETE -d 'as_of=1999-01-01'", daemon.url("/v1/portfolios/book"));
+  EXPECT_EQ(removed.status, 200) << removed.body;
+  EXPECT_EQ(json::parse(removed.body)["removed_dates"], 1) << removed.body;
+  EXPECT_EQ(daemon.stop(), 0);
+}
+
 // Every route the server has (GET /v1 lists its route table) appears in
 // docs/openapi.yaml with its method, and the document lists no route the server lacks.
 TEST(Daemon, EveryRouteIsInTheOpenApiDocument) {

@@ -194,7 +194,13 @@ ApiRequest to_api_request(const httplib::Request& req, const std::vector<std::st
   ApiRequest a;
   a.method = req.method;
   a.path = req.path;
-  for (const auto& [name, value] : req.params) a.query.emplace(name, value);  // first of each
+  // The query string only: the library also adds the fields of a form-encoded body (what
+  // curl -d sends) to req.params, and a body is never read as query parameters.
+  if (const std::size_t question = req.target.find('?'); question != std::string::npos) {
+    httplib::Params query;
+    httplib::detail::parse_query_text(req.target.substr(question + 1), query);
+    for (const auto& [name, value] : query) a.query.emplace(name, value);  // first of each
+  }
   for (std::size_t i = 0; i < names.size() && i + 1 < req.matches.size(); ++i) a.path_values[names[i]] = req.matches[i + 1];
   a.accept = req.get_header_value("Accept");
   a.accept_encoding = req.get_header_value("Accept-Encoding");

@@ -2,6 +2,7 @@
 // these, GET /v1 lists them, and a test checks each one against docs/openapi.yaml.
 #pragma once
 
+#include <string>
 #include <vector>
 
 #include "api_context.h"
@@ -18,7 +19,15 @@ struct Route {
   bool before_ready;    // answered while the database is still being opened
   const char* summary;
   Handler handler;
+  // The query parameters the route reads, space-separated ("as_of assets format"); none
+  // when null. Any other parameter is a 400 naming it (call_route): a misspelt one
+  // ("asof") would otherwise be ignored and the request answered as if it were absent.
+  // docs/openapi.yaml lists the same ones (Daemon.EveryRouteIsInTheOpenApiDocument).
+  const char* parameters = nullptr;
 };
+
+// The route's query parameters, in the order declared.
+std::vector<std::string> route_parameters(const Route& route);
 
 const std::vector<Route>& api_routes();
 
