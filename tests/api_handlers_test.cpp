@@ -137,13 +137,13 @@ TEST(ApiHandlers, HostileQueryValuesNeverGiveAServerError) {
     std::string path = route.path;
     for (const auto& [placeholder, value] : {std::pair<std::string, std::string>{"{name}", "m"}, {"{id}", "1"}})
       if (const auto at = path.find(placeholder); at != std::string::npos) path.replace(at, placeholder.size(), value);
-    std::vector<std::string> parameters = factorwatch::server::route_parameters(route);
+    const auto own = factorwatch::server::route_parameters(route);
+    const bool negotiates = std::find(own.begin(), own.end(), "format") != own.end();
+    std::vector<std::string> parameters = own;
     parameters.push_back("%FF%FE%00");  // a name no route takes: refused, named in printable form
     for (const std::string& parameter : parameters)
       for (const std::string& value : values) {
         for (const std::string& format : {std::string("json"), std::string("csv")}) {
-          const auto own = factorwatch::server::route_parameters(route);
-          const bool negotiates = std::find(own.begin(), own.end(), "format") != own.end();
           const std::string target =
               path + "?" + parameter + "=" + value + (parameter == "format" || !negotiates ? "" : "&format=" + format);
           const auto r = api.call("GET", target);

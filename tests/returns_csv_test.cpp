@@ -16,6 +16,7 @@
 
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/returns_csv.h"
+#include "storage_fixtures.h"
 
 namespace fs = std::filesystem;
 using factorwatch::engine::ReturnsPanel;
@@ -26,12 +27,6 @@ using factorwatch::storage::ReturnsFile;
 using factorwatch::storage::ValuesInFile;
 
 namespace {
-
-std::vector<std::string> iso_texts(const std::vector<factorwatch::engine::Date>& dates) {
-  std::vector<std::string> out;
-  for (const auto& d : dates) out.push_back(d.iso());
-  return out;
-}
 
 // Each test writes its files into its own fresh folder under the system temp folder.
 class ReturnsCsv : public ::testing::Test {
@@ -108,7 +103,7 @@ const char* kLong =
 
 TEST_F(ReturnsCsv, WideLayout) {
   const ReturnsPanel p = read_returns_csv(write("wide.csv", kWide));
-  EXPECT_EQ(iso_texts(p.dates), (std::vector<std::string>{"2024-01-02", "2024-01-03", "2024-01-04"}));
+  EXPECT_EQ(factorwatch::testing::iso_texts(p.dates), (std::vector<std::string>{"2024-01-02", "2024-01-03", "2024-01-04"}));
   EXPECT_EQ(p.assets, (std::vector<std::string>{"AAA", "BBB", "CCC"}));
   ASSERT_EQ(p.periods(), 3);
   ASSERT_EQ(p.width(), 3);
@@ -174,7 +169,7 @@ TEST_F(ReturnsCsv, LongRowsAreSortedByDate) {
                                                 "2024-01-01,X,0.3\n"
                                                 "2023-12-31,X,0.2\n"
                                                 "2023-02-28,X,0.1\n"));
-  EXPECT_EQ(iso_texts(q.dates), (std::vector<std::string>{"2023-02-28", "2023-12-31", "2024-01-01"}));
+  EXPECT_EQ(factorwatch::testing::iso_texts(q.dates), (std::vector<std::string>{"2023-02-28", "2023-12-31", "2024-01-01"}));
   EXPECT_EQ(q.values(0, 0), 0.1);
   EXPECT_EQ(q.values(2, 0), 0.3);
 }
@@ -292,7 +287,7 @@ TEST_F(ReturnsCsv, PricesToSimpleReturns) {
       read_returns_file(write("prices.csv", kPricesWide), {ValuesInFile::prices_to_simple_returns});
   const ReturnsPanel& p = f.panel;
   // The first date only gives the previous prices for the second.
-  EXPECT_EQ(iso_texts(p.dates), (std::vector<std::string>{"2024-01-03", "2024-01-04", "2024-01-05"}));
+  EXPECT_EQ(factorwatch::testing::iso_texts(p.dates), (std::vector<std::string>{"2024-01-03", "2024-01-04", "2024-01-05"}));
   EXPECT_EQ(p.assets, (std::vector<std::string>{"ZQ-0001", "ZQ-0002"}));
   EXPECT_EQ(p.values(0, 0), 110.0 / 100.0 - 1);
   EXPECT_NEAR(p.values(0, 0), 0.10, 1e-15);

@@ -1,10 +1,10 @@
 #include "routes.h"
 
-#include <algorithm>
 #include <cstdio>
 #include <optional>
 #include <exception>
 #include <string>
+#include <string_view>
 
 #include "data_endpoints.h"
 #include "drift_endpoints.h"
@@ -88,12 +88,23 @@ std::vector<std::string> route_parameters(const Route& route) {
 
 namespace {
 
+// Whether `name` is one of the route's parameters: a word of its list, found without
+// building the list (this runs on every request).
+bool takes_parameter(const Route& route, const std::string& name) {
+  const std::string_view list = route.parameters ? route.parameters : "";
+  for (std::size_t at = list.find(name); at != std::string_view::npos; at = list.find(name, at + 1)) {
+    const std::size_t end = at + name.size();
+    if ((at == 0 || list[at - 1] == ' ') && (end == list.size() || list[end] == ' ')) return true;
+  }
+  return false;
+}
+
 // The first query parameter the route does not read, as a 400 naming it.
 std::optional<ApiResponse> unknown_parameter(const Route& route, const ApiRequest& request) {
-  const std::vector<std::string> known = route_parameters(route);
   for (const auto& entry : request.query) {
     const std::string& name = entry.first;
-    if (std::find(known.begin(), known.end(), name) != known.end()) continue;
+    if (!name.empty() && takes_parameter(route, name)) continue;
+    const std::vector<std::string> known = route_parameters(route);
     std::string list;
     for (const std::string& k : known) list += (list.empty() ? "" : ", ") + k;
     const std::string shown = storage::printable_text(name);
