@@ -4,7 +4,7 @@
 //
 //   storage_data --assets N --dates T [--first F] [--decimals D] --out FILE
 //
-// Writes dates F .. F + T - 1 (business days from 2023-01-02, see business_dates) of the
+// Writes dates F .. F + T - 1 (business days from 2000-01-03, see business_dates) of the
 // panel whose rows 0 .. F + T - 1 are drawn, so the rows of a later file (--first 2520
 // --dates 1: the next night) continue the same panel. Returns are written in fixed
 // notation with D decimals (default 6: "0.012346", about 28.5 bytes a row). Prints one

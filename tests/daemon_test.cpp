@@ -176,6 +176,14 @@ TEST(Daemon, WritesNeedTheTokenAndAWrongTokenChangesNothing) {
   auto ok = fw::curl(dir.path(), "-H 'Authorization: bearer " + token + "' " + upload, daemon.url("/v1/returns"));
   EXPECT_EQ(ok.status, 200) << ok.body;
   EXPECT_EQ(json::parse(ok.body)["assets"], 40);
+  EXPECT_EQ(json::parse(ok.body)["calendar"], "weekdays");
+  // A file that declares a market trading on weekends stores its Saturday (1999-01-16).
+  fw::write_text(dir.file("weekend.csv"), "# calendar: all days\ndate,ZQ-WKND\n1999-01-15,0.01\n1999-01-16,0.02\n");
+  auto weekend = fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" +
+                                          dir.file("weekend.csv") + "'", daemon.url("/v1/returns"));
+  EXPECT_EQ(weekend.status, 200) << weekend.body;
+  EXPECT_EQ(json::parse(weekend.body)["calendar"], "all days");
+  EXPECT_EQ(json::parse(weekend.body)["last_date"], "1999-01-16");
 
   // A renewed token takes effect without a restart; the old one stops working.
   const std::string renewed = fw::run_factorwatch(dir.path(), "token --renew").out.substr(0, 64);

@@ -16,6 +16,7 @@
 
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/returns_csv.h"
+#include "factorwatch/storage/timestamps.h"
 #include "storage_fixtures.h"
 
 namespace fs = std::filesystem;
@@ -167,9 +168,9 @@ TEST_F(ReturnsCsv, LongRowsAreSortedByDate) {
   const ReturnsPanel q = read_returns_csv(write("long.csv",
                                                 "date,asset,return\n"
                                                 "2024-01-01,X,0.3\n"
-                                                "2023-12-31,X,0.2\n"
+                                                "2023-12-29,X,0.2\n"
                                                 "2023-02-28,X,0.1\n"));
-  EXPECT_EQ(factorwatch::testing::iso_texts(q.dates), (std::vector<std::string>{"2023-02-28", "2023-12-31", "2024-01-01"}));
+  EXPECT_EQ(factorwatch::testing::iso_texts(q.dates), (std::vector<std::string>{"2023-02-28", "2023-12-29", "2024-01-01"}));
   EXPECT_EQ(q.values(0, 0), 0.1);
   EXPECT_EQ(q.values(2, 0), 0.3);
 }
@@ -177,6 +178,7 @@ TEST_F(ReturnsCsv, LongRowsAreSortedByDate) {
 // A larger long file with its rows in a random order (fixed seed) reads like the same rows
 // date by date: nothing in the long reader may depend on the order of the rows.
 TEST_F(ReturnsCsv, LongFileInShuffledOrder) {
+  const auto dates = factorwatch::testing::iso_texts(factorwatch::testing::business_dates(40));
   std::vector<std::string> rows;
   for (int t = 0; t < 40; ++t)
     for (int i = 0; i < 9; ++i) {
@@ -185,7 +187,7 @@ TEST_F(ReturnsCsv, LongFileInShuffledOrder) {
       const char* value = (t * 9 + i) % 13 == 5 ? "NA" : nullptr;
       char number[32];
       std::snprintf(number, sizeof number, "%.6f", 0.001 * ((t * 31 + i * 17) % 41 - 20));
-      std::snprintf(row, sizeof row, "2023-%02d-%02d,ZQ-%04d,%s\n", 1 + t / 28, 1 + t % 28, i + 1,
+      std::snprintf(row, sizeof row, "%s,ZQ-%04d,%s\n", dates[static_cast<std::size_t>(t)].c_str(), i + 1,
                     value ? value : number);
       rows.push_back(row);
     }
@@ -343,10 +345,11 @@ TEST_F(ReturnsCsv, PricesAreNotJudgedAsReturns) {
   // Prices far above 10, and well over 100 of them: neither the +1000 % limit nor the
   // percent rule reads them as returns.
   std::string text = "date,ZQ-0001,ZQ-0002,ZQ-0003,ZQ-0004,ZQ-0005\n";
+  const auto dates = factorwatch::testing::iso_texts(factorwatch::testing::business_dates(30));
   for (int t = 0; t < 30; ++t) {
     char row[128];
-    std::snprintf(row, sizeof row, "2023-01-%02d,%d,%d,%d,%d,%d\n", t + 1, 250 + t, 251, 1000 - t, 80,
-                  99 + t % 2);
+    std::snprintf(row, sizeof row, "%s,%d,%d,%d,%d,%d\n", dates[static_cast<std::size_t>(t)].c_str(), 250 + t,
+                  251, 1000 - t, 80, 99 + t % 2);
     text += row;
   }
   const ReturnsFile f =
@@ -385,10 +388,9 @@ TEST_F(ReturnsCsv, ErrorBadPrices) {
 std::string percent_like(int rows, int large) {
   std::string text = "date,ZQ-0001,ZQ-0002,ZQ-0003,ZQ-0004,ZQ-0005\n";
   int cell = 0;
+  const auto dates = factorwatch::testing::iso_texts(factorwatch::testing::business_dates(rows));
   for (int t = 0; t < rows; ++t) {
-    char date[16];
-    std::snprintf(date, sizeof date, "2023-%02d-%02d", 1 + t / 28, 1 + t % 28);
-    text += date;
+    text += dates[static_cast<std::size_t>(t)];
     for (int j = 0; j < 5; ++j) text += (cell++ < large) ? ",-0.3" : ",0.01";
     text += "\n";
   }
@@ -405,9 +407,10 @@ TEST_F(ReturnsCsv, PercentRule) {
   EXPECT_NO_THROW(read_returns_csv(write("few.csv", percent_like(19, 95))));
   // The first large value in file order, in a long file whose rows are not in date order.
   std::string lng = "date,asset,return\n2023-02-01,ZQ-0009,0.01\n2023-02-01,ZQ-0008,2.5\n";
+  const auto dates = factorwatch::testing::iso_texts(factorwatch::testing::business_dates(28));
   for (int t = 0; t < 100; ++t) {
     char row[64];
-    std::snprintf(row, sizeof row, "2023-01-%02d,ZQ-%04d,3\n", 1 + t % 28, 1 + t / 28);
+    std::snprintf(row, sizeof row, "%s,ZQ-%04d,3\n", dates[static_cast<std::size_t>(t % 28)].c_str(), 1 + t / 28);
     lng += row;
   }
   expect_error(lng, 3, "return", "looks like percent");
@@ -451,6 +454,68 @@ TEST_F(ReturnsCsv, ErrorBadDates) {
   // 2024 is a leap year, 1900 is not, 2000 is.
   EXPECT_NO_THROW(read_returns_csv(write("leap.csv", "date,A\n2000-02-29,1\n2024-02-29,1\n")));
   expect_error("date,A\n1900-02-29,1\n", 2, "date", "not a calendar date");
+}
+
+// --- the calendar: weekdays unless declared, and no date in the future ---------------------
+// Weekdays checked against Python's datetime.date.weekday() (from memory: 1999-01-16 is a
+// Saturday, 1999-01-17 a Sunday; confirmed with python3 -c "import datetime; ...").
+
+TEST_F(ReturnsCsv, WeekendDatesAreRefusedInBothLayouts) {
+  expect_error("date,A\n1999-01-15,0.1\n1999-01-16,0.1\n", 3, "date",
+               "'1999-01-16' is a Saturday: a returns file holds weekdays only, unless it declares a calendar "
+               "with weekends by the line '# calendar: all days' before the header");
+  expect_error("date,asset,return\n1999-01-18,A,0.1\n1999-01-17,A,0.1\n", 3, "date", "'1999-01-17' is a Sunday");
+  // Prices too: a price on a Saturday is as stray as a return.
+  expect_error("date,A\n1999-01-15,10\n1999-01-16,11\n", 3, "date", "is a Saturday",
+               ValuesInFile::prices_to_simple_returns);
+}
+
+TEST_F(ReturnsCsv, ACalendarWithWeekendsIsDeclaredBeforeTheHeader) {
+  const std::string days = "date,A\n1999-01-15,0.1\n1999-01-16,0.2\n1999-01-17,0.3\n1999-01-18,0.4\n";
+  const ReturnsFile all = read_returns_file(write("all.csv", "# exchange: fictional\n#  Calendar :  All Days \n" + days), {});
+  EXPECT_TRUE(all.weekends);
+  EXPECT_EQ(all.panel.periods(), 4);
+  EXPECT_EQ(all.panel.values(1, 0), 0.2);
+  const ReturnsFile lng = read_returns_file(
+      write("long.csv", "# calendar: all days\ndate,asset,return\n1999-01-17,A,0.3\n1999-01-15,A,0.1\n"), {});
+  EXPECT_EQ(factorwatch::testing::iso_texts(lng.panel.dates), (std::vector<std::string>{"1999-01-15", "1999-01-17"}));
+  // The default stated, and prose that merely starts with the word: weekdays.
+  const ReturnsFile plain = read_returns_file(write("plain.csv", "# calendar: weekdays\ndate,A\n1999-01-15,0.1\n"), {});
+  EXPECT_FALSE(plain.weekends);
+  expect_error("# calendar: weekdays\ndate,A\n1999-01-16,0.1\n", 3, "date", "is a Saturday");
+  expect_error("# calendar days of the exchange follow\ndate,A\n1999-01-16,0.1\n", 3, "date", "is a Saturday");
+  // A declaration after the header is a comment among the data, refused as before.
+  expect_error("date,A\n# calendar: all days\n1999-01-16,0.1\n", 2, "", "comment");
+  expect_error("# calendar: 24/7\ndate,A\n1999-01-15,0.1\n", 1, "", "unknown calendar '24/7'");
+  expect_error("# calendar:\ndate,A\n1999-01-15,0.1\n", 1, "", "unknown calendar ''");
+}
+
+TEST_F(ReturnsCsv, DatesAfterTheLatestDateAreRefused) {
+  factorwatch::storage::ReturnsReadOptions options;
+  options.latest_date = factorwatch::testing::day("2024-01-05");
+  const std::string path = write("late.csv", "date,A\n2024-01-04,0.1\n2024-01-05,0.1\n");
+  EXPECT_EQ(read_returns_file(path, options).panel.periods(), 2);  // the latest date itself is kept
+  options.latest_date = factorwatch::testing::day("2024-01-04");
+  try {
+    read_returns_file(path, options);
+    ADD_FAILURE() << "accepted";
+  } catch (const InputError& e) {
+    EXPECT_EQ(e.line(), 3u);
+    EXPECT_EQ(e.field(), "date");
+    EXPECT_NE(std::string(e.what()).find("'2024-01-05' is in the future: no day after 2024-01-04 has begun anywhere "
+                                         "on earth yet"),
+              std::string::npos)
+        << e.what();
+  }
+  // By default the limit is the date in UTC+14, the earliest time zone: today (UTC) is
+  // always accepted, a date two days on never is.
+  const auto today = factorwatch::storage::utc_today();
+  EXPECT_GE(factorwatch::storage::latest_date_begun(), today);
+  EXPECT_LE(factorwatch::storage::latest_date_begun().days(), today.days() + 1);
+  const auto later = factorwatch::engine::Date::from_days(today.days() + 2);
+  const std::string header = "# calendar: all days\ndate,A\n";
+  EXPECT_NO_THROW(read_returns_file(write("today.csv", header + today.iso() + ",0.1\n"), {}));
+  expect_error(header + today.iso() + ",0.1\n" + later.iso() + ",0.1\n", 4, "date", "is in the future");
 }
 
 TEST_F(ReturnsCsv, ErrorDuplicateDateWide) {
@@ -567,20 +632,10 @@ TEST_F(ReturnsCsv, ReadsTheWorkingSizeInBothLayoutsAlike) {
   for (int j = 0; j < assets; ++j) wide += ",A" + std::to_string(1000 + j);
   wide += "\n";
   char cell[64];
+  // Weekdays from 2015: 1565 of them end in 2020, before today.
+  const auto calendar = factorwatch::testing::iso_texts(factorwatch::testing::business_dates(dates, "2015-01-05"));
   for (int t = 0; t < dates; ++t) {
-    // Plain consecutive calendar days from 2020-01-01 (labels only).
-    const int day_number = t;
-    int y = 2020, m = 1, d = 1 + day_number;
-    static const int len[12] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
-    for (;;) {
-      const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
-      const int ml = len[m - 1] + (m == 2 && leap);
-      if (d <= ml) break;
-      d -= ml;
-      if (++m == 13) m = 1, ++y;
-    }
-    char date[48];
-    std::snprintf(date, sizeof date, "%04d-%02d-%02d", y, m, d);
+    const std::string& date = calendar[static_cast<std::size_t>(t)];
     wide += date;
     for (int j = 0; j < assets; ++j) {
       const double r = 0.01 * std::sin(0.37 * t + 1.3 * j) + 1e-4 * ((t * 7919 + j * 104729) % 97);

@@ -40,10 +40,12 @@ class TempDir {
   std::string path_;
 };
 
-// Monday-to-Friday dates from 2021-01-04 (a Monday).
-inline std::vector<engine::Date> business_dates(int count) {
+// Monday-to-Friday dates from `first` (a Monday). A long run starts earlier: a returns
+// file may not hold a date after today.
+inline std::vector<engine::Date> business_dates(int count, const char* first = "2021-01-04") {
   std::vector<engine::Date> out;
-  engine::Date d = *engine::Date::from_iso("2021-01-04");
+  engine::Date d = *engine::Date::from_iso(first);
+  if (d.weekday() != 0) throw std::invalid_argument(std::string("business_dates: ") + first + " is not a Monday");
   for (int weekday = 0; static_cast<int>(out.size()) < count; weekday = (weekday + 1) % 7) {  // 0 = Monday
     if (weekday < 5) out.push_back(d);
     d = engine::Date::from_days(d.days() + 1);

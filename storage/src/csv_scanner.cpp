@@ -20,12 +20,13 @@ std::string_view trim(std::string_view s) {
 
 CsvScanner::CsvScanner(std::string_view text, const std::string& path) : text_(text), path_(path) {}
 
-void CsvScanner::skip_comments() {
+void CsvScanner::skip_comments(std::vector<Comment>* comments) {
   while (pos_ < text_.size()) {
     std::size_t end = text_.find('\n', pos_);
     if (end == std::string_view::npos) end = text_.size();
     std::string_view line = trim(text_.substr(pos_, end - pos_));
     if (!line.empty() && line.front() != '#') return;
+    if (comments != nullptr && !line.empty()) comments->push_back({next_line_, trim(line.substr(1))});
     pos_ = std::min(end + 1, text_.size());
     ++next_line_;
   }

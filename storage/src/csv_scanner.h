@@ -20,9 +20,15 @@ class CsvScanner {
   // `path` is only used in error messages; it must outlive the scanner.
   CsvScanner(std::string_view text, const std::string& path);
 
+  // A comment line: its number (1-based) and its text after the '#', trimmed.
+  struct Comment {
+    std::size_t line;
+    std::string_view text;
+  };
   // Skips comment lines (first non-blank character '#') and blank lines at the current
-  // position. Called once before the header: comments are not allowed among the data.
-  void skip_comments();
+  // position, appending the comments to `comments` when given. Called once before the
+  // header: comments are not allowed among the data.
+  void skip_comments(std::vector<Comment>* comments = nullptr);
 
   // Reads the next non-blank record into `fields` (cleared first); false at the end.
   // Throws InputError for an unterminated quote, text after a closing quote, and for a

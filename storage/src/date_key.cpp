@@ -33,4 +33,9 @@ engine::Date utc_today() {
   return engine::Date::from_days(static_cast<std::int32_t>(std::time(nullptr) / 86400));
 }
 
+engine::Date latest_date_begun() {
+  constexpr std::time_t kEarliestZoneAheadOfUtc = 14 * 3600;
+  return engine::Date::from_days(static_cast<std::int32_t>((std::time(nullptr) + kEarliestZoneAheadOfUtc) / 86400));
+}
+
 }  // namespace factorwatch::storage

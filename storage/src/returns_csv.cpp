@@ -6,6 +6,7 @@
 #include "cell_parse.h"
 #include "csv_scanner.h"
 #include "factorwatch/storage/input_error.h"
+#include "factorwatch/storage/timestamps.h"
 #include "file_text.h"
 #include "returns_layouts.h"
 #include "returns_values.h"
@@ -32,6 +33,34 @@ void check_names_are_utf8(const detail::ReturnsHeader& header) {
     if (auto bad = detail::first_invalid_utf8(header.names[i]))
       throw InputError(header.path, header.line, "column " + std::to_string(i + 1),
                        detail::invalid_utf8_problem("the column name", header.names[i], *bad));
+}
+
+// The calendar a file declares among the comments before its header (returns_csv.h).
+bool declares_weekends(const std::vector<detail::CsvScanner::Comment>& comments, const std::string& path) {
+  constexpr std::string_view kKey = "calendar";
+  std::optional<std::size_t> declared_on;
+  bool weekends = false;
+  for (const auto& comment : comments) {
+    std::string_view text = comment.text;
+    if (text.size() < kKey.size() || !detail::same_name(text.substr(0, kKey.size()), kKey)) continue;
+    text.remove_prefix(kKey.size());
+    while (!text.empty() && (text.front() == ' ' || text.front() == '\t')) text.remove_prefix(1);
+    if (text.empty() || text.front() != ':') continue;  // prose that starts with the word
+    text.remove_prefix(1);
+    while (!text.empty() && (text.front() == ' ' || text.front() == '\t')) text.remove_prefix(1);
+    if (declared_on)
+      throw InputError(path, comment.line, "",
+                       "the calendar is declared twice (lines " + std::to_string(*declared_on) + " and " +
+                           std::to_string(comment.line) + "); keep one declaration");
+    declared_on = comment.line;
+    if (detail::same_name(text, "all days")) weekends = true;
+    else if (detail::same_name(text, "weekdays")) weekends = false;
+    else
+      throw InputError(path, comment.line, "",
+                       "unknown calendar " + detail::quoted(text) +
+                           ": a returns file declares '# calendar: weekdays' (the default) or '# calendar: all days'");
+  }
+  return weekends;
 }
 
 ReturnsFile read_layout(detail::CsvScanner& scanner, const detail::ReturnsHeader& header,
@@ -70,7 +99,9 @@ ReturnsFile parse_returns_text(std::string_view text, const std::string& path, c
   constexpr std::string_view kBom = "\xEF\xBB\xBF";
   if (text.substr(0, kBom.size()) == kBom) text.remove_prefix(kBom.size());
   detail::CsvScanner scanner(text, path);
-  scanner.skip_comments();
+  std::vector<detail::CsvScanner::Comment> comments;
+  scanner.skip_comments(&comments);
+  const bool weekends = declares_weekends(comments, path);
   std::vector<std::string_view> fields;
   if (!scanner.next(fields)) {
     if (text.empty())
@@ -79,7 +110,7 @@ ReturnsFile parse_returns_text(std::string_view text, const std::string& path, c
                                               "row; ") + kLayouts);
   }
 
-  detail::ReturnsHeader header{path, text, {}, scanner.line()};
+  detail::ReturnsHeader header{path, text, {}, scanner.line(), {weekends, options.latest_date ? *options.latest_date : latest_date_begun()}};
   header.names.assign(fields.begin(), fields.end());
   scanner.set_column_names(&header.names);
   check_names_are_utf8(header);
@@ -88,6 +119,7 @@ ReturnsFile parse_returns_text(std::string_view text, const std::string& path, c
   ReturnsFile result = read_layout(scanner, header, rules);
   const auto& values = result.panel.values;
   result.values_present = static_cast<std::size_t>(values.size() - values.array().isNaN().count());
+  result.weekends = weekends;
   return result;
 }
 

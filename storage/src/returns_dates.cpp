@@ -8,12 +8,21 @@
 
 namespace factorwatch::storage::detail {
 
-engine::Date read_date(std::string_view cell, const std::string& path, std::size_t line,
+engine::Date read_date(std::string_view cell, const ReturnsHeader& header, std::size_t line,
                        const std::string& column) {
+  static const char* const kDayNames[] = {"Monday", "Tuesday", "Wednesday", "Thursday", "Friday", "Saturday", "Sunday"};
   const auto date = engine::Date::from_iso(cell);
   if (!date)
-    throw InputError(path, line, column,
-                     quoted(cell) + " is not a calendar date in the form yyyy-mm-dd");
+    throw InputError(header.path, line, column, quoted(cell) + " is not a calendar date in the form yyyy-mm-dd");
+  if (!header.dates.weekends && date->weekday() >= 5)
+    throw InputError(header.path, line, column,
+                     quoted(cell) + " is a " + kDayNames[date->weekday()] +
+                         ": a returns file holds weekdays only, unless it declares a calendar with weekends "
+                         "by the line '# calendar: all days' before the header");
+  if (*date > header.dates.latest)
+    throw InputError(header.path, line, column,
+                     quoted(cell) + " is in the future: no day after " + header.dates.latest.iso() +
+                         " has begun anywhere on earth yet");
   return *date;
 }
 

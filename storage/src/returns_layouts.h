@@ -14,12 +14,19 @@
 
 namespace factorwatch::storage::detail {
 
+// Which dates a file may hold (returns_csv.h, "the calendar").
+struct DateRules {
+  bool weekends = false;  // declared by "# calendar: all days"
+  engine::Date latest;    // no date after it
+};
+
 // What the reader knows about the file at the point it dispatches on the header.
 struct ReturnsHeader {
   const std::string& path;
   std::string_view text;  // the whole file (after any BOM), for locating lines again
   std::vector<std::string> names;
   std::size_t line = 0;
+  DateRules dates;
 };
 
 // Each reader returns the panel after values.finish() (returns, dates ascending) and the
@@ -41,8 +48,9 @@ struct DateRow {
 // come in any order; a wide file's must already ascend (checked row by row).
 std::vector<std::size_t> ascending_order(const std::vector<DateRow>& dates);
 
-// Reads the date cell of a record; throws InputError naming the column when invalid.
-engine::Date read_date(std::string_view cell, const std::string& path, std::size_t line,
+// Reads the date cell of a record; throws InputError naming the column when it is not a
+// date or one the header's DateRules refuse.
+engine::Date read_date(std::string_view cell, const ReturnsHeader& header, std::size_t line,
                        const std::string& column);
 
 }  // namespace factorwatch::storage::detail

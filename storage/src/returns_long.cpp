@@ -97,7 +97,7 @@ ReturnsFile read_long_returns(CsvScanner& scanner, const ReturnsHeader& header, 
     // nearly every row; unordered_map::emplace would also allocate a node per call.
     const std::string_view date_text = fields[date_col];
     if (dates.empty() || date_text != dates[static_cast<std::size_t>(date)].text) {
-      const engine::Date day = read_date(date_text, header.path, line, header.names[date_col]);
+      const engine::Date day = read_date(date_text, header, line, header.names[date_col]);
       auto found = date_index.find(day.days());
       if (found == date_index.end()) {
         found = date_index.emplace(day.days(), static_cast<std::int32_t>(dates.size())).first;

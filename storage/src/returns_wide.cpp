@@ -85,7 +85,7 @@ ReturnsFile read_wide_returns(CsvScanner& scanner, const ReturnsHeader& header, 
   while (scanner.next(fields)) {
     const std::size_t line = scanner.line();
     if (fields.size() != width) wrong_width(header, line, fields.size());
-    const DateRow row{read_date(fields[0], header.path, line, header.names[0]), fields[0], line};
+    const DateRow row{read_date(fields[0], header, line, header.names[0]), fields[0], line};
     if (!dates.empty() && row.date <= dates.back().date) out_of_order(header, dates, row);
     dates.push_back(row);
     for (std::size_t j = 1; j < width; ++j) values.push_back(rules.read(fields[j], line, header.names[j]));

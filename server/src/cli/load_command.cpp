@@ -81,8 +81,9 @@ int run_load_command(const LoadArguments& a, const GlobalArguments& global) {
     return kExitFailed;
   }
   std::printf("loaded %s into %s\n", a.path.c_str(), db->path().c_str());
-  std::printf("  file:     %s layout, %s, %s data rows, sha256 %s\n", file.layout.c_str(),
-              source.values_in_file.c_str(), thousands(file.data_rows).c_str(), source.content_sha256.c_str());
+  std::printf("  file:     %s layout, %s, %s calendar, %s data rows, sha256 %s\n", file.layout.c_str(),
+              source.values_in_file.c_str(), file.weekends ? "all-days" : "weekday",
+              thousands(file.data_rows).c_str(), source.content_sha256.c_str());
   std::printf("  dates:    %s .. %s (%zu), assets %zu (%zu new)\n", s.first_date.iso().c_str(), s.last_date.iso().c_str(),
               s.dates_in_file, s.assets_in_file, s.new_assets);
   std::printf("  values:   %s new, %s unchanged, %s corrected\n", thousands(s.values_new).c_str(),

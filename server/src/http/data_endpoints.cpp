@@ -54,6 +54,7 @@ ApiResponse upload_returns_endpoint(const ApiContext& context, const ApiRequest&
   j["file"] = source.path;
   j["layout"] = source.layout;
   j["values"] = source.values_in_file;
+  j["calendar"] = file.weekends ? "all days" : "weekdays";
   j["data_rows"] = source.data_rows;
   j["sha256"] = source.content_sha256;
   j["run_id"] = s.run_id;

@@ -20,6 +20,16 @@
 //     ("no data rows");
 //   - dates are ISO yyyy-mm-dd and must be real calendar dates; a date twice (wide) or a
 //     (date, asset) pair twice (long) is an error naming both lines;
+//   - the calendar: a date on a Saturday or a Sunday is refused, unless the file declares
+//     a calendar with weekends by the comment line "# calendar: all days" before the
+//     header (a market that trades on weekends; "# calendar: weekdays" states the default).
+//     A weekend row in a file of weekday markets is a stray row (a date typed wrong, a
+//     feed that wrote a non-trading day), and stored it would end windows on days no
+//     market traded. Another "# calendar:" value, or two declarations, is an error naming
+//     the comment's line; other comment lines are free text;
+//   - a date after ReturnsReadOptions::latest_date (by default the latest date begun
+//     anywhere on earth, timestamps.h) is refused: it cannot have been traded yet, and
+//     stored it would become every model's latest window;
 //   - column names and asset names must be valid UTF-8 (they end up in JSON and SQL);
 //   - an empty cell or NA (any case; R writes it) is a gap and becomes a quiet NaN; a
 //     long file may also simply leave the row out. Every other cell must be a whole
@@ -67,6 +77,7 @@
 #pragma once
 
 #include <cstddef>
+#include <optional>
 #include <string>
 #include <string_view>
 
@@ -96,8 +107,14 @@ inline constexpr std::size_t kLargestInputBytes = std::size_t{2048} << 20;
 enum class ValuesInFile { returns, prices_to_simple_returns, prices_to_log_returns };
 
 struct ReturnsReadOptions {
+  ReturnsReadOptions() = default;
+  // Implicit, so that `{ValuesInFile::prices_to_simple_returns}` reads as the options.
+  ReturnsReadOptions(ValuesInFile v) : values(v) {}  // NOLINT(google-explicit-constructor)
+
   ValuesInFile values = ValuesInFile::returns;
   std::size_t max_input_bytes = kLargestInputBytes;  // read_returns_file only
+  // The latest date a file may hold; none: latest_date_begun() when the file is read.
+  std::optional<engine::Date> latest_date;
 };
 
 struct ReturnsFile {
@@ -105,6 +122,7 @@ struct ReturnsFile {
   std::string layout;              // "long" or "wide"
   std::size_t data_rows = 0;       // data records read after the header
   std::size_t values_present = 0;  // non-missing returns in the panel
+  bool weekends = false;           // the file declared "# calendar: all days"
   // SHA-256 (hex) of every byte read, a byte-order mark included: what `sha256sum FILE`
   // prints for the file (for text in memory, of that text). Computed from the one read.
   std::string content_sha256;
