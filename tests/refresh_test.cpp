@@ -109,6 +109,47 @@ TEST(Refresh, GridIsAnchoredOnTheFirstDateAndASecondRunDoesNothing) {
   EXPECT_EQ(pipeline::pending_windows(db, *storage::find_model(db, "late")).size(), 3u);  // 141, 148, 155
 }
 
+// Older history loaded after a model's first refresh (a vendor's back file, sent late)
+// adds dates before the grid. The grid stays anchored at the model's earliest window: no
+// window moves, none is fitted before the first, and the pinned window (by default the
+// first), every alignment and every drift row stay byte for byte as they were. On the
+// old rule (grid counted from the first stored date) step 7 moved every as-of date and
+// step 1 fitted 40 earlier windows, changing the first window and all drift against it.
+TEST(Refresh, OlderHistoryLoadedLaterMovesNeitherTheGridNorThePinnedWindow) {
+  for (int step : {1, 7}) {
+    SCOPED_TRACE("step " + std::to_string(step));
+    TempDir dir;
+    const engine::ReturnsPanel p = planted();
+    const auto slice = [&](int from, int to) {
+      engine::ReturnsPanel part;
+      part.assets = p.assets;
+      part.dates.assign(p.dates.begin() + from, p.dates.begin() + to);
+      part.values = p.values.middleRows(from, to - from);
+      return part;
+    };
+    testing::write_long_csv(dir.file("recent.csv"), slice(40, kT));
+    testing::write_long_csv(dir.file("older.csv"), slice(0, 40));
+    storage::Database db(dir.database());
+    load(db, dir.file("recent.csv"));
+    storage::set_model(db, "m", ml_config(60, step));
+    const auto first = pipeline::refresh_model(db, "m");
+    ASSERT_GT(first.fitted, 0u);
+    EXPECT_EQ(first.first_as_of, p.dates[40 + 59]);
+    const auto windows_before = window_rows(db);
+    const auto alignments_before = alignment_rows(db);
+
+    load(db, dir.file("older.csv"));
+    const auto model = storage::find_model(db, "m");
+    EXPECT_TRUE(pipeline::pending_windows(db, *model).empty());
+    const auto second = pipeline::refresh_model(db, "m");
+    EXPECT_EQ(second.fitted, 0u);
+    EXPECT_EQ(second.already_current, first.fitted);
+    EXPECT_EQ(window_rows(db), windows_before);
+    EXPECT_EQ(alignment_rows(db), alignments_before);
+    EXPECT_EQ(storage::window_states(db, model->id).front().as_of, p.dates[99]);
+  }
+}
+
 // The equality the issue asks for: each stored window equals engine::fit on the same
 // dates read straight from the file, warm-started the same way (the first cold, each
 // later one from its predecessor). Loadings compare bit for bit: the database path feeds

@@ -36,11 +36,22 @@ struct GridPoint {
   engine::Date as_of;
 };
 
-std::vector<GridPoint> grid(const std::vector<engine::Date>& dates, const ModelConfig& config) {
+// The model version's grid on the stored dates: an as-of date every `step` dates, from
+// the first date at which a whole window is stored (and not before first_as_of). Once the
+// version has windows, the grid is anchored at its earliest one (`anchor`): the points are
+// the anchor and every `step`-th stored date after it, so that loading older history,
+// which adds dates before the anchor, neither moves the grid nor fits windows before the
+// first one (that would change the model's first, and pinned, window and re-chain every
+// alignment after it: refresh.h, "The grid").
+std::vector<GridPoint> grid(const std::vector<engine::Date>& dates, const ModelConfig& config,
+                            std::optional<engine::Date> anchor) {
   std::vector<GridPoint> points;
   const auto window = static_cast<std::size_t>(config.window);
-  for (std::size_t i = window - 1; i < dates.size(); i += static_cast<std::size_t>(config.step))
-    if (!config.first_as_of || dates[i] >= *config.first_as_of) points.push_back({i, dates[i]});
+  std::size_t first = window - 1;
+  if (anchor)
+    first = std::max(first, static_cast<std::size_t>(std::lower_bound(dates.begin(), dates.end(), *anchor) - dates.begin()));
+  for (std::size_t i = first; i < dates.size(); i += static_cast<std::size_t>(config.step))
+    if (anchor || !config.first_as_of || dates[i] >= *config.first_as_of) points.push_back({i, dates[i]});
   return points;
 }
 
@@ -56,10 +67,13 @@ struct Plan {
 Plan make_plan(Database& db, const ModelVersion& model) {
   Plan plan;
   plan.dates = storage::stored_dates(db);
-  plan.points = grid(plan.dates, model.config);
   std::set<engine::Date> current;
-  for (const storage::WindowState& w : storage::window_states(db, model.id))
+  std::optional<engine::Date> anchor;  // the version's earliest window
+  for (const storage::WindowState& w : storage::window_states(db, model.id)) {
     (w.stale ? plan.stale : current).insert(w.as_of);
+    if (!anchor || w.as_of < *anchor) anchor = w.as_of;
+  }
+  plan.points = grid(plan.dates, model.config, anchor);
   for (std::size_t p = 0; p < plan.points.size(); ++p)
     if (!current.count(plan.points[p].as_of)) plan.pending.push_back(p);
   return plan;

@@ -1,11 +1,16 @@
 // The rolling refresh: fit every window of a model that is not stored yet, or is stale,
 // up to the latest stored date.
 //
-// Windows: the model's window length W and step s lay a grid on the stored dates
-// d_0 < d_1 < ... : window j ends on d_(W-1+js) (its as-of date) and holds the W dates up
-// to it. The grid is anchored on the first stored date, so it does not move when new
-// dates arrive; a model's first_as_of skips the grid points before it. On the first run
-// this is a backfill; on a normal night, one new window.
+// The grid: the model's window length W and step s lay a grid on the stored dates
+// d_0 < d_1 < ... : before a model version has a window, window j ends on d_(W-1+js)
+// (its as-of date) and holds the W dates up to it; a model's first_as_of skips the grid
+// points before it. On the first run this is a backfill; on a normal night, one new
+// window. Once the version has windows, the grid is anchored at its earliest window: the
+// grid points are that date and every s-th stored date after it. New dates therefore
+// never move it, and neither does older history loaded later: no window is fitted before
+// the first one, so the model's first window, its pinned window (by default the first),
+// its alignments and its drift stay as they were. To fit windows on the older history,
+// define a new version with an earlier first_as_of.
 //
 // A load may commit while a refresh runs. A window is marked current only for the
 // returns it was fitted on: its write compares, in the same transaction, the stored
