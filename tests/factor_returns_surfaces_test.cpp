@@ -70,7 +70,9 @@ class FactorReturnsSurfaces : public ::testing::Test {
     const double nan = std::numeric_limits<double>::quiet_NaN();
     for (int t = 0; t < 100; ++t) m.panel.values(t, kLateListing) = nan;  // 20 of the first window's 120 dates
     m.panel.values(kDates - 1, kLastDateGap) = nan;
-    for (int i = 2; i < kAssets; ++i) m.panel.values(kSparseDate, i) = nan;
+    // Half the universe missing: still a date of the model (model_calendar.h); with fewer it
+    // would be left out of every window (NotScored below has a date scored on too few).
+    for (int i = kAssets / 2; i < kAssets; ++i) m.panel.values(kSparseDate, i) = nan;
     panel_ = m.panel;
     fw::write_long_csv(dir_->file("returns.csv"), m.panel);
     auto step = [](const std::string& arguments) {
@@ -156,8 +158,8 @@ TEST_F(FactorReturnsSurfaces, OneWindowJsonEqualsStorageExactly) {
         if (!d["reason"].is_null()) ++unscored;
       }
       EXPECT_EQ(unscored, int(stored.scores.unscored.size()));
-      // Only the last window holds the sparse date, the only one that cannot be scored.
-      EXPECT_EQ(unscored, as_of == windows_.back() ? 1 : 0);
+      // Every date has at least k + 1 observed assets (NotScored below has one that has not).
+      EXPECT_EQ(unscored, 0);
     }
   }
   // A date between windows: the latest window before it, with a note.
@@ -168,8 +170,8 @@ TEST_F(FactorReturnsSurfaces, OneWindowJsonEqualsStorageExactly) {
 }
 
 // Bartlett's scores from the published formula, formed here from the served model and the
-// file's returns, on a fully observed date, the date with a gap and the sparse date (not
-// scored: 2 observed assets cannot determine 2 factors and a mean-free fit needs k + 1).
+// file's returns, on a fully observed date, the date with a gap and the sparse date (15 of
+// the 30 assets observed).
 // Tolerance 1e-12 on scores of size about 1: the two computations differ in summation
 // order and in the solver of the 2 x 2 system, whose condition number is printed (1.3
 // measured: the planted loadings are well apart), so rounding stays near 1e-15 (1.3e-15
@@ -199,11 +201,8 @@ TEST_F(FactorReturnsSurfaces, BartlettScoresFollowTheFormulaOnTheServedModel) {
       ltz += m.loadings.row(i).transpose() * (x - window->fit.mean(fit_row)) / m.psi(i);
     }
     EXPECT_EQ(cli["dates"][t]["assets_used"], observed) << date;
-    if (observed < kFactors + 1) {
-      EXPECT_EQ(date, panel_.dates[kSparseDate].iso());
-      EXPECT_TRUE(cli["dates"][t]["factor_returns"][0].is_null());
-      EXPECT_NE(cli["dates"][t]["reason"].get<std::string>().find("fewer than k + 1"), std::string::npos);
-      continue;
+    if (date == panel_.dates[kSparseDate].iso()) {
+      EXPECT_EQ(observed, kAssets / 2);
     }
     const Eigen::VectorXd bartlett = ltp.ldlt().solve(ltz);
     const Eigen::VectorXd eigenvalues = Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd>(ltp).eigenvalues();
@@ -221,7 +220,7 @@ TEST_F(FactorReturnsSurfaces, BartlettScoresFollowTheFormulaOnTheServedModel) {
     EXPECT_LT(shown_regression.norm(), shown.norm()) << date;
     ++checked;
   }
-  EXPECT_EQ(checked, kWindow - 1);
+  EXPECT_EQ(checked, kWindow);
   std::printf("[ measured ] max |CLI Bartlett - formula| = %.2e; largest condition number of L' Psi^-1 L %.1f\n",
               worst, condition);
 }
@@ -318,10 +317,13 @@ TEST_F(FactorReturnsSurfaces, ResidualsAreReturnMinusMeanMinusLoadingsTimesFacto
           EXPECT_NEAR(got, expected, 1e-15) << asset << " " << date;
           worst = std::max(worst, std::abs(got - expected));
         }
-        // The last window (dates 140..259): the sparse date is not scored, and P1008 has a
-        // gap on the last date. Window 4 (dates 80..199): P1005 is listed on date 100 (20
-        // gaps, coverage 0.83, so fitted), the others are complete.
-        const int expected_missing = as_of == windows_.back() ? (asset == "P1008" ? 2 : 1) : (asset == "P1005" ? 20 : 0);
+        // The last window (dates 140..259): the second half of the assets (P1015 on) has no
+        // return on the sparse date, and P1008 a gap on the last date. Window 4 (dates
+        // 80..199): P1005 is listed on date 100 (20 gaps, coverage 0.83, so fitted), the
+        // others are complete.
+        const int index = std::stoi(asset.substr(1)) - 1000;
+        const int expected_missing = as_of == windows_.back() ? (asset == "P1008" ? 1 : 0) + (index >= kAssets / 2 ? 1 : 0)
+                                                              : (asset == "P1005" ? 20 : 0);
         EXPECT_EQ(missing, expected_missing) << asset << " " << as_of;
       }
     }
@@ -353,7 +355,7 @@ TEST_F(FactorReturnsSurfaces, CsvIsCautionHeadingAndOneHeaderRow) {
       EXPECT_EQ(f[6], "");
     }
   }
-  // One window: every date, the unscored one with empty cells and its reason.
+  // One window: every date, the sparse one scored on the assets observed.
   const auto w = run("factor-returns m --window " + windows_.back() + " --format csv");
   ASSERT_EQ(w.status, 0) << w.err;
   auto lines = fw::lines_of(w.out);
@@ -365,9 +367,9 @@ TEST_F(FactorReturnsSurfaces, CsvIsCautionHeadingAndOneHeaderRow) {
   const auto sparse = fw::csv_fields(lines[3 + kSparseDate - (kDates - kWindow)]);
   ASSERT_EQ(sparse.size(), 5u);
   EXPECT_EQ(sparse[0], panel_.dates[kSparseDate].iso());
-  EXPECT_EQ(sparse[1], "");
-  EXPECT_EQ(sparse[3], "2");
-  EXPECT_NE(sparse[4].find("fewer than k + 1"), std::string::npos);
+  EXPECT_NE(sparse[1], "");
+  EXPECT_EQ(sparse[3], std::to_string(kAssets / 2));
+  EXPECT_EQ(sparse[4], "");
   // Residuals: the asset's numbers in the heading, then date,residual.
   const auto r = run("residuals m P1003 --method regression --format csv");
   ASSERT_EQ(r.status, 0) << r.err;
@@ -403,9 +405,37 @@ TEST_F(FactorReturnsSurfaces, TablesNameTheMethodAndEndWithTheCaution) {
     EXPECT_NE(r.out.find(regression ? "method regression" : "method bartlett"), std::string::npos) << r.out;
     EXPECT_NE(r.out.find(regression ? kRegressionWords : kBartlettWords), std::string::npos) << r.out;
   }
-  const auto w = run("factor-returns m --window " + windows_.back());
-  EXPECT_NE(w.out.find(panel_.dates[kSparseDate].iso() + "         -         -       2  not scored: "), std::string::npos)
-      << w.out;
+}
+
+// A date of a window on which fewer than k + 1 of its assets have a return is shown, not
+// scored, with its reason (2 observed assets cannot determine 2 factors and a mean). In a
+// universe of four, two is half: the date is in the model's calendar (model_calendar.h).
+TEST(FactorReturnsNotScored, ADateWithTooFewAssetsHasEmptyCellsAndItsReason) {
+  fw::TempDir dir;
+  fw::PlantedModel m = fw::simulate_planted_model(60, 4, 1, 20261205u);
+  m.panel.dates = fw::business_dates(60);
+  constexpr int kFewDate = 55;
+  for (int i = 2; i < 4; ++i) m.panel.values(kFewDate, i) = std::numeric_limits<double>::quiet_NaN();
+  fw::write_long_csv(dir.file("returns.csv"), m.panel);
+  ASSERT_EQ(fw::run_factorwatch(dir.path(), "load '" + dir.file("returns.csv") + "'").status, 0);
+  ASSERT_EQ(fw::run_factorwatch(dir.path(), "model set m --method pca --factors 2 --window 40 --step 20").status, 0);
+  ASSERT_EQ(fw::run_factorwatch(dir.path(), "refresh m").status, 0);
+  const std::string date = m.panel.dates[kFewDate].iso();
+  const auto csv = fw::run_factorwatch(dir.path(), "factor-returns m --format csv");
+  ASSERT_EQ(csv.status, 0) << csv.err;
+  const json j = json::parse(fw::run_factorwatch(dir.path(), "factor-returns m --window " + m.panel.dates[59].iso() +
+                                                                 " --format json").out);
+  bool seen = false;
+  for (const auto& row : j["dates"]) {
+    if (row["date"] != date) continue;
+    seen = true;
+    EXPECT_EQ(row["assets_used"], 2);
+    EXPECT_TRUE(row["factor_returns"][0].is_null());
+    EXPECT_NE(row["reason"].get<std::string>().find("fewer than k + 1"), std::string::npos) << row.dump();
+  }
+  EXPECT_TRUE(seen) << j.dump();
+  const auto table = fw::run_factorwatch(dir.path(), "factor-returns m --window " + m.panel.dates[59].iso());
+  EXPECT_NE(table.out.find(date + "         -         -       2  not scored: "), std::string::npos) << table.out;
 }
 
 TEST_F(FactorReturnsSurfaces, CommandLineFailuresNameTheOptionAndExit) {

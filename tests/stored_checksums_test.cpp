@@ -241,6 +241,7 @@ TEST(StoredChecksums, MigrationFromSchema6BackFillsEveryChecksum) {
     sql.exec("DROP INDEX returns_checksums");
     sql.exec("ALTER TABLE returns DROP COLUMN checksum");
     sql.exec("ALTER TABLE windows DROP COLUMN provenance");  // schema 8
+    sql.exec("ALTER TABLE windows DROP COLUMN skipped_dates");  // schema 9
     sql.exec("PRAGMA user_version = 6");
   }
   {

@@ -8,6 +8,7 @@
 #include "factorwatch/storage/date_key.h"
 #include "factorwatch/storage/returns_span.h"
 #include "factorwatch/storage/windows.h"
+#include "model_calendar.h"
 
 namespace factorwatch::pipeline {
 namespace {
@@ -34,7 +35,9 @@ engine::ReturnsPanel window_panel(Database& db, const WindowRecord& w) {
   const std::vector<std::int32_t> ids = storage::stored_asset_ids(db, w.fit.assets);
   engine::ReturnsPanel panel;
   if (ids.empty()) return panel;  // an empty universe would mean every stored asset
-  const storage::ReturnsSpan span(db, w.first_date, w.as_of, ids);
+  const std::vector<engine::Date> dates = detail::window_dates(storage::stored_dates(db), w.first_date, w.as_of,
+                                                               w.skipped_dates);
+  const storage::ReturnsSpan span(db, w.first_date, w.as_of, ids, &dates);
   return span.window(0, span.dates().size());
 }
 

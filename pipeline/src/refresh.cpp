@@ -2,11 +2,13 @@
 
 #include <algorithm>
 #include <chrono>
+#include <iterator>
 #include <optional>
 #include <set>
 #include <stdexcept>
 
 #include "align_windows.h"
+#include "model_calendar.h"
 #include "factorwatch/engine/build_info.h"
 #include "factorwatch/engine/rotation.h"
 #include "factorwatch/engine/window_products.h"
@@ -58,15 +60,25 @@ std::vector<GridPoint> grid(const std::vector<engine::Date>& dates, const ModelC
 // The stored dates, the model's grid on them, and which grid windows still need a fit
 // (none stored, or stale), from one read of the model version's windows.
 struct Plan {
-  std::vector<engine::Date> dates;
+  std::vector<engine::Date> stored;  // every stored date
+  std::vector<engine::Date> dates;   // the model's calendar (model_calendar.h): its windows' dates
   std::vector<GridPoint> points;
   std::vector<std::size_t> pending;  // positions in `points`
   std::set<engine::Date> stale;      // as-of dates of stored windows marked stale
 };
 
+// The model's universe as stored asset ids (ascending); empty for every stored asset.
+std::vector<std::int32_t> universe_ids(Database& db, const ModelConfig& config) {
+  return storage::stored_asset_ids(db, config.universe);
+}
+
 Plan make_plan(Database& db, const ModelVersion& model) {
   Plan plan;
-  plan.dates = storage::stored_dates(db);
+  const std::vector<std::int32_t> universe = universe_ids(db, model.config);
+  const std::vector<storage::DateCount> counts = storage::stored_date_counts(db, universe);
+  for (const storage::DateCount& c : counts) plan.stored.push_back(c.date);
+  // A universe none of whose assets is stored has no dates (fit_pending says why).
+  if (model.config.universe.empty() || !universe.empty()) plan.dates = detail::calendar_of(counts);
   std::set<engine::Date> current;
   std::optional<engine::Date> anchor;  // the version's earliest window
   for (const storage::WindowState& w : storage::window_states(db, model.id)) {
@@ -135,8 +147,13 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
   const Plan plan = make_plan(db, *model);
   const std::vector<engine::Date>& dates = plan.dates;
   if (dates.size() < static_cast<std::size_t>(config.window)) {
-    summary.note = std::to_string(dates.size()) + " dates stored, fewer than the window of " +
-                   std::to_string(config.window) + ": nothing to fit yet";
+    if (dates.size() == plan.stored.size())
+      summary.note = std::to_string(dates.size()) + " dates stored, fewer than the window of " +
+                     std::to_string(config.window) + ": nothing to fit yet";
+    else
+      summary.note = std::to_string(plan.stored.size()) + " dates stored, of which " + std::to_string(dates.size()) +
+                     " are in the model's calendar (enough of its universe traded), fewer than the window of " +
+                     std::to_string(config.window) + ": nothing to fit yet";
     return Pass::done;
   }
   const std::vector<GridPoint>& points = plan.points;
@@ -151,7 +168,7 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
 
   const engine::FitOptions base = config.fit_options();
   const engine::RotationOptions rotation = config.rotation;
-  const std::vector<std::int32_t> universe = storage::stored_asset_ids(db, config.universe);
+  const std::vector<std::int32_t> universe = universe_ids(db, config);
   if (!config.universe.empty() && universe.empty())
     throw std::invalid_argument("model '" + model->name + "': none of its " + std::to_string(config.universe.size()) +
                                 " universe assets has stored returns");
@@ -168,13 +185,17 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
     const std::size_t last_row = points[pending[chunk_end - 1]].index;
     if (detail::refresh_hooks().before_read) detail::refresh_hooks().before_read();
     auto t_read = Clock::now();
-    const storage::ReturnsSpan span(db, dates[first_row], dates[last_row], universe);
+    const storage::ReturnsSpan span(db, dates[first_row], dates[last_row], universe, &dates);
     summary.read_seconds += since(t_read);
     if (detail::refresh_hooks().after_read) detail::refresh_hooks().after_read();
-    // Windows are cut from the span by position in the plan's dates: both must be the same.
+    // Windows are cut from the span by position in the plan's dates: both must be the
+    // same, and so must the stored dates the plan's calendar was drawn from.
+    const auto stored_from = std::lower_bound(plan.stored.begin(), plan.stored.end(), dates[first_row]);
+    const auto stored_to = std::upper_bound(stored_from, plan.stored.end(), dates[last_row]);
     if (!std::equal(span.dates().begin(), span.dates().end(), dates.begin() + static_cast<std::ptrdiff_t>(first_row),
                     dates.begin() + static_cast<std::ptrdiff_t>(last_row) + 1) ||
-        span.dates().size() != last_row + 1 - first_row)
+        span.dates().size() != last_row + 1 - first_row ||
+        !std::equal(span.stored_dates().begin(), span.stored_dates().end(), stored_from, stored_to))
       return Pass::replan;
 
     for (std::size_t k = chunk; k < chunk_end; ++k) {
@@ -208,6 +229,13 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       summary.read_seconds += since(t_read);  // cutting the window and fingerprinting it
       record.as_of = point.as_of;
       record.first_date = panel.dates.front();
+      // The stored dates inside the window that its calendar left out, kept with it so the
+      // window's returns can be read again exactly (factor_returns.h).
+      {
+        const auto from = std::lower_bound(plan.stored.begin(), plan.stored.end(), record.first_date);
+        const auto to = std::upper_bound(from, plan.stored.end(), record.as_of);
+        std::set_difference(from, to, panel.dates.begin(), panel.dates.end(), std::back_inserter(record.skipped_dates));
+      }
       record.configuration_hash = model->configuration_hash;
       record.provenance = engine::build_info();
       const auto t_fit = Clock::now();

@@ -267,6 +267,13 @@ CREATE INDEX returns_checksums ON returns (date, checksum);
       {8, "provenance of fitted windows", R"sql(
 ALTER TABLE windows ADD COLUMN provenance TEXT;
 )sql"},
+      // A model's window holds the stored dates on which enough of its universe traded
+      // (refresh.h, "The calendar"); the other stored dates between its first and its
+      // as-of date are kept here so that the window's returns can be read again exactly
+      // (factor scores, residuals). NULL: none skipped, as for every window before schema 9.
+      {9, "stored dates a window skipped", R"sql(
+ALTER TABLE windows ADD COLUMN skipped_dates BLOB;  -- encode_int32s of yyyymmdd keys, ascending
+)sql"},
   };
   return steps;
 }

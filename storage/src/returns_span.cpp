@@ -9,6 +9,8 @@
 #include <string>
 
 #include "asset_directory.h"
+#include "blob_codec.h"
+#include "factorwatch/storage/damaged_data.h"
 #include "factorwatch/storage/date_key.h"
 #include "fingerprint.h"
 #include "returns_rows.h"
@@ -35,8 +37,45 @@ std::vector<std::int32_t> stored_asset_ids(Database& db, const std::vector<std::
   return ids;
 }
 
+std::vector<DateCount> stored_date_counts(Database& db, const std::vector<std::int32_t>& universe) {
+  std::vector<DateCount> out;
+  // Every asset: the length of the id list is the count, without reading the ids.
+  if (universe.empty()) {
+    SQLite::Statement q(db.sql(), "SELECT date, length(asset_ids) FROM returns ORDER BY date");
+    while (q.executeStep()) {
+      const std::int32_t date = q.getColumn(0).getInt();
+      const auto bytes = q.getColumn(1).getInt64();
+      if (bytes % 4 != 0)
+        throw DamagedData("returns of " + key_text(date) + ": " + std::to_string(bytes) + " bytes of asset ids");
+      out.push_back({stored_date(date), static_cast<int>(bytes / 4)});
+    }
+    return out;
+  }
+  SQLite::Statement q(db.sql(), "SELECT date, asset_ids FROM returns ORDER BY date");
+  std::vector<std::int32_t> ids;
+  while (q.executeStep()) {
+    const std::int32_t date = q.getColumn(0).getInt();
+    const SQLite::Column blob = q.getColumn(1);
+    const void* data = blob.getBlob();
+    const auto bytes = static_cast<std::size_t>(blob.getBytes());
+    if (bytes % 4 != 0)
+      throw DamagedData("returns of " + key_text(date) + ": " + std::to_string(bytes) + " bytes of asset ids");
+    ids.resize(bytes / 4);
+    if (!ids.empty()) detail::read_int32s(data, ids.size(), ids.data());
+    // Both ascending (a damaged, unordered list only miscounts; its span read reports it).
+    int n = 0;
+    for (std::size_t a = 0, b = 0; a < ids.size() && b < universe.size();) {
+      if (ids[a] < universe[b]) ++a;
+      else if (universe[b] < ids[a]) ++b;
+      else ++n, ++a, ++b;
+    }
+    out.push_back({stored_date(date), n});
+  }
+  return out;
+}
+
 ReturnsSpan::ReturnsSpan(Database& db, engine::Date first_date, engine::Date last_date,
-                         const std::vector<std::int32_t>& universe) {
+                         const std::vector<std::int32_t>& universe, const std::vector<engine::Date>* calendar) {
   const std::int32_t first = first_date.key(), last = last_date.key();
   SQLite::Database& sql = db.sql();
   detail::AssetDirectory& directory = db.assets();
@@ -69,9 +108,12 @@ ReturnsSpan::ReturnsSpan(Database& db, engine::Date first_date, engine::Date las
   Eigen::Index t = 0;
   while (t < rows && q.executeStep()) {
     const std::int32_t date = q.getColumn(0).getInt();
-    detail::decode_cross_section(date, q.getColumn(1), q.getColumn(2), q.getColumn(3), row);  // ids > 0, ascending
-    dates_.push_back(stored_date(date));
+    const engine::Date day = stored_date(date);
+    stored_dates_.push_back(day);
     checksums_.push_back(q.getColumn(3).getInt64());
+    if (calendar != nullptr && !std::binary_search(calendar->begin(), calendar->end(), day)) continue;
+    detail::decode_cross_section(date, q.getColumn(1), q.getColumn(2), q.getColumn(3), row);  // ids > 0, ascending
+    dates_.push_back(day);
     double* out = values_.data() + t * values_.cols();
     for (std::size_t k = 0; k < row.ids.size(); ++k) {
       const std::int32_t id = row.ids[k];
@@ -89,9 +131,13 @@ ReturnsSpan::ReturnsSpan(Database& db, engine::Date first_date, engine::Date las
 
 std::uint64_t ReturnsSpan::rows_digest(std::size_t begin, std::size_t count) const {
   Fingerprint f;
-  for (std::size_t t = begin; t < begin + count && t < dates_.size(); ++t) {
-    f.add(std::int64_t{dates_[t].key()});
-    f.add(checksums_[t]);
+  if (count == 0 || begin >= dates_.size()) return f.value();
+  const std::size_t last = std::min(begin + count, dates_.size()) - 1;
+  const auto from = std::lower_bound(stored_dates_.begin(), stored_dates_.end(), dates_[begin]);
+  const auto to = std::upper_bound(from, stored_dates_.end(), dates_[last]);
+  for (auto at = from; at != to; ++at) {
+    f.add(std::int64_t{at->key()});
+    f.add(checksums_[static_cast<std::size_t>(at - stored_dates_.begin())]);
   }
   return f.value();
 }

@@ -151,6 +151,10 @@ WindowRecord read_fields(Database& db, SQLite::Statement& q) {
   fit.eigenvalues = vector_column(q, "eigenvalues");
   fit.explained_share = vector_column(q, "explained_share");
   if (!q.getColumn("rotation").isNull()) w.rotation = matrix_column(q, "rotation");
+  if (const SQLite::Column skipped = q.getColumn("skipped_dates"); !skipped.isNull())
+    for (std::int32_t key : detail::decode_int32s(skipped.getBlob(), static_cast<std::size_t>(skipped.getBytes()),
+                                                  "skipped_dates"))
+      w.skipped_dates.push_back(stored_date(key));
   if (!q.getColumn("provenance").isNull()) {
     try {
       const json p = json::parse(q.getColumn("provenance").getString());
@@ -210,8 +214,9 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& w, std
                       "INSERT OR REPLACE INTO windows (model_version_id, as_of, first_date, configuration_hash, "
                       "input_hash, asset_count, factors, usable, termination, assets, mean, scale, loadings, "
                       "specific_variance, communality, uniqueness, heywood, factor_covariance, eigenvalues, "
-                      "explained_share, statistics, fit_seconds, total_seconds, fitted_at, rotation, stale, provenance) "
-                      "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
+                      "explained_share, statistics, fit_seconds, total_seconds, fitted_at, rotation, stale, provenance, "
+                      "skipped_dates) "
+                      "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   q.bind(2, w.as_of.key());
   q.bind(3, w.first_date.key());
@@ -244,6 +249,13 @@ bool save_window(Database& db, long model_version_id, const WindowRecord& w, std
   if (p.program_version.empty()) q.bind(27);  // NULL: not known
   else q.bind(27, json{{"program", p.program_version}, {"eigen", p.eigen_version}, {"spectra", p.spectra_version},
                        {"build", p.build_flags}}.dump());
+  if (w.skipped_dates.empty()) {
+    q.bind(28);  // NULL: every stored date in the range is in the window
+  } else {
+    std::vector<std::int32_t> keys;
+    for (engine::Date d : w.skipped_dates) keys.push_back(d.key());
+    bind_blob(q, 28, detail::encode_int32s(keys));
+  }
   q.exec();
   transaction.commit();
   return current;

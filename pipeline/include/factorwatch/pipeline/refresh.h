@@ -1,7 +1,13 @@
 // The rolling refresh: fit every window of a model that is not stored yet, or is stale,
 // up to the latest stored date.
 //
-// The grid: the model's window length W and step s lay a grid on the stored dates
+// The calendar: a model's windows count only its own dates, the stored dates on which at
+// least half as many of its universe assets have a return as on the busiest of that date
+// and the 20 stored dates before it (pipeline/src/model_calendar.h); a model of one
+// market thus skips the dates only other markets traded. The dates a window skipped
+// between its first and its as-of date are stored with it.
+//
+// The grid: the model's window length W and step s lay a grid on the model's dates
 // d_0 < d_1 < ... : before a model version has a window, window j ends on d_(W-1+js)
 // (its as-of date) and holds the W dates up to it; a model's first_as_of skips the grid
 // points before it. On the first run this is a backfill; on a normal night, one new

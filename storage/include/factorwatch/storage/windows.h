@@ -31,6 +31,10 @@ struct WindowAlignment {
 struct WindowRecord {
   engine::Date as_of;       // the window's last date
   engine::Date first_date;  // its first date
+  // Stored dates between first_date and as_of that are not in the window: the model's
+  // calendar left them out (too little of its universe traded). Ascending; empty for
+  // nearly every window.
+  std::vector<engine::Date> skipped_dates;
   std::string configuration_hash;
   std::string input_hash;  // fingerprint of the dates, assets and returns the fit saw
   engine::FactorFit fit;   // restored exactly as fitted (fit.assets: the fitted assets)
