@@ -177,6 +177,8 @@ TEST(Daemon, WritesNeedTheTokenAndAWrongTokenChangesNothing) {
   EXPECT_EQ(ok.status, 200) << ok.body;
   EXPECT_EQ(json::parse(ok.body)["assets"], 40);
   EXPECT_EQ(json::parse(ok.body)["calendar"], "weekdays");
+  EXPECT_EQ(json::parse(ok.body)["moved_forward"], true);
+  EXPECT_TRUE(json::parse(ok.body)["latest_date_before"].is_null());
   // A file that declares a market trading on weekends stores its Saturday (1999-01-16).
   fw::write_text(dir.file("weekend.csv"), "# calendar: all days\ndate,ZQ-WKND\n1999-01-15,0.01\n1999-01-16,0.02\n");
   auto weekend = fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" +
@@ -184,6 +186,10 @@ TEST(Daemon, WritesNeedTheTokenAndAWrongTokenChangesNothing) {
   EXPECT_EQ(weekend.status, 200) << weekend.body;
   EXPECT_EQ(json::parse(weekend.body)["calendar"], "all days");
   EXPECT_EQ(json::parse(weekend.body)["last_date"], "1999-01-16");
+  // Older history: two dates new to the database, none after its latest (the feed has not moved on).
+  EXPECT_EQ(json::parse(weekend.body)["dates_new"], 2);
+  EXPECT_EQ(json::parse(weekend.body)["moved_forward"], false);
+  EXPECT_EQ(json::parse(weekend.body)["latest_date_before"], json::parse(ok.body)["last_date"]);
 
   // A renewed token takes effect without a restart; the old one stops working.
   const std::string renewed = fw::run_factorwatch(dir.path(), "token --renew").out.substr(0, 64);

@@ -55,6 +55,10 @@ TEST_F(NightlyRoutine, LoadDefineRefreshThenOneWindowANight) {
   EXPECT_NE(r.out.find("1 window fitted, as of " + last_date), std::string::npos) << r.out;
   r = run_factorwatch(dir.path(), "load " + dir.file("night.csv"));  // the same file again
   EXPECT_NE(r.out.find("no change"), std::string::npos) << r.out;
+  // A feed that sends the same file again has stopped: exit 3, saying so.
+  EXPECT_EQ(r.status, 3) << r.out << r.err;
+  EXPECT_NE(r.out.find("no new date: the file brings no date after the latest stored one, " + last_date), std::string::npos)
+      << r.out;
   r = run_factorwatch(dir.path(), "refresh demo");
   EXPECT_NE(r.out.find("nothing to fit"), std::string::npos) << r.out;
 
@@ -69,6 +73,44 @@ TEST_F(NightlyRoutine, LoadDefineRefreshThenOneWindowANight) {
   EXPECT_EQ(r.out.rfind("# caution: " + std::string(engine::kCaution), 0), 0u) << r.out.substr(0, 200);
   r = run_factorwatch(dir.path(), "windows demo");
   EXPECT_NE(r.out.find(engine::kCaution), std::string::npos);
+}
+
+// Exit 3 means "no new date", whatever else the file did: a revision of past days (a
+// correction) is stored, and still says the feed has not moved on; a file that adds a
+// date after the latest stored one exits 0, and so does the first load.
+TEST_F(NightlyRoutine, AFileWithNoNewDateExitsThree) {
+  auto r = run_factorwatch(dir.path(), "load " + dir.file("history.csv"));
+  ASSERT_EQ(r.status, 0) << r.err;
+  factorwatch::testing::write_text(dir.file("revision.csv"), "date,asset,return\n" + before_last + ",P1000,0.0123\n");
+  r = run_factorwatch(dir.path(), "load " + dir.file("revision.csv"));
+  EXPECT_EQ(r.status, 3) << r.out << r.err;
+  EXPECT_NE(r.out.find("correction"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("no new date"), std::string::npos) << r.out;
+  r = run_factorwatch(dir.path(), "load " + dir.file("night.csv"));
+  EXPECT_EQ(r.status, 0) << r.out << r.err;
+  EXPECT_EQ(r.out.find("no new date"), std::string::npos) << r.out;
+}
+
+// deploy/nightly.sh passes the load's news on: 0 with a new date, 3 with none (after
+// refreshing, so a revision is still refitted), 2 for a rejected file (no refresh).
+TEST_F(NightlyRoutine, TheNightlyScriptsExitStatusSaysWhatHappened) {
+  ASSERT_EQ(run_factorwatch(dir.path(), "model set demo --method pca --factors 2 --window 100 --step 10").status, 0);
+  const std::string script = "FACTORWATCH_DATA='" + dir.path() + "' FACTORWATCH_BIN='" +
+                             factorwatch::testing::factorwatch_command() + "' " FACTORWATCH_SOURCE_DIR "/deploy/nightly.sh ";
+  auto r = factorwatch::testing::run_shell(script + dir.file("history.csv"), dir.file("err.txt"));
+  EXPECT_EQ(r.status, 0) << r.out << r.err;
+  EXPECT_NE(r.out.find("windows fitted"), std::string::npos) << r.out;
+  r = factorwatch::testing::run_shell(script + dir.file("history.csv"), dir.file("err.txt"));
+  EXPECT_EQ(r.status, 3) << r.out << r.err;
+  EXPECT_NE(r.out.find("the feed has not moved on"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("nothing to fit"), std::string::npos) << r.out;  // the refresh ran
+  factorwatch::testing::write_text(dir.file("bad.csv"), "date,asset,return\n" + last_date + ",P1000,12%\n");
+  r = factorwatch::testing::run_shell(script + dir.file("bad.csv"), dir.file("err.txt"));
+  EXPECT_EQ(r.status, 2) << r.out << r.err;
+  EXPECT_NE(r.out.find("nothing refreshed"), std::string::npos) << r.out;
+  r = factorwatch::testing::run_shell(script + dir.file("night.csv"), dir.file("err.txt"));
+  EXPECT_EQ(r.status, 0) << r.out << r.err;
+  EXPECT_NE(r.out.find("1 window fitted"), std::string::npos) << r.out;
 }
 
 // The CSV a spreadsheet imports and the JSON a script reads carry the same numbers, and

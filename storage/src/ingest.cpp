@@ -92,6 +92,8 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
   if (!panel.dates.empty()) summary.first_date = panel.dates.front(), summary.last_date = panel.dates.back();
 
   SQLite::Transaction transaction(sql, SQLite::TransactionBehavior::IMMEDIATE);
+  if (const SQLite::Column latest = sql.execAndGet("SELECT max(date) FROM returns"); !latest.isNull())
+    summary.latest_before = stored_date(latest.getInt());
   const std::vector<std::int32_t> ids = asset_ids(sql, panel.assets, summary.new_assets);
   // Visit the panel's columns in ascending id order so each date's entries come sorted.
   std::vector<std::size_t> by_id(ids.size());
@@ -108,7 +110,7 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
 
   for (Eigen::Index t = 0; t < panel.periods(); ++t) {
     const std::int32_t date = panel.dates[static_cast<std::size_t>(t)].key();
-    reader.read(date, stored);
+    const bool date_stored = reader.read(date, stored);
     merged.clear();
     std::size_t s = 0, added = 0, corrected = 0;
     const double* row = panel.values.data() + t * panel.width();
@@ -134,6 +136,10 @@ LoadSummary store_returns(Database& db, const engine::ReturnsPanel& panel, const
     }
     for (; s < stored.ids.size(); ++s) merged.push(stored.ids[s], stored.values[s]);
     if (added + corrected == 0) continue;
+    if (!date_stored) {
+      ++summary.dates_new;
+      if (!summary.latest_before || date > summary.latest_before->key()) summary.moved_forward = true;
+    }
     summary.values_new += added;
     summary.values_corrected += corrected;
     writer.write(date, merged);

@@ -20,6 +20,9 @@ namespace factorwatch::server {
 inline constexpr int kExitOk = 0;
 inline constexpr int kExitFailed = 1;    // the job ran and failed (e.g. an unusable fit)
 inline constexpr int kExitBadInput = 2;  // bad options or a bad input file; nothing changed
+// The job ran and changed nothing worth a night: `load` of a file that brings no date after
+// the latest stored one (the feed has not moved on). Distinct so a nightly script can say so.
+inline constexpr int kExitNoNewData = 3;
 
 struct GlobalArguments {
   std::string data_dir;  // --data; "" = FACTORWATCH_DATA or the default

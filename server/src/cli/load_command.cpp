@@ -92,6 +92,13 @@ int run_load_command(const LoadArguments& a, const GlobalArguments& global) {
     std::printf("  windows:  %zu marked stale; `factorwatch refresh` refits them\n", s.windows_marked_stale);
   std::printf("  outcome:  %s (ingest run %ld), %.2f s (reading %.2f s, storing %.2f s)\n", s.outcome.c_str(),
               s.run_id, seconds_since(start), read_seconds, s.seconds);
+  if (!s.moved_forward) {
+    // Exit 3: a nightly feed that sends yesterday's file again has stopped, and a script
+    // that only checks for failure would not notice.
+    std::printf("  no new date: the file brings no date after the latest stored one%s%s (exit status 3)\n",
+                s.latest_before ? ", " : "", engine::iso_or_empty(s.latest_before).c_str());
+    return kExitNoNewData;
+  }
   return kExitOk;
 }
 

@@ -64,6 +64,9 @@ ApiResponse upload_returns_endpoint(const ApiContext& context, const ApiRequest&
   j["dates"] = s.dates_in_file;
   j["assets"] = s.assets_in_file;
   j["new_assets"] = s.new_assets;
+  j["dates_new"] = s.dates_new;
+  j["latest_date_before"] = s.latest_before;  // null: no returns were stored
+  j["moved_forward"] = s.moved_forward;       // false: no date after latest_date_before (the feed has not moved on)
   j["values_new"] = s.values_new;
   j["values_unchanged"] = s.values_unchanged;
   j["values_corrected"] = s.values_corrected;

@@ -13,6 +13,7 @@
 #pragma once
 
 #include <cstddef>
+#include <optional>
 #include <string>
 
 #include "factorwatch/engine/panel.h"
@@ -38,6 +39,12 @@ struct LoadSummary {
   engine::Date first_date, last_date;
   std::size_t assets_in_file = 0;
   std::size_t new_assets = 0;
+  std::size_t dates_new = 0;  // dates the database held no returns on before
+  // The latest stored date before this load (none: the database held no returns), and
+  // whether the file brought a date after it: a nightly feed that sends no new date (the
+  // same file again, a revision of past days) has stopped moving forward.
+  std::optional<engine::Date> latest_before;
+  bool moved_forward = false;
   std::size_t values_new = 0;
   std::size_t values_unchanged = 0;
   std::size_t values_corrected = 0;
