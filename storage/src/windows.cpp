@@ -38,7 +38,8 @@ double number(const json& j) {
 
 engine::Termination parse_termination(const std::string& s) {
   for (engine::Termination t : {engine::Termination::not_run, engine::Termination::converged,
-                                engine::Termination::iteration_limit, engine::Termination::numerical_failure})
+                                engine::Termination::iteration_limit, engine::Termination::numerical_failure,
+                                engine::Termination::not_identified})
     if (s == engine::to_string(t)) return t;
   throw std::runtime_error("stored window: unknown termination '" + s + "'");
 }
