@@ -10,6 +10,7 @@
 #include "canonical.h"
 #include "chi_square.h"
 #include "eigen_top.h"
+#include "factorwatch/engine/factor_limit.h"
 #include "max_likelihood.h"
 #include "pca.h"
 #include "prepare.h"
@@ -90,14 +91,15 @@ FactorFit fit_prepared(PreparedData d, const FitOptions& options,
     f.fit_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return f;
   };
-  // Principal components need k assets; principal axis one more (a specific part
-  // must remain); ML k + 2 so that the model is not saturated.
-  const int needed = options.method == Method::pca ? k : options.method == Method::principal_axis ? k + 1 : k + 2;
-  if (N < needed) {
-    out.termination = Termination::numerical_failure;
-    out.message = "too few usable assets (" + std::to_string(N) + ") for " + std::to_string(k) +
-                  " factors by " + to_string(options.method) + "; at least " + std::to_string(needed) +
-                  " are needed";
+  // More factors than the window identifies is refused before any estimation, naming
+  // the limit (factor_limit.h); N counts the assets left after screening. A given matrix
+  // has no dates: its observations stand for them.
+  const std::string sample = S.panel() ? window_sample(N, d.periods)
+                                       : "a covariance matrix of " + std::to_string(N) + " assets from " +
+                                             std::to_string(d.periods) + " observations";
+  if (const auto refused = too_many_factors(options.method, k, N, d.periods, sample)) {
+    out.termination = Termination::not_identified;
+    out.message = describe(*refused, refused->field);
     return finish(out);
   }
 

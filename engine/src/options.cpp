@@ -80,6 +80,7 @@ const char* to_string(Termination t) {
     case Termination::converged: return "converged";
     case Termination::iteration_limit: return "iteration_limit";
     case Termination::numerical_failure: return "numerical_failure";
+    case Termination::not_identified: return "not_identified";
   }
   return "?";
 }

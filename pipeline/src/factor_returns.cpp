@@ -100,7 +100,8 @@ FactorReturnSeries factor_return_series(Database& db, long model_version_id, std
     if (w.usable)
       usable.push_back(w.as_of);
     else
-      series.skipped.push_back({w.as_of, "not usable (" + w.termination + ")"});
+      series.skipped.push_back(
+          {w.as_of, "not usable (" + w.termination + (w.reason.empty() ? "" : ": " + w.reason) + ")"});
   }
   // One span per run of up to kDatesPerSpan windows: every stored date between the first and
   // the last as-of date is read once, and no window reads its own. The span holds every

@@ -243,7 +243,10 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
       if (config.rotation.method != engine::RotationMethod::none && record.fit.IsSolutionUsable())
         record.rotation = engine::rotate_fit_loadings(record.fit.standardized_loadings(), rotation).matrix;
       summary.fit_seconds += since(t_fit);
-      if (!record.fit.IsSolutionUsable()) ++summary.unusable;
+      if (!record.fit.IsSolutionUsable()) {
+        if (summary.unusable++ == 0) summary.unusable_reason = record.fit.message;
+        else if (record.fit.message != summary.unusable_reason) summary.unusable_reasons_differ = true;
+      }
       if (plan.stale.count(point.as_of)) ++summary.refitted_stale;
 
       const auto t_write = Clock::now();

@@ -42,6 +42,7 @@ WindowPick pick_window(storage::Database& db, const WindowQuery& q) {
     // A failed fit's numbers are no model to serve or measure with.
     pick.failure = engine::failure(engine::FailureKind::not_usable, "as_of", "",
                                    "the window as of " + stamp->as_of.iso() + " has no usable fit (" + stamp->termination +
+                                       (stamp->reason.empty() ? "" : ": " + stamp->reason) +
                                        "); ask for an earlier window");
   }
   pick.stamp = std::move(*stamp);

@@ -5,6 +5,7 @@
 #include <set>
 
 #include "cell_parse.h"
+#include "factorwatch/engine/factor_limit.h"
 #include "factorwatch/storage/identifier_rule.h"
 
 namespace factorwatch::storage {
@@ -133,6 +134,15 @@ std::vector<ModelField> build_fields() {
                  if (k >= c.window)
                    return bad_number("factors", integer_text(k),
                                      "must be below the window length (" + integer_text(c.window) + " dates)");
+                 // An explicit universe bounds every window's assets, so a k it can never
+                 // identify is refused now rather than failing every window later. With
+                 // every stored asset the count can grow: the surfaces only warn.
+                 if (!c.universe.empty()) {
+                   const auto n = static_cast<long long>(c.universe.size());
+                   return engine::too_many_factors(c.fit.method, k, n, c.window,
+                                                   "a universe of " + std::to_string(n) + (n == 1 ? " asset" : " assets") +
+                                                       " with windows of " + integer_text(c.window) + " dates");
+                 }
                  return std::nullopt;
                }});
   f.push_back({"basis", FieldKind::choice, "", "covariance or correlation (default {default})", kBases, "", false,

@@ -38,7 +38,8 @@ double number(const json& j) {
 
 engine::Termination parse_termination(const std::string& s) {
   for (engine::Termination t : {engine::Termination::not_run, engine::Termination::converged,
-                                engine::Termination::iteration_limit, engine::Termination::numerical_failure})
+                                engine::Termination::iteration_limit, engine::Termination::numerical_failure,
+                                engine::Termination::not_identified})
     if (s == engine::to_string(t)) return t;
   throw std::runtime_error("stored window: unknown termination '" + s + "'");
 }
@@ -277,6 +278,7 @@ std::vector<WindowSummary> list_windows(Database& db, long model_version_id) {
     s.termination = q.getColumn(4).getString();
     s.usable = q.getColumn(5).getInt() != 0;
     const json stats = json::parse(q.getColumn(6).getString());
+    if (!s.usable) s.reason = stats.at("message").get<std::string>();
     s.periods = stats.at("periods").get<Eigen::Index>();
     s.excluded_count = static_cast<int>(stats.at("excluded").size());
     s.warm_started = stats.at("warm_started").get<bool>();
@@ -369,7 +371,8 @@ std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id
   SQLite::Statement q(db.sql(),
                       "SELECT w.as_of, w.id, w.fitted_at, w.input_hash, w.total_seconds, w.stale, "
                       "(SELECT a.alignment FROM window_alignments a WHERE a.window_id = w.id), w.usable, "
-                      "w.termination FROM windows w " +
+                      "w.termination, CASE WHEN w.usable THEN NULL ELSE w.statistics END, w.model_version_id "
+                      "FROM windows w " +
                           where + " ORDER BY as_of DESC LIMIT 1");
   q.bind(1, static_cast<std::int64_t>(model_version_id));
   if (as_of) q.bind(2, as_of->key());
@@ -391,6 +394,15 @@ std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id
   }
   stamp.usable = q.getColumn(7).getInt() != 0;
   stamp.termination = q.getColumn(8).getString();
+  // Only a failed window's statistics are read: its message says why it failed.
+  if (!q.getColumn(9).isNull()) {
+    try {
+      stamp.reason = json::parse(q.getColumn(9).getString()).at("message").get<std::string>();
+    } catch (const nlohmann::json::exception& e) {
+      detail::rethrow_for_window(db, q.getColumn(10).getInt64(), q.getColumn(0).getInt(), "windows",
+                                 std::runtime_error(std::string("statistics: ") + e.what()));
+    }
+  }
   return stamp;
 }
 

@@ -5,6 +5,7 @@
 #include <iostream>
 #include <stdexcept>
 
+#include "factorwatch/pipeline/model_checks.h"
 #include "factorwatch/storage/assets.h"
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/model_fields.h"
@@ -115,6 +116,7 @@ int run_model_set(const ModelArguments& a, storage::Database& db) {
     if (unknown > 0)
       std::printf("  note: %zu of the %zu universe assets have no stored returns yet\n", unknown, m.config.universe.size());
   }
+  if (const auto warning = pipeline::factors_warning(db, m.config)) std::printf("  warning: %s\n", warning->c_str());
   return kExitOk;
 }
 

@@ -22,6 +22,12 @@ void show_progress(const std::string& model, const pipeline::RefreshProgress& p)
   std::fflush(stderr);
 }
 
+// ": <reason>" after the count of unusable windows (the first one's, when reasons differ).
+std::string unusable_why(const pipeline::RefreshSummary& s) {
+  if (s.unusable == 0 || s.unusable_reason.empty()) return "";
+  return (s.unusable_reasons_differ ? ": the first: " : ": ") + s.unusable_reason;
+}
+
 int refresh_one(storage::Database& db, const std::string& name, bool progress) {
   const pipeline::RefreshSummary s = pipeline::refresh_model(
       db, name, progress ? pipeline::RefreshCallback([&name](const pipeline::RefreshProgress& p) { show_progress(name, p); })
@@ -30,9 +36,9 @@ int refresh_one(storage::Database& db, const std::string& name, bool progress) {
   if (s.fitted == 0) {
     std::printf("nothing to fit: %s (%zu windows current)\n", s.note.c_str(), s.already_current);
   } else {
-    std::printf("%zu window%s fitted, as of %s .. %s (%zu were stale, %zu already current), %zu unusable\n", s.fitted,
+    std::printf("%zu window%s fitted, as of %s .. %s (%zu were stale, %zu already current), %zu unusable%s\n", s.fitted,
                 s.fitted == 1 ? "" : "s", engine::iso_or_empty(s.first_as_of).c_str(), engine::iso_or_empty(s.last_as_of).c_str(), s.refitted_stale,
-                s.already_current, s.unusable);
+                s.already_current, s.unusable, unusable_why(s).c_str());
     std::printf("  %.2f s: reading %.2f s, fitting %.2f s, writing %.2f s (%.1f windows/s)\n", s.seconds,
                 s.read_seconds, s.fit_seconds, s.write_seconds, s.fitted / s.seconds);
   }
@@ -43,9 +49,15 @@ int refresh_one(storage::Database& db, const std::string& name, bool progress) {
   const auto model = storage::find_model(db, name);
   if (const auto latest = pipeline::read_served_window(db, model->id, std::nullopt)) {
     const engine::FactorFit& f = latest->fit;
-    std::printf("  latest window %s .. %s: %zu assets (%zu excluded), %d factors explain %.1f%% of the variance, %s after %d iterations%s\n",
-                latest->first_date.iso().c_str(), latest->as_of.iso().c_str(), f.assets.size(), f.excluded.size(), f.factors,
-                100 * f.explained_total, engine::to_string(f.termination), f.iterations, latest->stale ? " (stale)" : "");
+    if (!f.IsSolutionUsable()) {
+      std::printf("  latest window %s .. %s: no usable fit (%s: %s)%s\n", latest->first_date.iso().c_str(),
+                  latest->as_of.iso().c_str(), engine::to_string(f.termination), f.message.c_str(),
+                  latest->stale ? " (stale)" : "");
+    } else {
+      std::printf("  latest window %s .. %s: %zu assets (%zu excluded), %d factors explain %.1f%% of the variance, %s after %d iterations%s\n",
+                  latest->first_date.iso().c_str(), latest->as_of.iso().c_str(), f.assets.size(), f.excluded.size(), f.factors,
+                  100 * f.explained_total, engine::to_string(f.termination), f.iterations, latest->stale ? " (stale)" : "");
+    }
   }
   return s.unusable > 0 ? kExitFailed : kExitOk;
 }

@@ -1,5 +1,6 @@
 #include "windows_command.h"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <iostream>
@@ -10,6 +11,29 @@
 #include "model_views.h"
 
 namespace factorwatch::server {
+namespace {
+
+// Why each window without a usable fit has none, below the table (too long for a column):
+// windows failing for the same reason share one line, in the order of their dates.
+void print_unusable_reasons(const std::vector<storage::WindowSummary>& windows) {
+  std::vector<std::pair<std::string, std::vector<engine::Date>>> groups;
+  for (const auto& w : windows) {
+    if (w.usable) continue;
+    const std::string reason = w.reason.empty() ? w.termination : w.reason;
+    auto it = std::find_if(groups.begin(), groups.end(), [&](const auto& g) { return g.first == reason; });
+    if (it == groups.end()) groups.push_back({reason, {w.as_of}});
+    else it->second.push_back(w.as_of);
+  }
+  if (!groups.empty()) std::printf("\n");
+  for (const auto& [reason, dates] : groups) {
+    const std::string when = dates.size() == 1 ? dates.front().iso()
+                                               : std::to_string(dates.size()) + " windows, " + dates.front().iso() +
+                                                     " .. " + dates.back().iso();
+    std::printf("not usable (%s): %s\n", when.c_str(), reason.c_str());
+  }
+}
+
+}  // namespace
 
 CLI::App* add_windows_command(CLI::App& app, WindowsArguments& a) {
   CLI::App* command = app.add_subcommand("windows", "A model's stored windows with their fit statistics");
@@ -49,6 +73,7 @@ int run_windows_command(const WindowsArguments& a, const GlobalArguments& global
                   w.termination.c_str(), w.iterations, w.log_likelihood, 100 * w.explained_total, w.heywood_count,
                   1000 * w.fit_seconds, w.alignment.c_str(), residual, w.stale ? "  stale" : "");
     }
+    print_unusable_reasons(windows);
     std::printf("\nresidual: ||A R - B|| / ||B|| of the Procrustes alignment onto the reference (0: a perfect fit)\n");
     print_caution(std::cout);
   } catch (const std::exception& e) {

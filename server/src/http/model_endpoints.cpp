@@ -1,6 +1,7 @@
 #include "model_endpoints.h"
 
 #include "endpoint_helpers.h"
+#include "factorwatch/pipeline/model_checks.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
 #include "model_definition.h"
@@ -40,6 +41,8 @@ ApiResponse define_model_endpoint(const ApiContext& context, const ApiRequest& r
   j["created"] = outcome.created;
   j["new_version"] = outcome.new_version;
   j["configuration"] = outcome.model.config.to_json();
+  const auto warning = pipeline::factors_warning(db, outcome.model.config);
+  j["warning"] = warning ? nlohmann::ordered_json(*warning) : nlohmann::ordered_json();
   return json_response(j, outcome.created ? 201 : 200);
 }
 

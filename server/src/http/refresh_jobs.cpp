@@ -77,6 +77,7 @@ nlohmann::ordered_json RefreshJobs::to_json(const Job& job) {
                     {"fitted", s.fitted},
                     {"refitted_stale", s.refitted_stale},
                     {"unusable", s.unusable},
+                    {"unusable_reason", text_or_null(s.unusable_reason)},
                     {"first_as_of", s.first_as_of},
                     {"last_as_of", s.last_as_of},
                     {"seconds", s.seconds},
@@ -158,7 +159,8 @@ void RefreshJobs::run() {
       if (summary->stopped) outcome = State::stopped;
       else if (summary->unusable > 0) {
         outcome = State::failed;
-        error = std::to_string(summary->unusable) + " window(s) ended in a numerical failure (stored and flagged)";
+        error = std::to_string(summary->unusable) + " window(s) have no usable fit (stored and flagged)" +
+                (summary->unusable_reason.empty() ? "" : (summary->unusable_reasons_differ ? "; the first: " : ": ") + summary->unusable_reason);
       }
     } catch (const std::exception& e) {
       outcome = State::failed;

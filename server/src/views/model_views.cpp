@@ -50,7 +50,9 @@ nlohmann::ordered_json windows_json(const storage::ModelVersion& model, const st
                     {"total_seconds", w.total_seconds},
                     {"stale", w.stale},
                     {"alignment", w.alignment},
-                    {"alignment_residual", json_number(w.alignment_residual)}});
+                    {"alignment_residual", json_number(w.alignment_residual)},
+                    // Last, as in the CSV, whose earlier columns keep their places.
+                    {"reason", w.usable ? nlohmann::ordered_json() : nlohmann::ordered_json(w.reason)}});
   j["windows"] = std::move(rows);
   return j;
 }
@@ -58,14 +60,15 @@ nlohmann::ordered_json windows_json(const storage::ModelVersion& model, const st
 std::string windows_csv(const std::vector<storage::WindowSummary>& windows) {
   std::string out = csv_caution_line();
   out += "as_of,first_date,periods,assets,excluded,factors,termination,usable,warm_started,iterations,"
-         "largest_scaled_gradient,log_likelihood,explained_share,heywood_cases,fit_seconds,total_seconds,stale,alignment,alignment_residual\n";
+         "largest_scaled_gradient,log_likelihood,explained_share,heywood_cases,fit_seconds,total_seconds,stale,alignment,alignment_residual,reason\n";
   for (const auto& w : windows) {
     out += w.as_of.iso() + "," + w.first_date.iso() + "," + std::to_string(w.periods) + "," + std::to_string(w.asset_count) + "," +
            std::to_string(w.excluded_count) + "," + std::to_string(w.factors) + "," + csv_field(w.termination) + "," +
            yes_no(w.usable) + "," + yes_no(w.warm_started) + "," + std::to_string(w.iterations) + "," +
            csv_number(w.largest_scaled_gradient) + "," + exact_number(w.log_likelihood) + "," + exact_number(w.explained_total) + "," +
            std::to_string(w.heywood_count) + "," + exact_number(w.fit_seconds) + "," + exact_number(w.total_seconds) +
-           "," + yes_no(w.stale) + "," + csv_field(w.alignment) + "," + csv_number(w.alignment_residual) + "\n";
+           "," + yes_no(w.stale) + "," + csv_field(w.alignment) + "," + csv_number(w.alignment_residual) + "," +
+           csv_field(w.reason) + "\n";
   }
   return out;
 }

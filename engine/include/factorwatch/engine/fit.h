@@ -78,6 +78,9 @@ enum class Termination {
   converged,           // tolerance met (or closed form, for pca)
   iteration_limit,     // max_iterations reached first
   numerical_failure,   // non-finite values or a failed decomposition
+  // Not fitted: more factors than the window identifies (factor_limit.h); the message
+  // names the factors, the window's assets and dates, and the limit.
+  not_identified,
 };
 
 struct ExcludedAsset {

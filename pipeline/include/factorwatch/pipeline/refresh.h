@@ -65,7 +65,9 @@ struct RefreshSummary {
   std::size_t already_current = 0;  // stored and not stale: left alone
   std::size_t fitted = 0;           // written in this run (new or refitted)
   std::size_t refitted_stale = 0;   // of which were stale
-  std::size_t unusable = 0;         // of which ended in a numerical failure (stored, flagged)
+  std::size_t unusable = 0;         // of which have no usable fit (stored, flagged)
+  std::string unusable_reason;      // why the first of them has none (its fit's message)
+  bool unusable_reasons_differ = false;  // another of them has another reason
   std::size_t changed_during = 0;   // of which a load changed the returns of before they were
                                     // written: stored stale, so the next refresh refits them
   std::optional<engine::Date> first_as_of, last_as_of;  // of the windows written in this run

@@ -60,6 +60,9 @@ struct WindowSummary {
   int factors = 0;
   std::string termination;
   bool usable = false;
+  // Why a window has no usable fit: its fit's message (stored with every window, so also
+  // read from windows fitted before it was shown); "" for a usable window.
+  std::string reason;
   bool warm_started = false;
   int iterations = 0;
   // ML's stopping criterion at the stored estimate; NaN for other methods and for windows
@@ -90,6 +93,7 @@ struct WindowStamp {
   std::string alignment;  // fingerprint of the alignment R; "" until aligned (a realignment changes what is served)
   bool usable = true;       // the fit converged or stopped at its iteration limit
   std::string termination;  // how the fit ended ("numerical_failure" and the like when not usable)
+  std::string reason;       // why it is not usable (the fit's message); "" when usable
 
   std::string key() const;  // all of the above in one string
 };
