@@ -160,14 +160,15 @@ TEST(ApiHandlers, HostileQueryValuesNeverGiveAServerError) {
   EXPECT_GT(calls, 1500u);  // (41 parameters of the GET routes + one unknown name on each of 19) x 13 values x 2
 }
 
-// A window whose fit failed is no model to answer with: exposures, specific risk, risk,
-// factor returns and residuals answer 409 naming the window's date, the one status for
-// that failure. Before, the factor-returns routes answered 404, and every read of such a
-// window failed as "stored data damaged" (exposures and risk with a 500): a failed fit is
-// stored with its assets and no loadings, which the read took for a damaged row. Planted
-// data: after date 80 only two of the 40 assets have returns, so the last windows keep
-// two assets, too few for two factors by principal-axis, and their fits fail.
-TEST(ApiHandlers, AWindowWhoseFitFailedIsAConflictOnEveryRouteThatNeedsIt) {
+// A window whose fit failed is no model to answer with. Exposures, specific risk and risk
+// serve the latest usable window before it and say which failed, why, and which is shown;
+// only when no usable window is at or before the date asked for do they answer 409 naming
+// the window's date (before, the latest window's failure was a 409 even with usable
+// windows before it). Factor returns and residuals of a failed window named by its date
+// do the same. Planted data: after date 80 only two of the 40 assets have returns; the
+// model's calendar leaves those dates out until its lookback holds only them (from date
+// 100), so the last window keeps two assets, too few for two factors by principal-axis.
+TEST(ApiHandlers, AFailedWindowGivesWayToTheLatestUsableOneSayingWhy) {
   fw::TempDir dir;
   fw::InProcessApi api(dir.path());
   auto planted = fw::simulate_planted_model(120, 40, 2, 20261205u);
@@ -182,19 +183,41 @@ TEST(ApiHandlers, AWindowWhoseFitFailedIsAConflictOnEveryRouteThatNeedsIt) {
   ASSERT_GT(summary.unusable, 0u);
   ASSERT_GT(summary.fitted, summary.unusable);
   const std::string last = planted.panel.dates.back().iso();
+  const std::string usable = planted.panel.dates[79].iso();
   const std::string asset = planted.panel.assets.front();
-  expect_problem(api.call("GET", "/v1/models/m/exposures"), 409, "as_of", "exposures");
-  expect_problem(api.call("GET", "/v1/models/m/specific-risk?format=csv"), 409, "as_of", "specific risk");
-  expect_problem(api.call("GET", "/v1/models/m/factor-returns?window=" + last), 409, "window", "factor returns");
-  expect_problem(api.call("GET", "/v1/models/m/residuals?asset=" + asset + "&window=" + last), 409, "window",
-                 "residuals");
+  const std::string note_start = "the window as of " + last + " has no usable fit (";
+  const std::string note_end = "; showing the latest usable window before it, as of " + usable;
+  const auto exposures = api.call("GET", "/v1/models/m/exposures");
+  ASSERT_EQ(exposures.status, 200) << *exposures.body;
+  const json e = json::parse(*exposures.body);
+  EXPECT_EQ(e["as_of"], usable);
+  EXPECT_EQ(e["note"].get<std::string>().rfind(note_start, 0), 0u) << e["note"];
+  EXPECT_NE(e["note"].get<std::string>().find(note_end), std::string::npos) << e["note"];
+  const auto csv = api.call("GET", "/v1/models/m/specific-risk?format=csv&as_of=" + last);
+  ASSERT_EQ(csv.status, 200) << *csv.body;
+  EXPECT_NE(csv.body->find("window " + planted.panel.dates[20].iso() + " .. " + usable + "; note: " + note_start),
+            std::string::npos)
+      << csv.body->substr(0, 600);
   const std::string weights = R"({"weights":{")" + asset + R"(":1}})";
-  expect_problem(api.call("POST", "/v1/models/m/risk", weights), 409, "as_of", "risk");
-  // An earlier window still answers, and the series of factor returns skips the failed ones.
-  const auto earlier = api.call("POST", "/v1/models/m/risk?as_of=" + planted.panel.dates[79].iso(), weights);
-  EXPECT_EQ(earlier.status, 200) << *earlier.body;
-  EXPECT_EQ(api.call("GET", "/v1/models/m/exposures?as_of=" + planted.panel.dates[79].iso()).status, 200);
+  const auto risk = api.call("POST", "/v1/models/m/risk", weights);
+  ASSERT_EQ(risk.status, 200) << *risk.body;
+  EXPECT_NE(json::parse(*risk.body)["note"].get<std::string>().find(note_end), std::string::npos) << *risk.body;
+  // A failed window named by its date: the same, for factor returns and residuals too.
+  for (const std::string target : {"/v1/models/m/factor-returns?window=" + last,
+                                   "/v1/models/m/residuals?asset=" + asset + "&window=" + last}) {
+    const auto r = api.call("GET", target);
+    ASSERT_EQ(r.status, 200) << target << " " << *r.body;
+    EXPECT_EQ(json::parse(*r.body)["as_of"], usable) << target;
+    EXPECT_NE(json::parse(*r.body)["note"].get<std::string>().find(note_end), std::string::npos) << target;
+  }
   EXPECT_EQ(api.call("GET", "/v1/models/m/factor-returns").status, 200);
+  // No usable window at all (every window of a model asking for 45 factors of 40 assets
+  // fails): 409 naming the date.
+  ASSERT_EQ(api.call("PUT", "/v1/models/many", R"({"factors":45,"window":60,"step":20,"method":"pca"})").status, 201);
+  factorwatch::pipeline::refresh_model(api.context().database(), "many");
+  expect_problem(api.call("GET", "/v1/models/many/exposures"), 409, "as_of", "exposures");
+  expect_problem(api.call("GET", "/v1/models/many/specific-risk?format=csv"), 409, "as_of", "specific risk");
+  expect_problem(api.call("POST", "/v1/models/many/risk", weights), 409, "as_of", "risk");
 }
 
 // Dates are read once, where they enter, by one rule with one message (engine::Date,

@@ -90,12 +90,13 @@ TEST(TooManyFactors, TheReportedReproductionSaysWhyOnEverySurface) {
   r = run_factorwatch(dir.path(), "exposures k40");
   EXPECT_EQ(r.status, 1);
   EXPECT_NE(r.err.find("the window as of " + last_as_of + " has no usable fit (not_identified: " + kWindowReason +
-                       "); ask for an earlier window"),
+                       "), and no window before it has one"),
             std::string::npos)
       << r.err;
 
-  // At the limit the same windows fit.
-  ASSERT_EQ(run_factorwatch(dir.path(), "model set k22 --factors 22 --window 252 --step 10").status, 0);
+  // At the limit the same windows fit (a few iterations show it: full fits at zero degrees
+  // of freedom take minutes, and more under the sanitizers).
+  ASSERT_EQ(run_factorwatch(dir.path(), "model set k22 --factors 22 --window 252 --step 10 --max-iterations 3").status, 0);
   r = run_factorwatch(dir.path(), "refresh k22");
   EXPECT_EQ(r.out.find("not_identified"), std::string::npos) << r.out;
   EXPECT_NE(r.out.find(", 0 unusable\n"), std::string::npos) << r.out;

@@ -111,7 +111,9 @@ RiskOutcome answer_risk(storage::Database& db, const RiskRequest& q, const Windo
   RiskReport& report = out.report;
   report.window = window_model ? std::move(window_model) : load_window_risk_model(db, pick);
   const WindowRiskModel& w = *report.window;
-  if (q.window.as_of && w.as_of != *q.window.as_of)
+  if (!pick.note.empty())
+    add_note(report.note, pick.note);
+  else if (q.window.as_of && w.as_of != *q.window.as_of)
     add_note(report.note, "no window ends on " + q.window.as_of->iso() + "; using the latest before it, as of " +
                               w.as_of.iso());
 

@@ -39,11 +39,19 @@ WindowPick pick_window(storage::Database& db, const WindowQuery& q) {
     return pick;
   }
   if (!stamp->usable) {
-    // A failed fit's numbers are no model to serve or measure with.
-    pick.failure = engine::failure(engine::FailureKind::not_usable, "as_of", "",
-                                   "the window as of " + stamp->as_of.iso() + " has no usable fit (" + stamp->termination +
-                                       (stamp->reason.empty() ? "" : ": " + stamp->reason) +
-                                       "); ask for an earlier window");
+    // A failed fit's numbers are no model to serve or measure with: serve the latest
+    // usable window before it, saying which and why; fail only when there is none.
+    const std::string why = "the window as of " + stamp->as_of.iso() + " has no usable fit (" + stamp->termination +
+                            (stamp->reason.empty() ? "" : ": " + stamp->reason) + ")";
+    std::optional<storage::WindowStamp> usable = storage::find_window_stamp(db, model->id, stamp->as_of, true, true);
+    if (!usable) {
+      pick.failure = engine::failure(engine::FailureKind::not_usable, "as_of", "",
+                                     why + ", and no window before it has one");
+      pick.stamp = std::move(*stamp);
+      return pick;
+    }
+    pick.note = why + "; showing the latest usable window before it, as of " + usable->as_of.iso();
+    stamp = std::move(usable);
   }
   pick.stamp = std::move(*stamp);
   return pick;
@@ -59,7 +67,9 @@ SelectedWindow read_picked_window(storage::Database& db, const WindowPick& pick,
     throw std::runtime_error("the window of " + pick.stamp.as_of.iso() + " was refitted while being read, and the new fit "
                              "is not usable; ask again");
   s.window = std::move(*window);
-  if (q.as_of && s.window.as_of != *q.as_of)
+  if (!pick.note.empty())
+    s.note = pick.note;
+  else if (q.as_of && s.window.as_of != *q.as_of)
     s.note = "no window ends on " + q.as_of->iso() + "; showing the latest before it, as of " + s.window.as_of.iso();
   const engine::FactorFit& fit = s.window.fit;
   if (q.assets.empty()) {

@@ -365,9 +365,10 @@ std::string WindowStamp::key() const {
 }
 
 std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, std::optional<engine::Date> as_of,
-                                             bool at_or_before) {
+                                             bool at_or_before, bool usable_only) {
   std::string where = "WHERE model_version_id = ?1";
   if (as_of) where += at_or_before ? " AND as_of <= ?2" : " AND as_of = ?2";
+  if (usable_only) where += " AND usable = 1";
   SQLite::Statement q(db.sql(),
                       "SELECT w.as_of, w.id, w.fitted_at, w.input_hash, w.total_seconds, w.stale, "
                       "(SELECT a.alignment FROM window_alignments a WHERE a.window_id = w.id), w.usable, "

@@ -1,6 +1,6 @@
 // What every one-window rendering starts with, so the CLI and the daemon describe a
 // window the same way: the JSON members caution, model, version, as_of, first_date,
-// and the CSV comment line "# model NAME version N, window FIRST .. AS_OF".
+// and the CSV comment line "# model NAME version N, window FIRST .. AS_OF[; note: NOTE]".
 #pragma once
 
 #include <nlohmann/json.hpp>

@@ -28,10 +28,15 @@ struct WindowQuery {
 struct WindowPick {
   // Why there is none: an unknown model (field "model"), an as-of date that is not a date
   // (bad input, "as_of"), no window stored at or before it (not stored; "as_of" when a
-  // date was given), or a window whose fit failed (not usable, "as_of"; `stamp` names it).
+  // date was given), or no usable window at or before it (not usable, "as_of"; `stamp`
+  // names the failed one).
   std::optional<engine::Failure> failure;
   storage::ModelVersion model;
+  // The window served: the latest at or before the date asked for whose fit is usable.
   storage::WindowStamp stamp;
+  // When a later window's fit failed and an earlier one is served: which failed, why, and
+  // which is shown (every surface shows it; part of a cache key).
+  std::string note;
 };
 
 struct MissingAsset {

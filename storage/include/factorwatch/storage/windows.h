@@ -139,8 +139,9 @@ std::optional<WindowRecord> read_window(Database& db, long model_version_id, std
 // The alignment row of a window (by its row id); nullopt until the refresh aligned it.
 std::optional<WindowAlignment> read_alignment(Database& db, long long window_id);
 
-// The stamp of the window read_window would return, from one indexed row, no BLOBs.
+// The stamp of the window read_window would return, from one indexed row, no BLOBs; with
+// `usable_only`, of the latest window among those whose fit is usable.
 std::optional<WindowStamp> find_window_stamp(Database& db, long model_version_id, std::optional<engine::Date> as_of,
-                                             bool at_or_before = true);
+                                             bool at_or_before = true, bool usable_only = false);
 
 }  // namespace factorwatch::storage
