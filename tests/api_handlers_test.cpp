@@ -203,7 +203,7 @@ TEST(ApiHandlers, AFailedWindowGivesWayToTheLatestUsableOneSayingWhy) {
   ASSERT_EQ(risk.status, 200) << *risk.body;
   EXPECT_NE(json::parse(*risk.body)["note"].get<std::string>().find(note_end), std::string::npos) << *risk.body;
   // A failed window named by its date: the same, for factor returns and residuals too.
-  for (const std::string target : {"/v1/models/m/factor-returns?window=" + last,
+  for (const std::string& target : {"/v1/models/m/factor-returns?window=" + last,
                                    "/v1/models/m/residuals?asset=" + asset + "&window=" + last}) {
     const auto r = api.call("GET", target);
     ASSERT_EQ(r.status, 200) << target << " " << *r.body;

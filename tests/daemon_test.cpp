@@ -346,7 +346,11 @@ TEST(Daemon, ErrorsAreProblemDetailsNamingTheField) {
       {"", "/v1/models/m/exposures?as_of=1999-01-01", 404, "as_of"},
       {"", "/v1/jobs/77", 404, "id"},
       {"", "/v1/nothing-here", 404, ""},
-      {"-X DELETE", "/v1/models/m", 405, ""},
+      {"-X PATCH", "/v1/models/m", 405, ""},
+      {"-X DELETE", "/v1/models/m", 401, "Authorization"},
+      {bearer(token) + " -X DELETE", "/v1/models/nope", 404, "name"},
+      {bearer(token) + " -d '{\"name\":\"bad name\"}'", "/v1/models/m/rename", 400, "name"},
+      {bearer(token) + " -d '{\"nom\":\"x\"}'", "/v1/models/m/rename", 400, "nom"},
       {bearer(token) + " -X PUT -d '{\"factors\":\"two\"}'", "/v1/models/m", 400, "factors"},
       {bearer(token) + " -X PUT -d '{\"min_coverage\":3}'", "/v1/models/m", 400, "min_coverage"},
       {bearer(token) + " -X PUT -d '{\"colour\":1}'", "/v1/models/m", 400, "colour"},
@@ -368,6 +372,60 @@ TEST(Daemon, ErrorsAreProblemDetailsNamingTheField) {
       EXPECT_NE(p["detail"].get<std::string>().find(c.field), std::string::npos) << r.body;
     }
   }
+}
+
+// A model's life over HTTP, with the token: prune the superseded version, rename (the
+// cached exposures then carry the new name, never the old), delete; and none of the
+// three while the model's refresh is queued or running (409 naming the job).
+TEST(Daemon, ModelsArePrunedRenamedAndDeletedButNotUnderTheirRefresh) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  load_and_fit(dir, daemon, token, 140, R"({"factors":2,"window":100,"step":20,"method":"pca"})");
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -X PUT -d '{\"factors\":3}'", daemon.url("/v1/models/m")).status, 200);
+  ASSERT_EQ(fw::run_factorwatch(dir.path(), "refresh m").status, 0);
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m/exposures")).body)["model"], "m");
+
+  auto r = fw::curl(dir.path(), bearer(token) + " -d ''", daemon.url("/v1/models/m/prune"));
+  ASSERT_EQ(r.status, 200) << r.body;
+  EXPECT_EQ(json::parse(r.body), json::parse(R"({"model":"m","versions_deleted":1,"windows_deleted":3,"version_kept":2})"));
+
+  r = fw::curl(dir.path(), bearer(token) + " -d '{\"name\":\"m2\"}'", daemon.url("/v1/models/m/rename"));
+  ASSERT_EQ(r.status, 200) << r.body;
+  EXPECT_EQ(json::parse(r.body), json::parse(R"({"model":"m2","renamed_from":"m"})"));
+  r = fw::curl(dir.path(), "", daemon.url("/v1/models/m2/exposures"));
+  ASSERT_EQ(r.status, 200) << r.body;
+  EXPECT_EQ(json::parse(r.body)["model"], "m2");
+  EXPECT_EQ(fw::curl(dir.path(), "", daemon.url("/v1/models/m/exposures")).status, 404);
+
+  // A long refresh of another model: while it runs, that model is not deleted, pruned or renamed.
+  const std::string more = write_returns(dir, 700, "more.csv");
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" + more + "'",
+                     daemon.url("/v1/returns")).status,
+            200);
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -X PUT -d '{\"factors\":2,\"window\":100,\"step\":1,\"method\":\"ml\"}'",
+                     daemon.url("/v1/models/busy")).status,
+            201);
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -d ''", daemon.url("/v1/models/busy/refresh")).status, 202);
+  r = fw::curl(dir.path(), bearer(token) + " -X DELETE", daemon.url("/v1/models/busy"));
+  EXPECT_EQ(r.status, 409) << r.body;
+  EXPECT_NE(json::parse(r.body)["detail"].get<std::string>().find("while its refresh (job 1) is queued or running"),
+            std::string::npos)
+      << r.body;
+  EXPECT_EQ(fw::curl(dir.path(), bearer(token) + " -d '{\"name\":\"idle\"}'", daemon.url("/v1/models/busy/rename")).status,
+            409);
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/jobs/1")).body)["state"] != "finished", true)
+      << "the refresh finished before the requests: make it longer";
+  // A taken name is a conflict too.
+  EXPECT_EQ(fw::curl(dir.path(), bearer(token) + " -d '{\"name\":\"busy\"}'", daemon.url("/v1/models/m2/rename")).status,
+            409);
+
+  r = fw::curl(dir.path(), bearer(token) + " -X DELETE", daemon.url("/v1/models/m2"));
+  ASSERT_EQ(r.status, 200) << r.body;
+  EXPECT_EQ(json::parse(r.body), json::parse(R"({"model":"m2","versions_deleted":1,"windows_deleted":3})"));
+  EXPECT_EQ(fw::curl(dir.path(), "", daemon.url("/v1/models/m2")).status, 404);
+  EXPECT_EQ(fw::curl(dir.path(), "", daemon.url("/v1/models/m2/exposures")).status, 404);
 }
 
 // Readers never wait for the refresh: while a background refresh writes window after

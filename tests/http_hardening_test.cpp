@@ -68,7 +68,7 @@ TEST(HttpHardening, BytesThatAreNotUtf8InThePathGetAProblemAndTheDaemonLives) {
   EXPECT_EQ(fw::status_of(raw), 400) << raw;
   EXPECT_TRUE(alive(dir, daemon)) << daemon.log();
   // The 405 path builds its body the same way.
-  EXPECT_EQ(fw::curl(dir.path(), "-X DELETE", daemon.url("/v1/models/%FF")).status, 405);
+  EXPECT_EQ(fw::curl(dir.path(), "-X PATCH", daemon.url("/v1/models/%FF")).status, 405);
   EXPECT_TRUE(alive(dir, daemon));
 }
 

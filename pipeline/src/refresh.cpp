@@ -146,6 +146,10 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
   const ModelConfig& config = model->config;
   const Plan plan = make_plan(db, *model);
   const std::vector<engine::Date>& dates = plan.dates;
+  const std::vector<std::int32_t> universe = universe_ids(db, config);
+  if (!config.universe.empty() && universe.empty())
+    throw std::invalid_argument("model '" + model->name + "': none of its " + std::to_string(config.universe.size()) +
+                                " universe assets has stored returns");
   if (dates.size() < static_cast<std::size_t>(config.window)) {
     if (dates.size() == plan.stored.size())
       summary.note = std::to_string(dates.size()) + " dates stored, fewer than the window of " +
@@ -168,10 +172,6 @@ Pass fit_pending(Database& db, const ModelVersion& m, const RefreshCallback& pro
 
   const engine::FitOptions base = config.fit_options();
   const engine::RotationOptions rotation = config.rotation;
-  const std::vector<std::int32_t> universe = universe_ids(db, config);
-  if (!config.universe.empty() && universe.empty())
-    throw std::invalid_argument("model '" + model->name + "': none of its " + std::to_string(config.universe.size()) +
-                                " universe assets has stored returns");
   const auto window = static_cast<std::size_t>(config.window);
   std::optional<engine::FactorFit> previous;  // the fit of the grid point before the next one
   // Date-by-date products carried from each window to the next (window_products.h): a

@@ -49,19 +49,29 @@ std::vector<std::int32_t> asset_ids(SQLite::Database& sql, const std::vector<std
   return ids;
 }
 
-// Marks stale every current window whose dates [first_date, as_of] hold a changed date.
+// Marks stale every window not stale yet whose dates [first_date, as_of] hold a changed
+// date, and returns how many of them belong to a model's current version: a superseded
+// version's windows are marked too (their numbers no longer match the returns), but no
+// refresh refits them, so they are not counted as work for the next refresh.
 std::size_t mark_stale(SQLite::Database& sql, std::vector<std::int32_t> changed) {
   if (changed.empty()) return 0;
   std::sort(changed.begin(), changed.end());
   std::vector<long long> hit;
-  SQLite::Statement windows(sql, "SELECT id, first_date, as_of FROM windows WHERE stale = 0 AND as_of >= ? AND first_date <= ?");
+  std::size_t current = 0;
+  SQLite::Statement windows(sql,
+                            "SELECT w.id, w.first_date, w.as_of, v.version = (SELECT max(version) FROM model_versions "
+                            "WHERE model_id = v.model_id) FROM windows w JOIN model_versions v ON v.id = w.model_version_id "
+                            "WHERE w.stale = 0 AND w.as_of >= ? AND w.first_date <= ?");
   windows.bind(1, changed.front());
   windows.bind(2, changed.back());
   while (windows.executeStep()) {
     const auto first = windows.getColumn(1).getInt();
     const auto last = windows.getColumn(2).getInt();
     const auto at = std::lower_bound(changed.begin(), changed.end(), first);
-    if (at != changed.end() && *at <= last) hit.push_back(windows.getColumn(0).getInt64());
+    if (at != changed.end() && *at <= last) {
+      hit.push_back(windows.getColumn(0).getInt64());
+      current += windows.getColumn(3).getInt() != 0;
+    }
   }
   SQLite::Statement mark(sql, "UPDATE windows SET stale = 1 WHERE id = ?");
   for (long long id : hit) {
@@ -69,7 +79,7 @@ std::size_t mark_stale(SQLite::Database& sql, std::vector<std::int32_t> changed)
     mark.exec();
     mark.reset();
   }
-  return hit.size();
+  return current;
 }
 
 }  // namespace

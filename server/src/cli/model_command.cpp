@@ -9,6 +9,7 @@
 #include "factorwatch/storage/assets.h"
 #include "factorwatch/storage/input_error.h"
 #include "factorwatch/storage/model_fields.h"
+#include "factorwatch/storage/model_lifecycle.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
 #include "cli_failure.h"
@@ -155,6 +156,44 @@ int run_model_list(storage::Database& db) {
   return kExitOk;
 }
 
+int no_such_model(const char* command, const std::string& name) {
+  std::fprintf(stderr, "factorwatch model %s: no model named '%s' (factorwatch model list shows them)\n", command,
+               name.c_str());
+  return kExitBadInput;
+}
+
+int run_model_delete(const ModelArguments& a, storage::Database& db) {
+  const auto removed = storage::delete_model(db, a.name);
+  if (!removed) return no_such_model("delete", a.name);
+  std::printf("model %s deleted: %zu version%s and %zu window%s, with their alignments, drift and alerts; the stored "
+              "returns and portfolios are kept\n",
+              a.name.c_str(), removed->versions, removed->versions == 1 ? "" : "s", removed->windows,
+              removed->windows == 1 ? "" : "s");
+  return kExitOk;
+}
+
+int run_model_prune(const ModelArguments& a, storage::Database& db) {
+  const auto removed = storage::prune_model(db, a.name);
+  if (!removed) return no_such_model("prune", a.name);
+  const auto m = storage::find_model(db, a.name);
+  const storage::WindowCounts counts = storage::count_windows(db, m->id);
+  std::printf("model %s: %zu superseded version%s pruned with %zu window%s; version %d and its %zu window%s kept\n",
+              a.name.c_str(), removed->versions, removed->versions == 1 ? "" : "s", removed->windows,
+              removed->windows == 1 ? "" : "s", m->version, counts.windows, counts.windows == 1 ? "" : "s");
+  return kExitOk;
+}
+
+int run_model_rename(const ModelArguments& a, storage::Database& db) {
+  try {
+    if (!storage::rename_model(db, a.name, a.new_name)) return no_such_model("rename", a.name);
+  } catch (const std::invalid_argument& e) {
+    std::fprintf(stderr, "factorwatch model rename: %s\nNothing was changed.\n", e.what());
+    return kExitBadInput;
+  }
+  std::printf("model %s renamed to %s (every version and window goes with it)\n", a.name.c_str(), a.new_name.c_str());
+  return kExitOk;
+}
+
 }  // namespace
 
 CLI::App* add_model_command(CLI::App& app, ModelArguments& a) {
@@ -184,6 +223,13 @@ CLI::App* add_model_command(CLI::App& app, ModelArguments& a) {
   a.show->add_option("NAME", a.name, "Model name")->required();
   a.show->add_option("--format", a.format, "table or json")->check(CLI::IsMember({"table", "json"}))->capture_default_str();
   a.list = model->add_subcommand("list", "List the models");
+  a.remove = model->add_subcommand("delete", "Delete a model: every version, window, alignment, drift row and alert");
+  a.remove->add_option("NAME", a.name, "Model name")->required();
+  a.prune = model->add_subcommand("prune", "Delete the versions a change superseded, with their windows");
+  a.prune->add_option("NAME", a.name, "Model name")->required();
+  a.rename = model->add_subcommand("rename", "Give a model a new name");
+  a.rename->add_option("NAME", a.name, "Model name")->required();
+  a.rename->add_option("NEW_NAME", a.new_name, "New name: letters, digits, '.', '_', '-'")->required();
   return model;
 }
 
@@ -193,6 +239,9 @@ int run_model_command(const ModelArguments& a, const GlobalArguments& global) {
   try {
     if (a.set->parsed()) return run_model_set(a, *db);
     if (a.show->parsed()) return run_model_show(a, *db);
+    if (a.remove->parsed()) return run_model_delete(a, *db);
+    if (a.prune->parsed()) return run_model_prune(a, *db);
+    if (a.rename->parsed()) return run_model_rename(a, *db);
     return run_model_list(*db);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "factorwatch model: %s\n", e.what());

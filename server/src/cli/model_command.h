@@ -1,4 +1,5 @@
-// `factorwatch model set NAME [options]`, `model show NAME`, `model list`.
+// `factorwatch model set NAME [options]`, `model show NAME`, `model list`,
+// `model delete NAME`, `model prune NAME`, `model rename NAME NEW_NAME`.
 //
 // `set` on an existing model changes only the options given; any change starts a new
 // version (stored windows keep the version they were fitted with).
@@ -23,12 +24,13 @@ struct ModelOptionValue {
 
 struct ModelArguments {
   std::string name;
+  std::string new_name;  // model rename
   // One entry per member of the field table that the command line sets, by member name
   // (a map: CLI11 keeps the addresses of the values).
   std::map<std::string, ModelOptionValue> options;
   bool equal_weights = false;  // --equal-weights: the half-life's default, said as a flag
   std::string format = "table";
-  CLI::App *set = nullptr, *show = nullptr, *list = nullptr;
+  CLI::App *set = nullptr, *show = nullptr, *list = nullptr, *remove = nullptr, *prune = nullptr, *rename = nullptr;
 };
 
 CLI::App* add_model_command(CLI::App& app, ModelArguments& arguments);

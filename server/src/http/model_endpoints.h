@@ -11,6 +11,9 @@ ApiResponse list_models_endpoint(const ApiContext& context, const ApiRequest& re
 ApiResponse show_model_endpoint(const ApiContext& context, const ApiRequest& request);
 ApiResponse define_model_endpoint(const ApiContext& context, const ApiRequest& request);
 ApiResponse start_refresh_endpoint(const ApiContext& context, const ApiRequest& request);
+ApiResponse delete_model_endpoint(const ApiContext& context, const ApiRequest& request);
+ApiResponse prune_model_endpoint(const ApiContext& context, const ApiRequest& request);
+ApiResponse rename_model_endpoint(const ApiContext& context, const ApiRequest& request);
 ApiResponse list_jobs_endpoint(const ApiContext& context, const ApiRequest& request);
 ApiResponse show_job_endpoint(const ApiContext& context, const ApiRequest& request);
 

@@ -35,6 +35,13 @@ const char* RefreshJobs::state_name(State s) {
   return "unknown";
 }
 
+std::optional<long> RefreshJobs::active_job(const std::string& model) const {
+  std::lock_guard<std::mutex> lock(mutex_);
+  for (const auto& [id, job] : jobs_)
+    if (job.model == model && (job.state == State::queued || job.state == State::running)) return id;
+  return std::nullopt;
+}
+
 RefreshJobs::Submitted RefreshJobs::submit(const std::string& model) {
   std::lock_guard<std::mutex> lock(mutex_);
   for (const auto& [id, job] : jobs_)

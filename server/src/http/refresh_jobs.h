@@ -33,6 +33,10 @@ class RefreshJobs {
   };
   Submitted submit(const std::string& model);
 
+  // The id of the model's queued or running refresh, if it has one (a delete, prune or
+  // rename waits for it rather than pulling the model from under it).
+  std::optional<long> active_job(const std::string& model) const;
+
   std::optional<nlohmann::ordered_json> job_json(long id) const;
   nlohmann::ordered_json jobs_json() const;
 

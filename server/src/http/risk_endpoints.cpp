@@ -19,7 +19,8 @@ using nlohmann::ordered_json;
 std::shared_ptr<const pipeline::WindowRiskModel> cached_model(const ApiContext& context, storage::Database& db,
                                                     const pipeline::WindowPick& pick) {
   if (pick.failure) return nullptr;
-  const std::string key = std::to_string(pick.model.id) + "|" + pick.stamp.key();
+  // The name too: a renamed model keeps its version ids, and the report names the model.
+  const std::string key = std::to_string(pick.model.id) + "|" + pick.model.name + "|" + pick.stamp.key();
   if (context.risk_models)
     if (auto model = context.risk_models->find(key)) return model;
   auto model = pipeline::load_window_risk_model(db, pick);

@@ -33,7 +33,8 @@ ApiResponse window_endpoint(const ApiContext& context, const ApiRequest& r, cons
   // stored, which the window stamp does not cover.
   const bool cacheable = query.assets.empty();
   const std::string key = std::string(what) + (f == Format::csv ? "|csv|" : "|json|") +
-                          std::to_string(pick.model.id) + "|" + pick.stamp.key() + "|" + engine::iso_or_empty(query.as_of) +
+                          std::to_string(pick.model.id) + "|" + pick.model.name + "|" + pick.stamp.key() + "|" +
+                          engine::iso_or_empty(query.as_of) +
                           "|" + pick.note;
   std::shared_ptr<const std::string> body = cacheable ? context.cache->find(key) : nullptr;
   if (!body) {

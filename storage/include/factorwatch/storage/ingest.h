@@ -48,7 +48,7 @@ struct LoadSummary {
   std::size_t values_new = 0;
   std::size_t values_unchanged = 0;
   std::size_t values_corrected = 0;
-  std::size_t windows_marked_stale = 0;
+  std::size_t windows_marked_stale = 0;  // of models' current versions (superseded ones are marked, not counted)
   double seconds = 0;  // storing, not reading
 };
 
