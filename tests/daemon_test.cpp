@@ -374,6 +374,29 @@ TEST(Daemon, ErrorsAreProblemDetailsNamingTheField) {
   }
 }
 
+// Health counts the models behind the stored returns, and names them to the token holder.
+TEST(Daemon, HealthCountsTheModelsBehindTheData) {
+  fw::TempDir dir;
+  fw::DaemonProcess daemon(dir.path());
+  ASSERT_TRUE(daemon.ready()) << daemon.log();
+  const std::string token = token_of(dir.path());
+  load_and_fit(dir, daemon, token, 120, R"({"factors":2,"window":100,"step":20,"method":"pca"})");
+  json health = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/health")).body);
+  EXPECT_EQ(health["models_behind"], 0) << health.dump();
+  const std::string more = write_returns(dir, 140, "more.csv");  // 20 dates more: a window to fit
+  ASSERT_EQ(fw::curl(dir.path(), bearer(token) + " -H 'Content-Type: text/csv' --data-binary @'" + more + "'",
+                     daemon.url("/v1/returns")).status,
+            200);
+  health = json::parse(fw::curl(dir.path(), "", daemon.url("/v1/health")).body);
+  EXPECT_EQ(health["models_behind"], 1) << health.dump();
+  EXPECT_FALSE(health.contains("behind")) << health.dump();
+  health = json::parse(fw::curl(dir.path(), bearer(token), daemon.url("/v1/health")).body);
+  ASSERT_EQ(health["behind"].size(), 1u) << health.dump();
+  EXPECT_EQ(health["behind"][0]["model"], "m");
+  EXPECT_GE(health["behind"][0]["pending_windows"].get<int>(), 1);
+  EXPECT_EQ(json::parse(fw::curl(dir.path(), "", daemon.url("/v1/models/m")).body)["behind"], true);
+}
+
 // A model's life over HTTP, with the token: prune the superseded version, rename (the
 // cached exposures then carry the new name, never the old), delete; and none of the
 // three while the model's refresh is queued or running (409 naming the job).

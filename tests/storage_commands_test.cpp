@@ -75,6 +75,28 @@ TEST_F(NightlyRoutine, LoadDefineRefreshThenOneWindowANight) {
   EXPECT_NE(r.out.find(engine::kCaution), std::string::npos);
 }
 
+// A model behind the newest data says so: `model show` names the latest stored date and
+// the windows a refresh would fit; before, it said "latest as of ..." and nothing about
+// the dates stored after it.
+TEST_F(NightlyRoutine, ModelShowSaysWhenTheModelIsBehindTheData) {
+  ASSERT_EQ(run_factorwatch(dir.path(), "load " + dir.file("history.csv")).status, 0);
+  ASSERT_EQ(run_factorwatch(dir.path(), "model set demo --method pca --factors 2 --window 100").status, 0);
+  auto r = run_factorwatch(dir.path(), "model show demo");
+  EXPECT_NE(r.out.find("  data:          returns stored to " + before_last + "; behind: 30 windows to fit (new dates or "
+                       "stale windows); run: factorwatch refresh demo\n"),
+            std::string::npos)
+      << r.out;
+  ASSERT_EQ(run_factorwatch(dir.path(), "refresh demo").status, 0);
+  r = run_factorwatch(dir.path(), "model show demo");
+  EXPECT_NE(r.out.find("  data:          returns stored to " + before_last + "; up to date\n"), std::string::npos) << r.out;
+  ASSERT_EQ(run_factorwatch(dir.path(), "load " + dir.file("night.csv")).status, 0);
+  const auto j = nlohmann::json::parse(run_factorwatch(dir.path(), "model show demo --format json").out);
+  EXPECT_EQ(j["latest_stored_date"], last_date);
+  EXPECT_EQ(j["latest_as_of"], before_last);
+  EXPECT_EQ(j["pending_windows"], 1);
+  EXPECT_EQ(j["behind"], true);
+}
+
 // Exit 3 means "no new date", whatever else the file did: a revision of past days (a
 // correction) is stored, and still says the feed has not moved on; a file that adds a
 // date after the latest stored one exits 0, and so does the first load.

@@ -128,14 +128,16 @@ int run_model_show(const ModelArguments& a, storage::Database& db) {
     return kExitBadInput;
   }
   const storage::WindowCounts counts = storage::count_windows(db, m->id);
+  const pipeline::ModelStanding standing = pipeline::model_standing(db, *m);
   if (a.format == "json") {
-    std::cout << model_json(*m, counts).dump(2) << "\n";
+    std::cout << model_json(*m, counts, standing).dump(2) << "\n";
     return kExitOk;
   }
   std::printf("model %s, version %d (since %s, configuration %s)\n%s", m->name.c_str(), m->version,
               m->created_at.c_str(), m->configuration_hash.c_str(), describe(m->config).c_str());
   std::printf("  windows:       %zu stored (%zu stale)%s%s\n", counts.windows, counts.stale,
               counts.windows == 0 ? "" : ", latest as of ", engine::iso_or_empty(counts.latest_as_of).c_str());
+  std::printf("  data:          %s\n", standing_text(m->name, standing).c_str());
   return kExitOk;
 }
 

@@ -26,7 +26,7 @@ ApiResponse show_model_endpoint(const ApiContext& context, const ApiRequest& r) 
   storage::Database& db = context.database();
   const auto model = storage::find_model(db, name);
   if (!model) return unknown_model(r, name);
-  return json_response(model_json(*model, storage::count_windows(db, model->id)));
+  return json_response(model_json(*model, storage::count_windows(db, model->id), pipeline::model_standing(db, *model)));
 }
 
 ApiResponse define_model_endpoint(const ApiContext& context, const ApiRequest& r) {

@@ -1,7 +1,11 @@
 #include "service_endpoints.h"
 
 #include "endpoint_helpers.h"
+#include "factorwatch/pipeline/model_standing.h"
 #include "factorwatch/storage/database.h"
+#include "factorwatch/storage/date_key.h"
+#include "factorwatch/storage/models.h"
+#include "factorwatch/storage/returns_span.h"
 #include "routes.h"
 
 #ifndef FACTORWATCH_VERSION
@@ -30,9 +34,23 @@ ApiResponse health_endpoint(const ApiContext& context, const ApiRequest& r) {
   // client holding the token sees it; anyone else sees the file's name.
   const std::string& path = context.database_path;
   const std::string shown = r.authorised ? path : path.substr(path.find_last_of('/') + 1);
-  return json_response({{"status", "ready"},
-                        {"schema_version", context.database().schema_version()},
-                        {"database", shown}});
+  // Models behind the stored returns (a refresh would fit windows now): a nightly refresh
+  // that did not run, or failed. Their names only for a client holding the token.
+  storage::Database& db = context.database();
+  nlohmann::ordered_json behind = nlohmann::ordered_json::array();
+  std::size_t behind_count = 0;
+  for (const storage::ModelVersion& m : storage::list_models(db)) {
+    const pipeline::ModelStanding s = pipeline::model_standing(db, m);
+    if (!s.behind()) continue;
+    ++behind_count;
+    if (r.authorised) behind.push_back({{"model", m.name}, {"latest_as_of", s.latest_window}, {"pending_windows", s.pending}});
+  }
+  const std::vector<engine::Date> dates = storage::stored_dates(db);
+  nlohmann::ordered_json j = {{"status", "ready"}, {"schema_version", db.schema_version()}, {"database", shown}};
+  j["latest_stored_date"] = dates.empty() ? nlohmann::ordered_json() : nlohmann::ordered_json(dates.back());
+  j["models_behind"] = behind_count;
+  if (r.authorised) j["behind"] = std::move(behind);
+  return json_response(j);
 }
 
 ApiResponse version_endpoint(const ApiContext&, const ApiRequest&) {

@@ -73,7 +73,16 @@ std::string windows_csv(const std::vector<storage::WindowSummary>& windows) {
   return out;
 }
 
-nlohmann::ordered_json model_json(const storage::ModelVersion& m, const storage::WindowCounts& counts) {
+std::string standing_text(const std::string& model, const pipeline::ModelStanding& s) {
+  if (!s.latest_stored) return "no returns stored yet";
+  std::string text = "returns stored to " + s.latest_stored->iso() + "; ";
+  if (!s.behind()) return text + "up to date";
+  return text + "behind: " + std::to_string(s.pending) + " window" + (s.pending == 1 ? "" : "s") +
+         " to fit (new dates or stale windows); run: factorwatch refresh " + model;
+}
+
+nlohmann::ordered_json model_json(const storage::ModelVersion& m, const storage::WindowCounts& counts,
+                                  const pipeline::ModelStanding& standing) {
   nlohmann::ordered_json j;
   j["model"] = m.name;
   j["version"] = m.version;
@@ -83,6 +92,9 @@ nlohmann::ordered_json model_json(const storage::ModelVersion& m, const storage:
   j["windows"] = counts.windows;
   j["stale_windows"] = counts.stale;
   j["latest_as_of"] = counts.latest_as_of;
+  j["latest_stored_date"] = standing.latest_stored;
+  j["pending_windows"] = standing.pending;
+  j["behind"] = standing.behind();
   return j;
 }
 

@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "factorwatch/pipeline/model_standing.h"
 #include "factorwatch/storage/database.h"
 #include "factorwatch/storage/models.h"
 #include "factorwatch/storage/windows.h"
@@ -17,7 +18,12 @@ nlohmann::ordered_json windows_json(const storage::ModelVersion& model, const st
 std::string windows_csv(const std::vector<storage::WindowSummary>& windows);
 
 // One model: configuration, window count, stale count, latest as-of.
-nlohmann::ordered_json model_json(const storage::ModelVersion& model, const storage::WindowCounts& counts);
+// With the model's standing: latest_stored_date, pending_windows and behind (a refresh
+// would fit windows now).
+nlohmann::ordered_json model_json(const storage::ModelVersion& model, const storage::WindowCounts& counts,
+                                  const pipeline::ModelStanding& standing);
+// "returns stored to 2025-12-31; up to date" or "...; 3 windows to fit: run factorwatch refresh NAME".
+std::string standing_text(const std::string& model, const pipeline::ModelStanding& standing);
 
 // Every model, one line each (name, version, method, factors, window, step, windows,
 // latest as-of).
