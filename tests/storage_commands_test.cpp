@@ -61,6 +61,10 @@ TEST_F(NightlyRoutine, LoadDefineRefreshThenOneWindowANight) {
       << r.out;
   r = run_factorwatch(dir.path(), "refresh demo");
   EXPECT_NE(r.out.find("nothing to fit"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("  no new date: nothing is stored after the latest window, " + last_date +
+                       "; the feed has not moved on\n"),
+            std::string::npos)
+      << r.out;
 
   // windows: 31, in three formats, all with the caution.
   r = run_factorwatch(dir.path(), "windows demo --format json");

@@ -4,6 +4,7 @@
 #include <iostream>
 #include <stdexcept>
 
+#include "factorwatch/pipeline/model_standing.h"
 #include "factorwatch/pipeline/refresh.h"
 #include "factorwatch/pipeline/served_windows.h"
 #include "factorwatch/storage/models.h"
@@ -47,6 +48,14 @@ int refresh_one(storage::Database& db, const std::string& name, bool progress) {
               s.alerts, s.alerts == 1 ? "" : "s", s.align_seconds,
               s.alerts > 0 ? "; factorwatch alerts shows them" : "");
   const auto model = storage::find_model(db, name);
+  // Nothing fitted and no date stored after the latest window: the night's file brought
+  // nothing new (load exits 3 then); said here too, for the log of a nightly run.
+  if (s.fitted == 0) {
+    const pipeline::ModelStanding standing = pipeline::model_standing(db, *model);
+    if (standing.latest_window && standing.latest_stored && *standing.latest_stored <= *standing.latest_window)
+      std::printf("  no new date: nothing is stored after the latest window, %s; the feed has not moved on\n",
+                  standing.latest_window->iso().c_str());
+  }
   if (const auto latest = pipeline::read_served_window(db, model->id, std::nullopt)) {
     const engine::FactorFit& f = latest->fit;
     if (!f.IsSolutionUsable()) {
